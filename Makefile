@@ -1,0 +1,34 @@
+# massmodel: `make demo` runs the main job on the demo car, `make test` runs the test suite.
+# Both create or refresh the virtual environment in .venv first (idempotent: reinstalls only when
+# pyproject.toml changes).
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.massmodel-installed
+export VTK_DEFAULT_OPENGL_WINDOW ?= vtkEGLRenderWindow
+export PIP_DISABLE_PIP_VERSION_CHECK := 1
+
+.PHONY: venv test demo bench lint clean
+
+$(STAMP): pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install -q -e '.[dev]' 2>&1 | grep -v "^WARNING: Location" || true
+	$(PY) -c "import massmodel, numpy, cadquery, trimesh, pyvista, pytest"
+	touch $(STAMP)
+
+venv: $(STAMP)
+
+test: venv
+	$(PY) -m pytest -q -p no:cacheprovider
+
+demo: venv
+	bash parts_demo/run_demo.sh
+
+bench: venv
+	for b in benchmarks/bench_*.py; do $(PY) $$b || exit 1; done
+
+lint: venv
+	$(VENV)/bin/ruff check massmodel tests benchmarks
+
+clean:
+	rm -rf exports/demo
