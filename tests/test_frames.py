@@ -1,0 +1,51 @@
+"""Poses and rotation sequences against scipy's Rotation (independent oracle) and hand geometry."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.spatial.transform import Rotation
+
+from conftest import assert_close
+from massmodel.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+
+
+@pytest.mark.parametrize("seq", ["xyz", "zyx", "zxz", "y", "xy"])
+def test_sequences_match_scipy(seq):
+    angles = (0.3, -1.1, 2.0)[: len(seq)]
+    # scipy: lower-case = extrinsic, upper-case = intrinsic (scipy.spatial.transform.Rotation.from_euler docs).
+    assert_close(rotation_from_sequence(RotationKind.EXTRINSIC, seq, angles),
+                 Rotation.from_euler(seq, angles).as_matrix(), 1e-14)
+    assert_close(rotation_from_sequence(RotationKind.INTRINSIC, seq, angles),
+                 Rotation.from_euler(seq.upper(), angles).as_matrix(), 1e-14)
+
+
+def test_extrinsic_xyz_equals_intrinsic_zyx_reversed():
+    a = rotation_from_sequence(RotationKind.EXTRINSIC, "xyz", (0.1, 0.2, 0.3))
+    b = rotation_from_sequence(RotationKind.INTRINSIC, "zyx", (0.3, 0.2, 0.1))
+    assert_close(a, b, 1e-14)
+
+
+def test_quarter_turn_about_z_maps_x_to_y():
+    r = rotation_from_sequence(RotationKind.EXTRINSIC, "z", (np.pi / 2,))
+    assert_close(r @ [1, 0, 0], [0, 1, 0], 1e-15)
+
+
+def test_composition_order_and_inverse():
+    p = Pose(rotation_from_sequence(RotationKind.EXTRINSIC, "z", (np.pi / 2,)), [1.0, 0, 0])
+    q = Pose.from_translation([0, 0, 2.0])
+    x = np.array([0.5, 0.0, 0.0])
+    assert_close((p * q).apply(x), p.apply(q.apply(x)), 1e-15)
+    assert_close((p * q).apply(x), [1.0, 0.5, 2.0], 1e-15)
+    assert (p * p.inverse()).almost_equal(Pose.identity())
+
+
+def test_reflection_is_a_pose_with_negative_determinant():
+    m = Pose(reflection_across_plane([0, 1, 0]), [0, 0, 0])
+    assert m.is_mirrored
+    assert_close(m.apply([1, 2, 3]), [1, -2, 3])
+
+
+def test_non_orthogonal_matrix_is_refused():
+    with pytest.raises(ValueError, match="orthogonal"):
+        Pose(np.diag([1.0, 2.0, 1.0]), [0, 0, 0])
