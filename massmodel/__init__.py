@@ -1,0 +1,76 @@
+"""massmodel: parametric 3-D mass models of vehicles.
+
+The core (units, expressions, shapes, mass properties, model files, vehicle balance, report) needs numpy alone.
+CAD export and packaging (cadquery/OCP), meshes (trimesh) and rendering (pyvista) load only when used.
+
+Quick use::
+
+    import massmodel as mm
+    model = mm.load_model("parts_demo/car.toml")
+    total = model.mass_properties()
+    balance = mm.static_balance(total, model.vehicle)
+"""
+
+from __future__ import annotations
+
+from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from .massprops import (
+    InertiaError,
+    MassProperties,
+    combine,
+    combine_arrays,
+    inertia_about_point,
+    inertia_in_axes,
+    principal_axes,
+    products_positive,
+    radii_of_gyration,
+    transform,
+    translate,
+    validate_inertia,
+)
+from .materials import Material, builtin_materials
+from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
+from .modelfile import ModelFileError, load_model, loads_model
+from .report import build_report, format_report
+from .vehicle import Balance, RuleResult, check_rules, static_balance
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "Balance",
+    "Component",
+    "Cutout",
+    "InertiaError",
+    "MassProperties",
+    "MassSource",
+    "Material",
+    "Maturity",
+    "Model",
+    "ModelFileError",
+    "Pose",
+    "RotationKind",
+    "Rule",
+    "RuleCheck",
+    "RuleResult",
+    "Slot",
+    "Vehicle",
+    "build_report",
+    "builtin_materials",
+    "check_rules",
+    "combine",
+    "combine_arrays",
+    "format_report",
+    "inertia_about_point",
+    "inertia_in_axes",
+    "load_model",
+    "loads_model",
+    "principal_axes",
+    "products_positive",
+    "radii_of_gyration",
+    "reflection_across_plane",
+    "rotation_from_sequence",
+    "static_balance",
+    "transform",
+    "translate",
+    "validate_inertia",
+]

@@ -1,0 +1,60 @@
+"""The ``massmodel`` command line: a thin layer over the library.
+
+Each command lives in a ``massmodel/cli_*.py`` module exposing ``register(subparsers)``; the modules are found by
+name (:func:`command_modules`) and imported when the parser is built, while heavy libraries (cadquery, pyvista) load
+only inside the command that needs them. User mistakes print one clear line and exit 2; set ``MASSMODEL_DEBUG=1`` to
+see the traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import pkgutil
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+__all__ = ["main", "build_parser", "command_modules", "EXIT_FAIL", "EXIT_USAGE"]
+
+EXIT_FAIL = 1  # the command ran and a check failed
+EXIT_USAGE = 2  # bad input: the command could not run
+
+
+def command_modules() -> list[str]:
+    """Names of the command modules: every ``massmodel/cli_*.py``, ``cli_core`` first, then alphabetical."""
+    names = sorted(m.name for m in pkgutil.iter_modules([str(Path(__file__).parent)]) if m.name.startswith("cli_"))
+    names.sort(key=lambda n: n != "cli_core")
+    return [f"massmodel.{n}" for n in names]
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="massmodel",
+        description="Vehicle mass models: mass, CG, inertia tensor, axle loads, rule checks, ballast, CAD export.",
+    )
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+    for name in command_modules():
+        importlib.import_module(name).register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.run(args) or 0)
+    except (ValueError, OSError, KeyError) as exc:
+        if os.environ.get("MASSMODEL_DEBUG"):
+            raise
+        msg = exc.args[0] if isinstance(exc, KeyError) and exc.args else exc
+        print(f"massmodel {args.command}: error: {msg}", file=sys.stderr)
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

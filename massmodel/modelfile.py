@@ -1,0 +1,754 @@
+"""Load and validate massmodel model files (TOML, format 1; see docs/modelfile.md).
+
+This is the edge where units are converted: everything past :func:`load_model` is SI. Every error names the file,
+the item and the field (:class:`ModelFileError`).
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import expr, units
+from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from .massprops import InertiaError
+from .materials import Material, MaterialError, builtin_materials, material_from_fields
+from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
+from .shapes import SHAPE_KINDS, ShapeError
+
+__all__ = ["ModelFileError", "load_model", "loads_model", "SHAPE_FILE_FIELDS", "PALETTE"]
+
+TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule"}
+UNIT_KINDS: dict[str, units.Dimension] = {
+    "length": units.LENGTH,
+    "mass": units.MASS,
+    "angle": units.ANGLE,
+    "density": units.DENSITY,
+    "inertia": units.INERTIA,
+}
+KIND_EXAMPLE = {"length": "250 mm", "mass": "2.1 kg", "angle": "5 deg", "density": "7850 kg/m^3",
+                "inertia": "0.35 kg*m^2", "number": "0.42"}
+
+# File fields of each shape kind: name → "length" | "vector3" (split into *_x/_y/_z) | "polygon".
+SHAPE_FILE_FIELDS: dict[str, dict[str, str]] = {
+    "box": {"size": "vector3"},
+    "cylinder": {"radius": "length", "length": "length"},
+    "tube": {"outer_radius": "length", "inner_radius": "length", "length": "length"},
+    "sphere": {"radius": "length"},
+    "spherical_shell": {"outer_radius": "length", "inner_radius": "length"},
+    "hemisphere": {"radius": "length"},
+    "cone": {"radius": "length", "height": "length"},
+    "frustum": {"base_radius": "length", "top_radius": "length", "height": "length"},
+    "wedge": {"leg_x": "length", "leg_y": "length", "length": "length"},
+    "extrusion": {"vertices": "polygon", "thickness": "length"},
+    "torus": {"ring_radius": "length", "tube_radius": "length"},
+    "ellipsoid": {"semi_x": "length", "semi_y": "length", "semi_z": "length"},
+    "point": {},
+}
+PLACEMENT_FIELDS = {"at", "rotate"}
+PART_FIELDS = {"path", "shape", "material", "density", "mass", "measured", "colour", "maturity", "cut", "mirror",
+               "pattern", "slot", "note"} | PLACEMENT_FIELDS
+GROUP_FIELDS = {"path", "colour", "maturity", "mirror", "note"} | PLACEMENT_FIELDS
+SLOT_FIELDS = {"name", "shape", "clearance", "note"} | PLACEMENT_FIELDS
+RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note"}
+VEHICLE_FIELDS = {"axes", "wheelbase", "track_front", "track_rear", "front_axle_station", "ground_level"}
+
+# Colours given to parts with none, by top-level group (sorted), cycling. Muted, distinguishable hues.
+PALETTE = ("#5b7fa6", "#b0704f", "#6d9a62", "#a3628e", "#c2a25a", "#4f9a9a", "#8c7bb8", "#9a9a6a",
+           "#c07a7a", "#6a8fbf")
+_PATH_RE = re.compile(r"^[A-Za-z0-9_.\-]+(/[A-Za-z0-9_.\-]+)*$")
+_COLOUR_RE = re.compile(r"^#[0-9a-fA-F]{6}$")
+
+
+class ModelFileError(ValueError):
+    """A problem in a model file, naming the file, the item and the field."""
+
+    def __init__(self, file: str, item: str | None, field: str | None, message: str) -> None:
+        self.file = file
+        self.item = item
+        self.field = field
+        self.message = message
+        where = file
+        if item:
+            where += f": {item}"
+        if field:
+            where += f", field '{field}'"
+        super().__init__(f"{where}: {message}")
+
+
+@dataclass
+class _Group:
+    pose: Pose
+    colour: str | None
+    maturity: Maturity | None
+    mirror: bool
+
+
+class _Reader:
+    """Converts TOML values of one file to SI, raising errors with file/item/field context."""
+
+    def __init__(self, file: str, defaults: Mapping[str, float], env: Mapping[str, units.Quantity]) -> None:
+        self.file = file
+        self.defaults = defaults
+        self.env = env
+
+    def for_table(self, table: dict[str, Any]) -> _Reader:
+        """The reader for a table merged from a base file (errors then name that file); pops the marker."""
+        source = table.pop(SOURCE_KEY, None)
+        return self if source is None else _Reader(source, self.defaults, self.env)
+
+    def error(self, item: str | None, field: str | None, message: str) -> ModelFileError:
+        return ModelFileError(self.file, item, field, message)
+
+    def quantity(self, value: Any, kind: str, item: str, field: str) -> float:
+        """A scalar of the given kind ('length', 'mass', 'angle', 'density', 'inertia', 'number'), SI."""
+        if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+            raise self.error(item, field, f"expected a {kind} such as '{KIND_EXAMPLE[kind]}', got {value!r}")
+        try:
+            q = expr.evaluate(value, self.env)
+        except (expr.ExpressionError, units.UnitError) as exc:
+            raise self.error(item, field, str(exc)) from None
+        if kind == "number":
+            if not q.dim == units.DIMENSIONLESS:
+                raise self.error(item, field, f"expected a plain number, got a quantity in {q.dim}")
+            result = q.value
+        else:
+            want = UNIT_KINDS[kind]
+            if q.dim == units.DIMENSIONLESS:
+                if kind not in self.defaults:
+                    raise self.error(
+                        item, field,
+                        f"{value!r} has no unit and the file declares no default {kind} unit in [units]; "
+                        f"write it like '{KIND_EXAMPLE[kind]}'",
+                    )
+                result = q.value * self.defaults[kind]
+            elif q.dim == want:
+                result = q.value
+            else:
+                raise self.error(item, field, f"expected a {kind} ({want}), got {value!r} in {q.dim}")
+        if not np.isfinite(result):
+            raise self.error(item, field, f"{value!r} is not a finite number")
+        return float(result)
+
+    def vector(self, value: Any, kind: str, item: str, field: str, n: int = 3) -> np.ndarray:
+        if not isinstance(value, list) or len(value) != n:
+            raise self.error(item, field, f"expected a list of {n} values, got {value!r}")
+        return np.array([self.quantity(v, kind, item, f"{field}[{i}]") for i, v in enumerate(value)])
+
+    def text(self, table: Mapping[str, Any], key: str, item: str, required: bool = False) -> str | None:
+        if key not in table:
+            if required:
+                raise self.error(item, key, "is missing")
+            return None
+        value = table[key]
+        if not isinstance(value, str) or not value.strip():
+            raise self.error(item, key, f"expected non-empty text, got {value!r}")
+        return value
+
+    def check_fields(self, table: Mapping[str, Any], allowed: set[str], item: str) -> None:
+        unknown = sorted(set(table) - allowed)
+        if unknown:
+            raise self.error(item, unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
+
+    def pose(self, table: Mapping[str, Any], item: str) -> Pose:
+        at = self.vector(table["at"], "length", item, "at") if "at" in table else np.zeros(3)
+        linear = np.eye(3)
+        if "rotate" in table:
+            rot = table["rotate"]
+            if not isinstance(rot, dict):
+                raise self.error(item, "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
+            kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
+            extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
+            if len(kinds) != 1 or extra or "angles" not in rot:
+                raise self.error(
+                    item, "rotate",
+                    "give exactly one of 'extrinsic' or 'intrinsic' (an axis sequence such as \"xyz\") and 'angles'",
+                )
+            axes = rot[kinds[0]]
+            if not isinstance(axes, str) or not re.fullmatch(r"[xyz]{1,3}", axes):
+                raise self.error(item, f"rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
+            angles = rot["angles"]
+            if not isinstance(angles, list) or len(angles) != len(axes):
+                raise self.error(item, "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
+            values = tuple(self.quantity(a, "angle", item, f"rotate.angles[{i}]") for i, a in enumerate(angles))
+            linear = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
+        return Pose(linear, at)
+
+    def shape(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
+        kind = table.get("shape")
+        if not isinstance(kind, str) or kind not in SHAPE_FILE_FIELDS:
+            raise self.error(item, prefix + "shape", f"expected one of {', '.join(SHAPE_FILE_FIELDS)}, got {kind!r}")
+        kwargs: dict[str, Any] = {}
+        for name, how in SHAPE_FILE_FIELDS[kind].items():
+            if name not in table:
+                raise self.error(item, prefix + name, f"is missing (a {kind} needs {', '.join(SHAPE_FILE_FIELDS[kind])})")
+            value = table[name]
+            if how == "length":
+                kwargs[name] = self.quantity(value, "length", item, prefix + name)
+            elif how == "vector3":
+                v = self.vector(value, "length", item, prefix + name)
+                kwargs.update({f"{name}_x": v[0], f"{name}_y": v[1], f"{name}_z": v[2]})
+            else:
+                if not isinstance(value, list) or len(value) < 3:
+                    raise self.error(item, prefix + name, "expected a list of at least 3 [x, y] vertices")
+                kwargs[name] = tuple(
+                    tuple(float(c) for c in self.vector(v, "length", item, f"{prefix}{name}[{i}]", n=2))
+                    for i, v in enumerate(value)
+                )
+        try:
+            return SHAPE_KINDS[kind](**kwargs)
+        except ShapeError as exc:
+            field = getattr(exc, "field", None)
+            raise self.error(item, prefix + (field or "shape"), str(exc)) from None
+
+
+def _shape_keys(kind: Any) -> set[str]:
+    return set(SHAPE_FILE_FIELDS.get(kind, {})) if isinstance(kind, str) else set()
+
+
+def _swap_side(path: str) -> str | None:
+    segs = path.split("/")
+    swapped = [{"left": "right", "right": "left"}.get(s, s) for s in segs]
+    return "/".join(swapped) if swapped != segs else None
+
+
+def _read_toml(path: Path, label: str) -> dict[str, Any]:
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise ModelFileError(label, None, None, f"cannot read the file ({exc.strerror or exc})") from None
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
+
+
+def load_model(path: str | Path, overrides: Mapping[str, str] | None = None) -> Model:
+    """Read a model file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML model file.
+    overrides : mapping, optional
+        Parameter name → expression text, replacing the file's definitions (``--set name=value``).
+
+    Returns
+    -------
+    Model
+        SI throughout, mirrors and patterns expanded.
+
+    Raises
+    ------
+    ModelFileError
+        Naming the file, the item and the field.
+    """
+    p = Path(path)
+    data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
+    return _build(data, label=str(path), base_dir=p.parent, overrides=overrides)
+
+
+def loads_model(
+    text: str, *, label: str = "<text>", base_dir: str | Path = ".", overrides: Mapping[str, str] | None = None
+) -> Model:
+    """Like :func:`load_model`, from a string (for tests and tools)."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
+    data = _resolve_extends(data, label, Path(base_dir), chain=())
+    return _build(data, label=label, base_dir=Path(base_dir), overrides=overrides)
+
+
+LIST_SECTIONS = ("group", "part", "slot", "rule")
+SOURCE_KEY = "__file__"  # which file a merged table came from (set by _resolve_extends, removed before use)
+
+
+def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tuple[Path, ...]) -> dict[str, Any]:
+    """Merge a model that ``extends`` another file into one data tree.
+
+    The child's parameters override the base's; its [vehicle] replaces the base's; materials must not clash; its
+    groups, parts, slots and rules are added after the base's; ``remove`` (in [model]) drops base parts and groups
+    by path (a group path removes everything in it). [units] must agree, so that bare numbers keep their meaning.
+    """
+    head = data.get("model", {})
+    if not isinstance(head, dict) or "extends" not in head:
+        return data
+    item = "[model]"
+    ref = head["extends"]
+    if not isinstance(ref, str):
+        raise ModelFileError(label, item, "extends", "expected the path of the base model file")
+    base_path = base_dir / ref
+    if base_path.resolve() in chain or len(chain) > 8:
+        raise ModelFileError(label, item, "extends", f"'{ref}' extends itself (directly or through other files)")
+    base = _resolve_extends(_read_toml(base_path, str(base_path)), str(base_path), base_path.parent,
+                            chain + (base_path.resolve(),))
+    for key in LIST_SECTIONS:
+        for table in base.get(key, []):
+            if isinstance(table, dict):
+                table.setdefault(SOURCE_KEY, str(base_path))
+    if data.get("units", base.get("units", {})) != base.get("units", {}):
+        raise ModelFileError(label, "[units]", None, f"must be the same as in the base file {base_path} (or absent)")
+    remove = head.get("remove", [])
+    if not isinstance(remove, list) or not all(isinstance(r, str) for r in remove):
+        raise ModelFileError(label, item, "remove", "expected a list of part or group paths of the base model")
+    merged: dict[str, Any] = {k: v for k, v in base.items() if k not in ("model",)}
+    base_head = dict(base.get("model", {}))
+    if "rulebook" in base_head and "rulebook" not in head:
+        merged_rulebook = str((base_path.parent / str(base_head["rulebook"])).resolve())
+    else:
+        merged_rulebook = head.get("rulebook")
+    merged["model"] = {k: v for k, v in head.items() if k not in ("extends", "remove", "rulebook")}
+    if merged_rulebook is not None:
+        merged["model"]["rulebook"] = merged_rulebook
+    merged["parameters"] = {**base.get("parameters", {}), **data.get("parameters", {})}
+    if "vehicle" in data:
+        merged["vehicle"] = data["vehicle"]
+    mats = dict(base.get("materials", {}))
+    for key, value in data.get("materials", {}).items():
+        if key in mats:
+            raise ModelFileError(label, f"material '{key}'", None, f"already defined in the base file {base_path}")
+        mats[key] = value
+    merged["materials"] = mats
+    for key in LIST_SECTIONS:
+        merged[key] = list(base.get(key, [])) + list(data.get(key, []))
+    for path in remove:
+        before = len(merged["part"]) + len(merged["group"])
+        for key in ("part", "group"):
+            merged[key] = [t for t in merged[key]
+                           if not (isinstance(t, dict) and isinstance(t.get("path"), str)
+                                   and (t["path"] == path or t["path"].startswith(path + "/")))]
+        if len(merged["part"]) + len(merged["group"]) == before:
+            raise ModelFileError(label, item, "remove", f"the base model has no part or group '{path}'")
+    for key in data:
+        if key not in merged:
+            merged[key] = data[key]
+    return merged
+
+
+def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None) -> Model:
+    unknown = sorted(set(data) - TOP_LEVEL_KEYS)
+    if unknown:
+        raise ModelFileError(label, None, None, f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
+    head = data.get("model", {})
+    if not isinstance(head, dict) or not isinstance(head.get("name"), str) or not head["name"].strip():
+        raise ModelFileError(label, "[model]", "name", "is missing (every model needs a name)")
+
+    defaults: dict[str, float] = {}
+    for kind, text in data.get("units", {}).items():
+        if kind not in UNIT_KINDS:
+            raise ModelFileError(label, "[units]", kind, f"unknown quantity kind; known: {', '.join(UNIT_KINDS)}")
+        try:
+            q = units.parse_unit(str(text))
+        except units.UnitError as exc:
+            raise ModelFileError(label, "[units]", kind, str(exc)) from None
+        if q.dim != UNIT_KINDS[kind]:
+            raise ModelFileError(label, "[units]", kind, f"'{text}' is not a {kind} unit")
+        defaults[kind] = q.value
+
+    params = data.get("parameters", {})
+    if not isinstance(params, dict):
+        raise ModelFileError(label, "[parameters]", None, "must be a table of name = value")
+    try:
+        env = expr.evaluate_parameters(params, overrides=dict(overrides or {}))
+    except expr.ParameterError as exc:
+        raise ModelFileError(label, f"parameter '{exc.name}'", "value", str(exc)) from None
+    rd = _Reader(label, defaults, env)
+
+    vehicle = _vehicle(rd, data.get("vehicle"))
+    centre_normal = vehicle.left if vehicle is not None else np.array([0.0, 1.0, 0.0])
+    mirror = Pose(reflection_across_plane(centre_normal), np.zeros(3))
+
+    materials = dict(builtin_materials())
+    for key, table in data.get("materials", {}).items():
+        item = f"material '{key}'"
+        if key in materials:
+            raise rd.error(item, None, "already defined in the built-in library; give your material another name")
+        if not isinstance(table, dict):
+            raise rd.error(item, None, "expected a table with a 'density'")
+        try:
+            materials[key] = material_from_fields(
+                key, table, lambda f, v, it=item: rd.quantity(v, "density", it, f), flag="user"
+            )
+        except MaterialError as exc:
+            raise rd.error(item, None, str(exc)) from None
+
+    groups = _groups(rd, data.get("group", []))
+    components: list[Component] = []
+    for i, table in enumerate(_table_list(rd, data, "part")):
+        components.extend(_parts(rd.for_table(table), table, i, groups, materials, mirror))
+    seen: dict[str, str] = {}
+    for c in components:
+        if c.path in seen:
+            raise rd.error(c.origin.split(": ", 1)[-1], "path", f"duplicate path '{c.path}' (also {seen[c.path]})")
+        seen[c.path] = c.origin
+
+    slots = []
+    for i, table in enumerate(_table_list(rd, data, "slot")):
+        slots.append(_slot(rd.for_table(table), table, i))
+    names = [s.name for s in slots]
+    for dup in {n for n in names if names.count(n) > 1}:
+        raise rd.error(f"slot '{dup}'", "name", "is used by more than one slot")
+    for c in components:
+        if c.slot is not None and c.slot not in names:
+            raise rd.error(f"part '{c.path}'", "slot", f"no slot named '{c.slot}'; slots: {', '.join(names) or 'none'}")
+
+    rule_tables: list[tuple[_Reader, dict[str, Any], int]] = []
+    book = head.get("rulebook")
+    if book is not None:
+        book_path = base_dir / str(book)
+        book_data = _read_toml(book_path, str(book_path))
+        extra = sorted(set(book_data) - {"rule", "rulebook"})
+        if extra:
+            raise ModelFileError(str(book_path), None, None, f"unknown section '{extra[0]}'; a rulebook holds [[rule]] tables")
+        brd = _Reader(str(book_path), defaults, env)
+        rule_tables.extend((brd, t, i) for i, t in enumerate(_table_list(brd, book_data, "rule")))
+    rule_tables.extend((rd.for_table(t), t, i) for i, t in enumerate(_table_list(rd, data, "rule")))
+    rules = tuple(_rule(r, t, i, vehicle is not None) for r, t, i in rule_tables)
+    for rule in rules:
+        for g in rule.groups + rule.exclude:
+            if not any(c.path == g or c.path.startswith(g + "/") for c in components):
+                raise ModelFileError(rule.origin.split(": ")[0], rule.origin.split(": ", 1)[-1], "groups"
+                                     if g in rule.groups else "exclude", f"no part lies in group '{g}'")
+
+    return Model(
+        name=head["name"].strip(),
+        components=tuple(components),
+        vehicle=vehicle,
+        rules=rules,
+        slots=tuple(slots),
+        parameters=env,
+        materials=materials,
+        source=label,
+        description=str(head.get("description", "")),
+    )
+
+
+def _table_list(rd: _Reader, data: Mapping[str, Any], key: str) -> list[dict[str, Any]]:
+    value = data.get(key, [])
+    if not isinstance(value, list) or not all(isinstance(t, dict) for t in value):
+        raise rd.error(f"[[{key}]]", None, f"write each entry as a [[{key}]] table")
+    return value
+
+
+def _vehicle(rd: _Reader, table: Any) -> Vehicle | None:
+    if table is None:
+        return None
+    item = "[vehicle]"
+    if not isinstance(table, dict):
+        raise rd.error(item, None, "must be a table")
+    rd.check_fields(table, VEHICLE_FIELDS, item)
+    axes = table.get("axes", {"forward": "+x", "left": "+y", "up": "+z"})
+    vecs = {}
+    for name in ("forward", "left", "up"):
+        spec = axes.get(name) if isinstance(axes, dict) else None
+        m = re.fullmatch(r"([+-])([xyz])", spec or "")
+        if not m:
+            raise rd.error(item, f"axes.{name}", f"expected a signed model axis such as '+x' or '-z', got {spec!r}")
+        v = np.zeros(3)
+        v["xyz".index(m.group(2))] = 1.0 if m.group(1) == "+" else -1.0
+        vecs[name] = v
+    basis = np.array([vecs["forward"], vecs["left"], vecs["up"]])
+    if abs(np.linalg.det(basis) - 1.0) > 1e-9:
+        raise rd.error(item, "axes", "forward, left and up must be three different axes forming a right-handed set")
+    vals = {}
+    for name in ("wheelbase", "track_front", "track_rear"):
+        if name not in table:
+            raise rd.error(item, name, "is missing")
+        vals[name] = rd.quantity(table[name], "length", item, name)
+        if vals[name] <= 0.0:
+            raise rd.error(item, name, "must be a positive length")
+    for name in ("front_axle_station", "ground_level"):
+        vals[name] = rd.quantity(table.get(name, 0.0), "length", item, name) if name in table else 0.0
+    return Vehicle(vecs["forward"], vecs["left"], vecs["up"], **vals)
+
+
+def _maturity(rd: _Reader, value: Any, item: str) -> Maturity:
+    try:
+        return Maturity(value)
+    except ValueError:
+        raise rd.error(item, "maturity", f"expected one of {', '.join(m.value for m in Maturity)}, got {value!r}") from None
+
+
+def _colour(rd: _Reader, value: Any, item: str) -> str:
+    if not isinstance(value, str) or not _COLOUR_RE.match(value):
+        raise rd.error(item, "colour", f"expected '#rrggbb', got {value!r}")
+    return value.lower()
+
+
+def _path(rd: _Reader, table: Mapping[str, Any], what: str, index: int) -> str:
+    path = table.get("path")
+    if not isinstance(path, str) or not _PATH_RE.match(path):
+        raise rd.error(f"{what} #{index + 1}", "path",
+                       f"expected a path like 'suspension/front/left/upright', got {path!r}")
+    return path
+
+
+def _groups(rd: _Reader, tables: Any) -> dict[str, _Group]:
+    out: dict[str, _Group] = {}
+    if not isinstance(tables, list):
+        raise rd.error("[[group]]", None, "write each group as a [[group]] table")
+    for i, table in enumerate(tables):
+        g = rd.for_table(table)
+        path = _path(g, table, "group", i)
+        item = f"group '{path}'"
+        g.check_fields(table, GROUP_FIELDS, item)
+        if path in out:
+            raise g.error(item, "path", "group declared twice")
+        out[path] = _Group(
+            pose=g.pose(table, item),
+            colour=_colour(g, table["colour"], item) if "colour" in table else None,
+            maturity=_maturity(g, table["maturity"], item) if "maturity" in table else None,
+            mirror=_flag(g, table, "mirror", item),
+        )
+    return out
+
+
+def _flag(rd: _Reader, table: Mapping[str, Any], key: str, item: str) -> bool:
+    value = table.get(key, False)
+    if not isinstance(value, bool):
+        raise rd.error(item, key, f"expected true or false, got {value!r}")
+    return value
+
+
+def _enclosing(path: str, groups: Mapping[str, _Group]) -> list[_Group]:
+    """Declared groups containing ``path``, outermost first."""
+    segs = path.split("/")
+    return [groups[g] for g in ("/".join(segs[:k]) for k in range(1, len(segs))) if g in groups]
+
+
+def _parts(
+    rd: _Reader,
+    table: dict[str, Any],
+    index: int,
+    groups: Mapping[str, _Group],
+    materials: Mapping[str, Material],
+    mirror: Pose,
+) -> list[Component]:
+    path = _path(rd, table, "part", index)
+    item = f"part '{path}'"
+    rd.check_fields(table, PART_FIELDS | _shape_keys(table.get("shape")), item)
+    shape = rd.shape(table, item)
+    local_pose = rd.pose(table, item)
+    cutouts = _cutouts(rd, table, item, shape)
+
+    sources = [k for k in ("material", "density", "mass", "measured") if k in table]
+    if len(sources) != 1:
+        raise rd.error(
+            item, sources[1] if len(sources) > 1 else "material",
+            "give exactly one mass source: material, density, mass or measured"
+            + (f" (found {' and '.join(sources)})" if sources else " (none found)"),
+        )
+    source = MassSource(sources[0])
+    kw: dict[str, Any] = {}
+    if source is MassSource.MATERIAL:
+        key = table["material"]
+        if key not in materials:
+            import difflib
+
+            close = difflib.get_close_matches(str(key), list(materials), n=3)
+            raise rd.error(item, "material", f"unknown material {key!r}" + (f"; did you mean {', '.join(close)}?" if close else
+                           "; `massmodel materials` lists the library"))
+        kw.update(material=key, density=materials[key].density)
+    elif source is MassSource.DENSITY:
+        kw["density"] = rd.quantity(table["density"], "density", item, "density")
+        if kw["density"] <= 0.0:
+            raise rd.error(item, "density", "must be positive")
+    elif source is MassSource.MASS:
+        kw["mass"] = rd.quantity(table["mass"], "mass", item, "mass")
+        if kw["mass"] <= 0.0:
+            raise rd.error(item, "mass", "must be positive")
+    else:
+        meas = table["measured"]
+        if not isinstance(meas, dict) or "mass" not in meas or "cg" not in meas:
+            raise rd.error(item, "measured", "expected a table with 'mass', 'cg' and optionally 'inertia'")
+        extra = sorted(set(meas) - {"mass", "cg", "inertia"})
+        if extra:
+            raise rd.error(item, f"measured.{extra[0]}", "unknown field; allowed: mass, cg, inertia")
+        kw["mass"] = rd.quantity(meas["mass"], "mass", item, "measured.mass")
+        if kw["mass"] <= 0.0:
+            raise rd.error(item, "measured.mass", "must be positive")
+        kw["measured_cg"] = rd.vector(meas["cg"], "length", item, "measured.cg")
+        if "inertia" in meas:
+            rows = meas["inertia"]
+            if not isinstance(rows, list) or len(rows) != 3:
+                raise rd.error(item, "measured.inertia", "expected 3 rows of 3 values (kg*m^2, tensor convention)")
+            kw["measured_inertia"] = np.array(
+                [rd.vector(r, "inertia", item, f"measured.inertia[{i}]") for i, r in enumerate(rows)]
+            )
+    if shape.volume() <= 0.0 and source in (MassSource.MATERIAL, MassSource.DENSITY):
+        raise rd.error(item, source.value, "a point has no volume: give it a 'mass' or 'measured' properties")
+
+    enclosing = _enclosing(path, groups)
+    maturity = None
+    if "maturity" in table:
+        maturity = _maturity(rd, table["maturity"], item)
+    else:
+        maturity = next((g.maturity for g in reversed(enclosing) if g.maturity is not None), None)
+    if maturity is None:
+        raise rd.error(item, "maturity", "is missing (give it here or on an enclosing [[group]])")
+    if "colour" in table:
+        colour = _colour(rd, table["colour"], item)
+    else:
+        colour = next((g.colour for g in reversed(enclosing) if g.colour is not None), None) or PALETTE[
+            sum(map(ord, path.split("/")[0])) % len(PALETTE)
+        ]
+    group_pose = Pose.identity()
+    for g in enclosing:
+        group_pose = group_pose * g.pose
+
+    copies: list[tuple[str, Pose]] = []
+    if "pattern" in table:
+        pat = table["pattern"]
+        if not isinstance(pat, dict) or set(pat) != {"count", "step"}:
+            raise rd.error(item, "pattern", "expected { count = N, step = [dx, dy, dz] }")
+        count = pat["count"]
+        if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= 10000:
+            raise rd.error(item, "pattern.count", f"expected a whole number from 1 to 10000, got {count!r}")
+        step = rd.vector(pat["step"], "length", item, "pattern.step")
+        for k in range(count):
+            copies.append((f"{path}-{k + 1}", group_pose * Pose.from_translation(k * step) * local_pose))
+    else:
+        copies.append((path, group_pose * local_pose))
+    if _flag(rd, table, "mirror", item) or any(g.mirror for g in enclosing):
+        mirrored = []
+        for p, pose in copies:
+            other = _swap_side(p)
+            if other is None:
+                raise rd.error(item, "mirror", "a mirrored part needs a path segment 'left' or 'right' to swap")
+            mirrored.append((other, mirror * pose))
+        copies.extend(mirrored)
+
+    slot = rd.text(table, "slot", item)
+    note = rd.text(table, "note", item) or ""
+    out = []
+    for p, pose in copies:
+        try:
+            out.append(Component(
+                path=p, shape=shape, pose=pose, source=source, maturity=maturity, colour=colour,
+                cutouts=cutouts, slot=slot, note=note, origin=f"{rd.file}: part '{p}'", **kw,
+            ))
+        except InertiaError as exc:
+            raise rd.error(item, "measured.inertia", str(exc).split(": ", 2)[-1]) from None
+        except ValueError as exc:
+            raise rd.error(item, source.value, str(exc).split(": ", 2)[-1]) from None
+    return out
+
+
+def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> tuple[Cutout, ...]:
+    raw = table.get("cut", [])
+    if not isinstance(raw, list) or not all(isinstance(t, dict) for t in raw):
+        raise rd.error(item, "cut", "expected a list of tables like { shape = \"cylinder\", radius = ..., at = [...] }")
+    cuts: list[Cutout] = []
+    boxes: list[np.ndarray] = []
+    scale = float(np.max(np.abs(parent.bounds()))) or 1.0
+    for i, ct in enumerate(raw):
+        prefix = f"cut[{i}]."
+        allowed = {"shape"} | PLACEMENT_FIELDS | _shape_keys(ct.get("shape"))
+        unknown = sorted(set(ct) - allowed)
+        if unknown:
+            raise rd.error(item, prefix + unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
+        shape = rd.shape(ct, item, prefix)
+        if shape.volume() <= 0.0:
+            raise rd.error(item, prefix + "shape", "a cut-out needs a volume")
+        pose = rd.pose(ct, item)
+        pts = pose.apply(shape.surface_points(400))
+        inside = parent.contains(pts, tol=1e-9 * scale)
+        if not np.all(inside):
+            worst = pts[~inside][0] * 1000.0
+            raise rd.error(
+                item, prefix.rstrip("."),
+                f"the cut-out leaves its parent {parent.kind} (its surface point "
+                f"[{worst[0]:.3f}, {worst[1]:.3f}, {worst[2]:.3f}] mm, part frame, lies outside)",
+            )
+        cuts.append(Cutout(shape, pose))
+        boxes.append(np.array([pts.min(axis=0), pts.max(axis=0)]))
+    _check_cutouts_disjoint(rd, item, cuts, boxes)
+    return tuple(cuts)
+
+
+def _check_cutouts_disjoint(rd: _Reader, item: str, cuts: Sequence[Cutout], boxes: Sequence[np.ndarray]) -> None:
+    """Overlapping cut-outs would be subtracted twice. For each pair whose bounding boxes (part frame) overlap, test a
+    sampling grid over the common box (offset so that it misses shared faces); an overlap thinner than about 1/24 of
+    that box may escape this test.
+    """
+    n = 24
+    offsets = (np.arange(n) + 0.5 + 0.1234567) / (n + 1)
+    unit = np.stack(np.meshgrid(offsets, offsets, offsets, indexing="ij"), axis=-1).reshape(-1, 3)
+    for i in range(len(cuts)):
+        for j in range(i + 1, len(cuts)):
+            lo = np.maximum(boxes[i][0], boxes[j][0])
+            hi = np.minimum(boxes[i][1], boxes[j][1])
+            if np.any(hi <= lo):
+                continue
+            pts = lo + unit * (hi - lo)
+            both = cuts[i].shape.contains(cuts[i].pose.inverse().apply(pts), tol=0.0) & cuts[j].shape.contains(
+                cuts[j].pose.inverse().apply(pts), tol=0.0
+            )
+            if np.any(both):
+                raise rd.error(item, f"cut[{j}]", f"overlaps cut[{i}] (each cut-out must remove material of its own)")
+
+
+def _slot(rd: _Reader, table: dict[str, Any], index: int) -> Slot:
+    name = table.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise rd.error(f"slot #{index + 1}", "name", "is missing")
+    item = f"slot '{name}'"
+    rd.check_fields(table, SLOT_FIELDS | _shape_keys(table.get("shape")), item)
+    shape = rd.shape(table, item)
+    if "clearance" not in table:
+        raise rd.error(item, "clearance", "is missing (the gap a block must keep to the slot walls)")
+    clearance = rd.quantity(table["clearance"], "length", item, "clearance")
+    if clearance < 0.0:
+        raise rd.error(item, "clearance", "must not be negative")
+    return Slot(name, shape, rd.pose(table, item), clearance, origin=f"{rd.file}: {item}")
+
+
+def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> Rule:
+    name = table.get("name") or f"rule #{index + 1}"
+    item = f"rule '{name}'"
+    rd.check_fields(table, RULE_FIELDS, item)
+    try:
+        check = RuleCheck(table.get("check"))
+    except ValueError:
+        raise rd.error(item, "check", f"expected one of {', '.join(c.value for c in RuleCheck)}, got {table.get('check')!r}") from None
+    kw: dict[str, Any] = {}
+
+    def paths(key: str) -> tuple[str, ...]:
+        v = table.get(key, [])
+        if not isinstance(v, list) or not all(isinstance(s, str) and _PATH_RE.match(s) for s in v):
+            raise rd.error(item, key, "expected a list of group paths")
+        return tuple(v)
+
+    if check is RuleCheck.FRONT_FRACTION:
+        if "min" not in table and "max" not in table:
+            raise rd.error(item, "min", "a front_fraction rule needs 'min' and/or 'max'")
+        for key, attr in (("min", "minimum"), ("max", "maximum")):
+            if key in table:
+                kw[attr] = rd.quantity(table[key], "number", item, key)
+                if not 0.0 <= kw[attr] <= 1.0:
+                    raise rd.error(item, key, "a fraction lies between 0 and 1")
+    else:
+        if "limit" not in table:
+            raise rd.error(item, "limit", "is missing")
+        kind = "length" if check is RuleCheck.MAX_CG_HEIGHT else "mass"
+        kw["limit"] = rd.quantity(table["limit"], kind, item, "limit")
+    if check is RuleCheck.MIN_MASS:
+        kw["exclude"] = paths("exclude")
+    if check is RuleCheck.MIN_GROUP_MASS:
+        kw["groups"] = paths("groups")
+        if not kw["groups"]:
+            raise rd.error(item, "groups", "name at least one group")
+    if check is RuleCheck.MIN_AXLE_LOAD:
+        if table.get("axle") not in ("front", "rear"):
+            raise rd.error(item, "axle", f"expected 'front' or 'rear', got {table.get('axle')!r}")
+        kw["axle"] = table["axle"]
+    if check in (RuleCheck.MIN_AXLE_LOAD, RuleCheck.FRONT_FRACTION, RuleCheck.MAX_CG_HEIGHT) and not has_vehicle:
+        raise rd.error(item, "check", "this rule needs a [vehicle] section in the model")
+    return Rule(name=str(name), check=check, origin=f"{rd.file}: {item}", **kw)

@@ -1,0 +1,253 @@
+"""The mass-properties report: a machine-readable dict (JSON) and readable terminal tables.
+
+The dict is SI with units in every key (``mass_kg``, ``cg_m``, ``inertia_cg_kg_m2``). The terminal text can show
+lengths in mm and inertia in kg·mm² (:class:`DisplayUnits`); conversion happens only here, at the edge.
+"""
+
+from __future__ import annotations
+
+import enum
+import json
+import os
+import tempfile
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import cautions
+from .massprops import MassProperties, principal_axes, radii_of_gyration
+from .model import Maturity, Model
+from .vehicle import ASSUMPTIONS, Balance, RuleResult, check_rules, static_balance
+
+__all__ = ["DisplayUnits", "build_report", "format_report", "write_json_atomic", "CONVENTIONS", "REPORT_FORMAT"]
+
+REPORT_FORMAT = "massmodel-report/1"
+CONVENTIONS = {
+    "units": "SI: kg, m, kg*m^2 (unit in every key)",
+    "frame": "model axes of the model file; cg_m is in model coordinates",
+    "inertia": "tensor about the CG with axes parallel to the model axes; off-diagonal I_xy = -integral(x*y dm) "
+    "(tensor / negative product convention)",
+    "principal_axes": "rows are unit vectors in model axes, in the order of principal_moments_kg_m2 (ascending), "
+    "right-handed",
+    "loads": "axle and corner loads as mass-equivalent kg (load / 9.80665 m/s^2)",
+}
+
+
+class DisplayUnits(enum.Enum):
+    """Units of the terminal tables (the JSON is always SI)."""
+
+    SI = "si"  # m, kg*m^2
+    MM = "mm"  # mm, kg*mm^2
+
+    @property
+    def length(self) -> tuple[str, float]:
+        return ("m", 1.0) if self is DisplayUnits.SI else ("mm", 1e3)
+
+    @property
+    def inertia(self) -> tuple[str, float]:
+        return ("kg*m^2", 1.0) if self is DisplayUnits.SI else ("kg*mm^2", 1e6)
+
+
+def _props_dict(mp: MassProperties) -> dict[str, Any]:
+    return {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
+
+
+def build_report(model: Model) -> dict[str, Any]:
+    """The full report of a model as plain data (JSON-ready, SI)."""
+    total = model.mass_properties()
+    out: dict[str, Any] = {
+        "format": REPORT_FORMAT,
+        "model": model.name,
+        "source": model.source,
+        "conventions": CONVENTIONS,
+        **_props_dict(total),
+    }
+    if total.mass > 0:
+        moments, axes = principal_axes(total.inertia)
+        out["principal_moments_kg_m2"] = moments.tolist()
+        out["principal_axes"] = axes.tolist()
+        out["radii_of_gyration_m"] = radii_of_gyration(total).tolist()
+    if model.vehicle is not None:
+        bal = static_balance(total, model.vehicle)
+        out.update(_balance_dict(bal))
+        out["vehicle_axes"] = {
+            "forward": model.vehicle.forward.tolist(),
+            "left": model.vehicle.left.tolist(),
+            "up": model.vehicle.up.tolist(),
+        }
+        out["inertia_vehicle_axes_kg_m2"] = {
+            "roll": float(model.vehicle.forward @ total.inertia @ model.vehicle.forward),
+            "pitch": float(model.vehicle.left @ total.inertia @ model.vehicle.left),
+            "yaw": float(model.vehicle.up @ total.inertia @ model.vehicle.up),
+        }
+    out["rules"] = [_rule_dict(r) for r in check_rules(model)]
+    out["rules_passed"] = all(r["passed"] for r in out["rules"])
+    out["groups"] = []
+    for g in model.groups():
+        members = model.select([g])
+        mp = model.mass_properties([g])
+        out["groups"].append({"path": g, "parts": len(members), **_props_dict(mp)})
+    out["maturity_kg"] = {
+        m.value: float(sum(c.props.mass for c in model.components if c.maturity is m)) for m in Maturity
+    }
+    out["components"] = [
+        {
+            "path": c.path,
+            **_props_dict(c.props),
+            "volume_m3": c.volume if c.volume > 0 else None,
+            "mass_source": c.source.value,
+            "material": c.material,
+            "density_kg_m3": c.implied_density,
+            "inertia_source": c.inertia_source,
+            "maturity": c.maturity.value,
+            "slot": c.slot,
+            "colour": c.colour,
+        }
+        for c in model.components
+    ]
+    out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
+    out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
+    return out
+
+
+def _balance_dict(bal: Balance) -> dict[str, Any]:
+    return {
+        "axle_loads_kg": {"front": bal.front, "rear": bal.rear},
+        "corner_loads_kg": {
+            "front_left": float(bal.corners[0]),
+            "front_right": float(bal.corners[1]),
+            "rear_left": float(bal.corners[2]),
+            "rear_right": float(bal.corners[3]),
+        },
+        "front_fraction": bal.front_fraction,
+        "left_fraction": bal.left_fraction,
+        "cross_fraction": bal.cross_fraction,
+        "cg_height_m": bal.cg_height,
+        "cg_behind_front_axle_m": bal.cg_behind_front_axle,
+        "cg_left_of_centre_m": bal.cg_left_of_centre,
+        "load_assumptions": ASSUMPTIONS,
+    }
+
+
+def _rule_dict(r: RuleResult) -> dict[str, Any]:
+    return {
+        "name": r.name,
+        "check": r.check,
+        "passed": r.passed,
+        "value": {"value": r.value, "unit": r.unit},
+        "limit": f"{r.limit} {r.unit}",
+        "margin": {"value": r.margin, "unit": r.unit},
+        "detail": r.detail,
+    }
+
+
+def write_json_atomic(data: Any, path: str | Path) -> None:
+    """Write JSON to ``path`` through a temporary file in the same folder and a rename (never half-written)."""
+    target = Path(path)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            json.dump(data, fh, indent=2, allow_nan=False)
+            fh.write("\n")
+        os.replace(tmp, target)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+# --- terminal text -------------------------------------------------------------------------------------------
+
+def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | None = None) -> str:
+    """A plain fixed-width table: header, a rule of '─', rows. ``align`` has one 'l' or 'r' per column."""
+    align = align or "l" + "r" * (len(headers) - 1)
+    widths = [max(len(str(h)), *(len(str(r[i])) for r in rows)) if rows else len(str(h)) for i, h in enumerate(headers)]
+
+    def line(cells: Sequence[str]) -> str:
+        return "  ".join(str(c).ljust(w) if a == "l" else str(c).rjust(w) for c, w, a in zip(cells, widths, align, strict=True)).rstrip()
+
+    return "\n".join([line(headers), "  ".join("─" * w for w in widths), *(line(r) for r in rows)])
+
+
+def _vec(v: Sequence[float], scale: float, digits: int) -> str:
+    return "(" + ", ".join(f"{x * scale:.{digits}f}" for x in v) + ")"
+
+
+def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI, components: bool = True) -> str:
+    """Readable text of a report built by :func:`build_report`."""
+    lu, ls = units.length
+    iu, isc = units.inertia
+    ld = 1 if units is DisplayUnits.MM else 4
+    idg = 0 if units is DisplayUnits.MM else 4
+    out: list[str] = []
+    out.append(f"massmodel report · {report['model']}   ({report['source']})")
+    out.append(f"frame: model axes · inertia about the CG, tensor convention (I_xy = -∫xy dm) · lengths {lu}")
+    out.append("")
+    if components:
+        rows = [
+            [c["path"], f"{c['mass_kg']:.3f}", c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
+            for c in report["components"]
+        ]
+        out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
+        out.append(table(["path", "mass kg", "source", "maturity", f"CG {lu}"], rows, "lrllr"))
+        out.append("")
+    top = [g for g in report["groups"] if "/" not in g["path"]]
+    rows = [[g["path"], str(g["parts"]), f"{g['mass_kg']:.3f}",
+             f"{100 * g['mass_kg'] / report['mass_kg']:.1f}" if report["mass_kg"] else "-",
+             _vec(g["cg_m"], ls, ld)] for g in top]
+    out.append("GROUPS (top level; all levels in the JSON)")
+    out.append(table(["group", "parts", "mass kg", "share %", f"CG {lu}"], rows))
+    out.append("")
+    mat = report["maturity_kg"]
+    out.append("MASS BY MATURITY  " + "   ".join(f"{k}: {v:.2f} kg" for k, v in mat.items()))
+    out.append("")
+    out.append("TOTAL")
+    out.append(f"  mass            {report['mass_kg']:.3f} kg")
+    out.append(f"  CG              {_vec(report['cg_m'], ls, ld)} {lu}")
+    if "inertia_cg_kg_m2" in report:
+        t = np.asarray(report["inertia_cg_kg_m2"]) * isc
+        out.append(f"  inertia about CG ({iu}, model axes, tensor convention):")
+        for row in t:
+            out.append("    [" + "  ".join(f"{x:>14.{idg}f}" for x in row) + " ]")
+    if "principal_moments_kg_m2" in report:
+        out.append(f"  principal moments {_vec(report['principal_moments_kg_m2'], isc, idg)} {iu} (ascending)")
+        for i, ax in enumerate(report["principal_axes"]):
+            out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
+        out.append(f"  radii of gyration {_vec(report['radii_of_gyration_m'], ls, ld)} {lu} (about CG, model axes)")
+    if "axle_loads_kg" in report:
+        out.append("")
+        out.append("VEHICLE BALANCE (static)")
+        v = report["inertia_vehicle_axes_kg_m2"]
+        out.append(f"  CG height above ground     {report['cg_height_m'] * ls:.{ld}f} {lu}")
+        out.append(f"  CG behind front axle       {report['cg_behind_front_axle_m'] * ls:.{ld}f} {lu}")
+        out.append(f"  CG left of centre plane    {report['cg_left_of_centre_m'] * ls:.{ld}f} {lu}")
+        out.append(f"  front fraction {report['front_fraction']:.4f}   left fraction {report['left_fraction']:.4f}   "
+                   f"cross (FR+RL) {report['cross_fraction']:.4f}")
+        out.append(f"  roll / pitch / yaw inertia about CG  {v['roll'] * isc:.{idg}f} / {v['pitch'] * isc:.{idg}f} / "
+                   f"{v['yaw'] * isc:.{idg}f} {iu}")
+        a = report["axle_loads_kg"]
+        c = report["corner_loads_kg"]
+        out.append(table(
+            ["kg", "left", "right", "axle"],
+            [["front", f"{c['front_left']:.2f}", f"{c['front_right']:.2f}", f"{a['front']:.2f}"],
+             ["rear", f"{c['rear_left']:.2f}", f"{c['rear_right']:.2f}", f"{a['rear']:.2f}"]],
+        ))
+        out.append(f"  assumptions: {report['load_assumptions']}")
+    if report["rules"]:
+        out.append("")
+        out.append("RULE CHECKS")
+        rows = []
+        for r in report["rules"]:
+            val = r["value"]["value"]
+            mar = r["margin"]["value"]
+            unit = r["value"]["unit"]
+            fmt = ".4f" if unit in ("fraction", "m") else ".2f"
+            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{val:{fmt}} {unit}", r["limit"], f"{mar:+{fmt}} {unit}"])
+        out.append(table(["", "rule", "value", "limit", "margin"], rows, "llrrr"))
+        out.append("  " + ("all rules pass" if report["rules_passed"] else "SOME RULES FAIL"))
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {line}" for line in report["cautions"])
+    return "\n".join(out)
