@@ -47,6 +47,7 @@ __all__ = [
     "reduce_series",
     "combine_heights",
     "SENSITIVITY_UNITS",
+    "COMMON_INPUTS",
 ]
 
 FloatArray = npt.NDArray[np.float64]
@@ -345,17 +346,26 @@ def reduce_series(series: LiftSeries, wheelbase: float, tyre_radius: float) -> L
     )
 
 
+#: Inputs shared by every series of a session (one tyre radius, one wheelbase, one set of scales): their errors
+#: shift all series alike, so they are not averaged down when series are combined. Angles and rises are read per
+#: series and treated as independent.
+COMMON_INPUTS = ("tyre_loaded_radius", "wheelbase", "mass")
+
+
 @dataclass(frozen=True, slots=True)
 class CombinedHeight:
-    """CG height from several series: the inverse-variance weighted mean.
+    """CG height from several series.
 
-    ``chi2`` = Σ ((h_i − h̄)/u_i)² with ``len(results) − 1`` degrees of freedom: well above that number, the series
-    disagree by more than their uncertainties.
+    The series are weighted by ``1/u_i²`` with ``u_i`` their independent uncertainty (fit and per-series inputs);
+    the shared inputs (:data:`COMMON_INPUTS`) are added afterwards as fully correlated terms. ``chi2`` =
+    Σ ((h_i − h̄)/u_i)² with ``len(results) − 1`` degrees of freedom: well above that number, the series disagree
+    by more than their independent uncertainties.
     """
 
     height: Estimate
     chi2: float | None
     dof: int
+    common: dict[str, float] = field(default_factory=dict)
 
     @property
     def consistent(self) -> bool | None:
@@ -368,23 +378,37 @@ class CombinedHeight:
 
 
 def combine_heights(results: Sequence[LiftResult]) -> CombinedHeight:
-    """Weighted mean of the series' CG heights, weights ``1/u²`` of each ``height_total``.
+    """Weighted mean of the series' CG heights with shared inputs treated as fully correlated.
 
     References
     ----------
     Taylor, *An Introduction to Error Analysis*, 2nd ed. (1997), §7.2 (weighted average, ``u = 1/sqrt(Σ w)``) —
-    from memory.
+    from memory; GUM §5.2 (correlated inputs: fully correlated contributions add linearly).
     """
     if not results:
         raise ValueError("no axle-lift series to combine")
-    hs = np.array([r.height_total.value for r in results])
-    us = [r.height_total.u for r in results]
     if len(results) == 1:
-        return CombinedHeight(results[0].height_total, None, 0)
-    if any(u is None for u in us) or any(u == 0.0 for u in us if u is not None):
+        r = results[0]
+        return CombinedHeight(r.height_total, None, 0,
+                              {k: v for k, v in r.budget.items() if k in COMMON_INPUTS})
+    hs = np.array([r.height.value for r in results])
+    indep = []
+    for r in results:
+        if r.height.u is None:
+            return CombinedHeight(Estimate(float(hs.mean()), None), None, len(results) - 1)
+        indep.append(rss([r.height.u, *(v for k, v in r.budget.items() if k not in COMMON_INPUTS)]))
+    ua = np.array(indep)
+    if np.any(ua == 0.0):
         return CombinedHeight(Estimate(float(hs.mean()), None), None, len(results) - 1)
-    ua = np.array(us, dtype=float)
     w = 1.0 / ua**2
-    mean = float(np.sum(w * hs) / np.sum(w))
+    wn = w / w.sum()
+    mean = float(np.sum(wn * hs))
     chi2 = float(np.sum(((hs - mean) / ua) ** 2))
-    return CombinedHeight(Estimate(mean, float(1.0 / np.sqrt(np.sum(w)))), chi2, len(results) - 1)
+    common: dict[str, float] = {}
+    for key in COMMON_INPUTS:
+        terms = [wn[i] * r.sensitivities[key] * (r.budget[key] / abs(r.sensitivities[key]))
+                 for i, r in enumerate(results) if key in r.budget and r.sensitivities.get(key)]
+        if terms:
+            common[key] = abs(float(sum(terms)))
+    u = rss([float(1.0 / np.sqrt(w.sum())), *common.values()])
+    return CombinedHeight(Estimate(mean, u), chi2, len(results) - 1, common)

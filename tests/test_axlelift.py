@@ -159,17 +159,23 @@ def test_lifting_and_lowering_fitted_apart():
     assert res.by_direction["lowering"].value > 0.55
 
 
-def test_combined_series_weighted_mean():
-    # Weighted mean with weights 1/u^2 (Taylor, An Introduction to Error Analysis, §7.2, from memory).
-    a = reduce_series(series(angles=ANGLES, loads=synthetic(0.55, ANGLES), uncertainty={"tyre_loaded_radius": 0.002}), 2.6, 0.3)
+def test_combined_series_weighted_mean_with_a_shared_tyre_radius():
+    # Weighted mean with weights 1/u^2 of the independent parts (Taylor, An Introduction to Error Analysis, §7.2,
+    # from memory); the shared tyre radius is fully correlated and adds linearly (GUM §5.2), not averaged down.
+    ua, ub, ur = np.radians(0.1), np.radians(0.2), 0.002
+    a = reduce_series(series(angles=ANGLES, loads=synthetic(0.55, ANGLES),
+                             uncertainty={"angle": ua, "tyre_loaded_radius": ur}), 2.6, 0.3)
     b = reduce_series(series(angles=ANGLES, loads=synthetic(0.56, ANGLES, lifted="front"), lifted="front",
-                             uncertainty={"tyre_loaded_radius": 0.004}), 2.6, 0.3)
+                             uncertainty={"angle": ub, "tyre_loaded_radius": ur}), 2.6, 0.3)
     c = combine_heights([a, b])
-    w1, w2 = 1 / 0.002**2, 1 / 0.004**2
-    assert c.height.value == pytest.approx((w1 * 0.55 + w2 * 0.56) / (w1 + w2), rel=1e-9)
-    assert c.height.u == pytest.approx(1 / np.sqrt(w1 + w2), rel=1e-6)
-    assert c.chi2 == pytest.approx((0.55 - c.height.value) ** 2 * w1 + (0.56 - c.height.value) ** 2 * w2, rel=1e-6)
-    assert c.consistent is True
+    w1 = 1 / (a.sensitivities["angle"] * ua) ** 2
+    w2 = 1 / (b.sensitivities["angle"] * ub) ** 2
+    mean = (w1 * 0.55 + w2 * 0.56) / (w1 + w2)
+    assert c.height.value == pytest.approx(mean, rel=1e-9)
+    assert c.height.u == pytest.approx(np.sqrt(1 / (w1 + w2) + ur**2), rel=1e-6)
+    assert c.common["tyre_loaded_radius"] == pytest.approx(ur, rel=1e-6)
+    assert c.chi2 == pytest.approx((0.55 - mean) ** 2 * w1 + (0.56 - mean) ** 2 * w2, rel=1e-6)
+    assert c.consistent is False  # 10 mm apart with millimetre uncertainties
     assert combine_heights([a]).height == Estimate(a.height_total.value, a.height_total.u)
 
 

@@ -5,7 +5,13 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from massmodel.measurefile import LiftDirection, MeasurementFileError, PendulumKind, load_session, loads_session
+from massmodel.measurefile import (
+    LiftDirection,
+    MeasurementFileError,
+    PendulumKind,
+    load_session,
+    loads_session,
+)
 
 G0 = 9.80665  # m/s², standard gravity (NIST SP 811, exact by definition)
 LB = 0.45359237  # kg, exact (NIST SP 811 App. B)
