@@ -215,7 +215,7 @@ def lift_inputs(
 ) -> tuple[float, float]:
     """Wheelbase and loaded tyre radius for a series: its own values, else the session's [car], else the model's.
 
-    A series wheelbase must agree with [car] or the model within the [car] tolerance.
+    A series wheelbase must agree with [car] or the model, and [car] with the model, within the [car] tolerance.
 
     Raises
     ------
@@ -223,6 +223,13 @@ def lift_inputs(
         Naming the file, the series and the field.
     """
     item = series.origin.split(": ", 1)[-1]
+    if car.wheelbase is not None and vehicle is not None and abs(car.wheelbase - vehicle.wheelbase) > car.tolerance:
+        raise MeasurementFileError(
+            session_file, "[car]", "wheelbase",
+            f"{car.wheelbase * 1e3:.1f} mm is inconsistent with the model's [vehicle] wheelbase "
+            f"{vehicle.wheelbase * 1e3:.1f} mm (differs by {abs(car.wheelbase - vehicle.wheelbase) * 1e3:.1f} mm, "
+            f"tolerance {car.tolerance * 1e3:.1f} mm)",
+        )
     other = car.wheelbase if car.wheelbase is not None else (vehicle.wheelbase if vehicle is not None else None)
     other_name = "[car] wheelbase" if car.wheelbase is not None else "the model's [vehicle] wheelbase"
     if series.wheelbase is not None:

@@ -6,9 +6,10 @@ pure reductions in :mod:`massmodel.scales`, :mod:`massmodel.reconcile`, :mod:`ma
 
 Quick use::
 
-    from massmodel.measure import load_session_and_model, weighing_report
-    session, model = load_session_and_model("parts_demo/measurements/bl3_session.toml")
+    from massmodel.measure import analyse_weighing, lift_report, load_session_and_model, weighing_report
+    session, model = load_session_and_model("parts_demo/bl3_measurements.toml")
     report = weighing_report(analyse_weighing(session, model))
+    height = lift_report(session, model)["cg_height"]      # {value, standard_uncertainty, unit}
 """
 
 from __future__ import annotations
@@ -169,7 +170,7 @@ def weighing_report(a: WeighingAnalysis) -> dict[str, Any]:
             "left_of_centre": b.left_of_centre.to_dict("m"),
             "station": _est(b.station(a.model.vehicle), "m") if a.model is not None and a.model.vehicle else None,
             "height_above_ground": _est(a.lift.height, "m") if a.lift is not None else None,
-            "height_source": "axle lift (this session)" if a.lift is not None else
+            "height_source": "from the axle lift of this session" if a.lift is not None else
             "not measured: level weighing cannot give the CG height",
         },
         "geometry": {"wheelbase_m": g.wheelbase, "track_front_m": g.track_front, "track_rear_m": g.track_rear,
@@ -421,7 +422,7 @@ def _pendulum_dict(r: PendulumResult, test: Any, model: Model | None) -> dict[st
             "axis_point_m": c.point.tolist(), "groups": list(c.groups), "exclude": list(c.exclude),
             "model_mass_kg": c.model_mass, "model_inertia_kg_m2": c.model_inertia,
             "measured": c.measured.to_dict("kg*m^2"), "difference_kg_m2": c.difference,
-            "relative_difference": c.relative, "model_pivot_to_cg_m": c.model_pivot_to_cg, "notes": list(c.notes),
+            "relative_difference": c.relative if c.model_inertia else None, "model_pivot_to_cg_m": c.model_pivot_to_cg, "notes": list(c.notes),
         }
     return out
 

@@ -176,8 +176,9 @@ def format_lift(r: dict[str, Any]) -> str:
         out.append(f"  CG height from the fit   {_pm(s['cg_height_fit'], 1e3, 1, 'mm')} (standard error of the fit"
                    f"{ci_text})")
         pv = s["point_values"]
-        out.append(f"  scatter of the readings' h_i: mean {pv['mean_m'] * 1e3:.1f} mm, std "
-                   f"{pv['std_m'] * 1e3:.1f} mm" if pv["std_m"] is not None else "")
+        if pv["std_m"] is not None:
+            out.append(f"  scatter of the readings' h_i: mean {pv['mean_m'] * 1e3:.1f} mm, std "
+                       f"{pv['std_m'] * 1e3:.1f} mm")
         for k, v in s["by_direction"].items():
             out.append(f"  {k} only: {_pm(v, 1e3, 1, 'mm')}")
         sens = s["sensitivities"]
@@ -206,7 +207,7 @@ def format_lift(r: dict[str, Any]) -> str:
                    f"({r['model']}); measured - model {r['difference_measured_minus_model_m'] * 1e3:+.1f} mm")
     out.append("  assumptions: " + "; ".join(r["assumptions"]))
     _cautions(out, r)
-    return "\n".join(line for line in out)
+    return "\n".join(out)
 
 
 def format_pendulum(r: dict[str, Any]) -> str:
@@ -245,7 +246,9 @@ def format_pendulum(r: dict[str, Any]) -> str:
                 sel += " without " + ", ".join(c["exclude"])
             out.append(f"  MODEL about axis {c['axis']} {where}: {c['model_inertia_kg_m2']:.4f} kg*m^2 "
                        f"(selection: {sel}, {c['model_mass_kg']:.3f} kg)")
-            out.append(f"    measured - model {c['difference_kg_m2']:+.4f} kg*m^2 ({100 * c['relative_difference']:+.1f} %)")
+            rel = c["relative_difference"]
+            rel_text = f" ({100 * rel:+.1f} %)" if rel is not None else ""
+            out.append(f"    measured - model {c['difference_kg_m2']:+.4f} kg*m^2{rel_text}")
             if c["model_pivot_to_cg_m"] is not None:
                 out.append(f"    model CG to the pivot axis {c['model_pivot_to_cg_m'] * 1e3:.1f} mm (test: "
                            f"{t['inputs']['pivot_to_cg'] * 1e3:.1f} mm)")

@@ -198,6 +198,10 @@ def test_inconsistent_wheelbase_and_rise_errors():
         lift_inputs(series(rises=[0.2, 0.4, 0.6], loads=[501, 502, 503]), CarGeometry(wheelbase=2.6), None, "s.toml")
     assert info.value.field == "tyre_loaded_radius"
     assert lift_inputs(series(rises=[0.2, 0.4, 0.6], loads=[1, 2, 3], radius=0.3), CarGeometry(), iso_vehicle(), "s") == (2.6, 0.3)
+    with pytest.raises(MeasurementFileError) as info:  # the session's [car] against the model
+        lift_inputs(series(rises=[0.2, 0.4, 0.6], loads=[1, 2, 3], radius=0.3), CarGeometry(wheelbase=2.64),
+                    iso_vehicle(2.6), "s.toml")
+    assert (info.value.item, info.value.field) == ("[car]", "wheelbase")
 
 
 def test_uncertainty_of_an_unused_input_is_an_error():
