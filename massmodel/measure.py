@@ -91,6 +91,18 @@ def load_session_and_model(
     return session, model
 
 
+def _header(fmt: str, session: Session, model: Model | None) -> dict[str, Any]:
+    """The keys every measurement report starts with."""
+    return {
+        "format": fmt,
+        "session": session.name,
+        "session_file": session.source,
+        "date": session.date,
+        "model": model.name if model is not None else None,
+        "model_file": model.source if model is not None else None,
+    }
+
+
 def _est(e: Estimate | None, unit: str) -> dict[str, Any] | None:
     return None if e is None else e.to_dict(unit)
 
@@ -136,12 +148,7 @@ def weighing_report(a: WeighingAnalysis) -> dict[str, Any]:
     s, c, b, g = a.session, a.corners, a.balance, a.geometry
     f = c.loads
     out: dict[str, Any] = {
-        "format": WEIGHING_FORMAT,
-        "session": s.name,
-        "session_file": s.source,
-        "date": s.date,
-        "model": a.model.name if a.model is not None else None,
-        "model_file": a.model.source if a.model is not None else None,
+        **_header(WEIGHING_FORMAT, s, a.model),
         "conventions": CONVENTIONS,
         "weighings": [
             {"label": lab, "loads_kg": _corners(row), "total_kg": float(row.sum()),
@@ -363,12 +370,7 @@ def lift_report(session: Session, model: Model | None = None) -> dict[str, Any]:
     results = analyse_lifts(session, model)
     combined = combine_heights(results)
     out: dict[str, Any] = {
-        "format": LIFT_FORMAT,
-        "session": session.name,
-        "session_file": session.source,
-        "date": session.date,
-        "model": model.name if model is not None else None,
-        "model_file": model.source if model is not None else None,
+        **_header(LIFT_FORMAT, session, model),
         "conventions": CONVENTIONS,
         "method": "ISO 10392:2011 axle lift: h = r_s + L (F' - F) / (W tan(theta)), sin(theta) = rise / L",
         "assumptions": list(LIFT_ASSUMPTIONS),
@@ -435,12 +437,7 @@ def pendulum_report(session: Session, model: Model | None = None) -> dict[str, A
     for t in session.pendulums:
         tests.append(_pendulum_dict(reduce_pendulum(t), t, model))
     return {
-        "format": PENDULUM_FORMAT,
-        "session": session.name,
-        "session_file": session.source,
-        "date": session.date,
-        "model": model.name if model is not None else None,
-        "model_file": model.source if model is not None else None,
+        **_header(PENDULUM_FORMAT, session, model),
         "conventions": {**CONVENTIONS, "inertia": "moment of inertia about the stated axis, kg*m^2; the model's "
                         "value is n . I_P . n with I_P its tensor about a point of the axis (tensor convention)"},
         "formulas": {

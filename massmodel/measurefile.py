@@ -21,6 +21,7 @@ import numpy as np
 import numpy.typing as npt
 
 from . import expr, units
+from .modelfile import ModelFileError
 
 __all__ = [
     "MeasurementFileError",
@@ -73,20 +74,11 @@ FIXTURE_FIELDS = {"mass", "periods", "timing", "inertia", "pivot_to_cg", "note"}
 COMPARE_FIELDS = {"axis", "through", "groups", "exclude"}
 
 
-class MeasurementFileError(ValueError):
-    """A problem in a measurement session file, naming the file, the item and the field."""
+class MeasurementFileError(ModelFileError):
+    """A problem in a measurement session file, naming the file, the item and the field.
 
-    def __init__(self, file: str, item: str | None, field: str | None, message: str) -> None:
-        self.file = file
-        self.item = item
-        self.field = field
-        self.message = message
-        where = file
-        if item:
-            where += f": {item}"
-        if field:
-            where += f", field '{field}'"
-        super().__init__(f"{where}: {message}")
+    The same shape as :class:`massmodel.modelfile.ModelFileError` (``file``, ``item``, ``field``, ``message``).
+    """
 
 
 @dataclass(frozen=True, slots=True)
@@ -503,12 +495,19 @@ def _weighing(rd: _Reader, table: dict[str, Any], index: int) -> Weighing:
     return Weighing(label, np.array(loads), pads, rd.text(table, "note", item), f"{rd.file}: {item}")
 
 
-def _lift(rd: _Reader, table: dict[str, Any], index: int) -> LiftSeries:
-    name = table.get("name", f"axle lift #{index + 1}")
+def _named(rd: _Reader, table: dict[str, Any], index: int, section: str, allowed: set[str]) -> tuple[str, str]:
+    """(name, item) of a [[section]] table with a 'name' field (default "<section> #n"); checks its fields."""
+    name = table.get("name", f"{section} #{index + 1}")
     if not isinstance(name, str) or not name.strip():
-        raise rd.error(f"axle_lift #{index + 1}", "name", f"expected text, got {name!r}")
-    item = f"axle_lift '{name}'"
-    rd.check_fields(table, LIFT_FIELDS, item)
+        raise rd.error(f"{section} #{index + 1}", "name", f"expected text, got {name!r}")
+    name = name.strip()
+    item = f"{section} '{name}'"
+    rd.check_fields(table, allowed, item)
+    return name, item
+
+
+def _lift(rd: _Reader, table: dict[str, Any], index: int) -> LiftSeries:
+    name, item = _named(rd, table, index, "axle_lift", LIFT_FIELDS)
     lifted = table.get("lifted")
     if lifted not in ("front", "rear"):
         raise rd.error(item, "lifted", f"expected \"front\" or \"rear\" (the axle that is lifted), got {lifted!r}")
@@ -570,16 +569,12 @@ def _lift(rd: _Reader, table: dict[str, Any], index: int) -> LiftSeries:
     if len(readings) < 3:
         raise rd.error(item, "reading", f"needs at least three lifted readings (ISO 10392 lifts in at least three "
                                         f"steps), got {len(readings)}")
-    return LiftSeries(name.strip(), lifted, lv["front"], lv["rear"], tuple(readings), wheelbase, radius, unc,
+    return LiftSeries(name, lifted, lv["front"], lv["rear"], tuple(readings), wheelbase, radius, unc,
                       rd.text(table, "note", item), f"{rd.file}: {item}")
 
 
 def _pendulum(rd: _Reader, table: dict[str, Any], index: int) -> PendulumTest:
-    name = table.get("name", f"pendulum #{index + 1}")
-    if not isinstance(name, str) or not name.strip():
-        raise rd.error(f"pendulum #{index + 1}", "name", f"expected text, got {name!r}")
-    item = f"pendulum '{name}'"
-    rd.check_fields(table, PENDULUM_FIELDS, item)
+    name, item = _named(rd, table, index, "pendulum", PENDULUM_FIELDS)
     try:
         kind = PendulumKind(table.get("kind"))
     except ValueError:
@@ -652,7 +647,7 @@ def _pendulum(rd: _Reader, table: dict[str, Any], index: int) -> PendulumTest:
                 raise rd.error(item, f"uncertainty.{key}", "a standard uncertainty is not negative")
     compare = _comparison(rd, table["compare"], item) if "compare" in table else None
     return PendulumTest(
-        name=name.strip(), kind=kind, body_mass=body_mass, periods=periods, fixture=fixture, gravity=gravity,
+        name=name, kind=kind, body_mass=body_mass, periods=periods, fixture=fixture, gravity=gravity,
         gravity_given="local_gravity" in table, amplitude=amplitude, uncertainty=unc, compare=compare,
         note=rd.text(table, "note", item), origin=f"{rd.file}: {item}",
         wire_length=geometry["wire_length"], wire_spacing=geometry["wire_spacing"],
