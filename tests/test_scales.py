@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from massmodel.massprops import MassProperties
 from massmodel.measurefile import CarGeometry, MeasurementFileError, Weighing, loads_session
@@ -154,3 +156,22 @@ def test_geometry_from_session_or_model_and_inconsistent_wheelbase():
         resolve_geometry(CarGeometry(wheelbase=2.6), None, "s.toml")
     assert info.value.field == "track_front" and "is missing" in info.value.message
     assert resolve_geometry(CarGeometry(wheelbase=2.65, tolerance=0.05), v, "s.toml").wheelbase == 2.65
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.floats(-2.5, -0.1), st.floats(-0.2, 0.2), st.floats(50.0, 900.0), st.floats(-5.0, 5.0),
+)
+def test_property_reduction_inverts_the_static_balance_with_any_preload(x, y, mass, w):
+    # Property: corners of any point mass inside the wheelbase (lever rule, massmodel.vehicle) plus any diagonal
+    # preload reduce back to the same CG, mass and preload (statics; common practice, no source).
+    v = iso_vehicle()
+    corners = static_balance(MassProperties.point(mass, [x, y, 0.0]), v).corners
+    corners = corners + np.array([w, -w, -w * v.track_front / v.track_rear, w * v.track_front / v.track_rear])
+    if np.any(corners <= 0.0):
+        return
+    bal = balance_from_corners(reduce_weighings([weighing(corners)]), geometry(v.wheelbase, v.track_front, v.track_rear))
+    assert bal.mass.value == pytest.approx(mass, rel=1e-12)
+    assert bal.station(v).value == pytest.approx(x, rel=1e-9, abs=1e-12)
+    assert bal.left_of_centre.value == pytest.approx(y, rel=1e-9, abs=1e-12)
+    assert bal.wedge == pytest.approx(w, rel=1e-9, abs=1e-9)
