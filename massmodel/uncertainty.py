@@ -4,7 +4,8 @@ References
 ----------
 .. [1] JCGM 100:2008, *Evaluation of measurement data — Guide to the expression of uncertainty in measurement*
    (GUM), §5.1.2 (law of propagation of uncertainty for independent inputs, ``u_y² = Σ (∂f/∂x_i)² u²(x_i)``) and
-   §5.1.3 (sensitivity coefficients ∂f/∂x_i, which may be found numerically).
+   §5.1.3 (sensitivity coefficients ∂f/∂x_i, which may be found numerically). Section numbers of the GUM cited in
+   massmodel are from memory.
 """
 
 from __future__ import annotations
