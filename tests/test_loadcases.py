@@ -5,8 +5,8 @@ from __future__ import annotations
 import json
 
 import pytest
-from conftest import assert_props_close
 
+from conftest import assert_props_close
 from massmodel.cli import main
 from massmodel.loadcases import BASE_CASE, check_rules_in_cases
 from massmodel.massprops import combine
