@@ -16,7 +16,7 @@ from typing import Any
 
 import numpy as np
 
-from . import expr, modelfile_cases, units
+from . import expr, modelfile_cases, modelfile_driver, units
 from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
 from .loadcases import BASE_CASE
 from .massprops import InertiaError
@@ -438,6 +438,12 @@ def _build(
         made = _parts(prd, table, i, groups, materials, mirror)
         components.extend(made)
         if _optional(prd, table, f"part '{table.get('path')}'", groups):
+            optional.update(c.path for c in made)
+    for i, table in enumerate(_table_list(rd, data, "driver")):
+        drd = rd.for_table(table)
+        made = modelfile_driver.driver_components(drd, table, i, groups, vehicle)
+        components.extend(made)
+        if _optional(drd, table, f"driver '{table.get('path')}'", groups):
             optional.update(c.path for c in made)
     seen: dict[str, str] = {}
     for c in components:
