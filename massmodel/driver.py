@@ -30,8 +30,9 @@ Geometry (assumptions of this model, no source):
 - hip joints lie at ± (hip width / 2 − thigh radius) beside the hip point, shoulder joints at ± (shoulder width / 2 −
   upper-arm radius) beside the mid-shoulder point;
 - each leg is a two-link chain from its hip joint to the ankle point, the knee bending upwards; each arm a two-link
-  chain from its shoulder joint to the wrist point, the elbow bending downwards (both in the plane through the chain's
-  ends and the vertical); the hand continues the forearm; the foot stands normal to the shank, toes upwards;
+  chain from its shoulder joint to the wrist point, the elbow bending downwards and a little outwards (towards down +
+  half outwards); each bends in the plane through the chain's ends and that direction; the hand continues the
+  forearm; the foot stands normal to the shank, toes upwards;
 - cylinders (upper arm, forearm, thigh, shank) span one segment length and are centred on the tabulated CG, so they
   sit shifted by (0.5 − CG fraction) × length towards the proximal joint; ellipsoids: trunk (width = shoulder
   width, depth from the volume), head and neck (round section), hand (width twice its thickness), foot (width = foot
@@ -313,8 +314,8 @@ def seated_segments(posture: SeatedPosture, data: SegmentData) -> list[Segment]:
         wrist = mirror(np.asarray(p.wrist_point, dtype=float))
         knee = _two_link(hip_joint, ankle, lengths["thigh"], lengths["shank"], up, fwd, "ankle_point",
                          f"{side} leg from hip joint to ankle")
-        elbow = _two_link(shoulder, wrist, lengths["upper_arm"], lengths["forearm"], -up, -fwd, "wrist_point",
-                          f"{side} arm from shoulder joint to wrist")
+        elbow = _two_link(shoulder, wrist, lengths["upper_arm"], lengths["forearm"], -up + 0.5 * sign * left, -fwd,
+                          "wrist_point", f"{side} arm from shoulder joint to wrist")
         shank_dir = _unit(ankle - knee)
         foot_dir = up - (up @ shank_dir) * shank_dir
         foot_dir = _unit(foot_dir if np.linalg.norm(foot_dir) > 1e-9 else fwd)
