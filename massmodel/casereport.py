@@ -77,8 +77,14 @@ def format_case_table(data: dict[str, Any], units: DisplayUnits = DisplayUnits.S
     def row(label: str, cell: Callable[[dict[str, Any]], str]) -> None:
         rows.append([label, *(cell(c) for c in cases)])
 
-    def has(key: str) -> bool:
-        return all(key in c for c in cases)
+    def length(key: str, i: int | None = None) -> Callable[[dict[str, Any]], str]:
+        return lambda c: f"{(c[key] if i is None else c[key][i]) * ls:.{ld}f}"
+
+    def kg(key: str, sub: str) -> Callable[[dict[str, Any]], str]:
+        return lambda c: f"{c[key][sub]:.2f}"
+
+    def inertia(axis: str) -> Callable[[dict[str, Any]], str]:
+        return lambda c: f"{c['inertia_vehicle_axes_kg_m2'][axis] * isc:.{idg}f}"
 
     row("parameters set", lambda c: ", ".join(f"{k} = {v}" for k, v in c["overrides"].items()) or "-")
     row("switched off", lambda c: ", ".join(c["switched_off"]) or "-")
@@ -86,19 +92,18 @@ def format_case_table(data: dict[str, Any], units: DisplayUnits = DisplayUnits.S
     row("parts", lambda c: str(c["parts"]))
     row("mass kg", lambda c: f"{c['mass_kg']:.2f}")
     for i, axis in enumerate("xyz"):
-        row(f"CG {axis} {lu} (model axes)", lambda c, i=i: f"{c['cg_m'][i] * ls:.{ld}f}")
-    if has("front_fraction"):
-        row(f"CG height above ground {lu}", lambda c: f"{c['cg_height_m'] * ls:.{ld}f}")
-        row(f"CG behind front axle {lu}", lambda c: f"{c['cg_behind_front_axle_m'] * ls:.{ld}f}")
+        row(f"CG {axis} {lu} (model axes)", length("cg_m", i))
+    if all("front_fraction" in c for c in cases):
+        row(f"CG height above ground {lu}", length("cg_height_m"))
+        row(f"CG behind front axle {lu}", length("cg_behind_front_axle_m"))
         row("front fraction", lambda c: f"{c['front_fraction']:.4f}")
         row("left fraction", lambda c: f"{c['left_fraction']:.4f}")
-        row("front axle kg", lambda c: f"{c['axle_loads_kg']['front']:.2f}")
-        row("rear axle kg", lambda c: f"{c['axle_loads_kg']['rear']:.2f}")
+        row("front axle kg", kg("axle_loads_kg", "front"))
+        row("rear axle kg", kg("axle_loads_kg", "rear"))
         for key, label in (("front_left", "FL"), ("front_right", "FR"), ("rear_left", "RL"), ("rear_right", "RR")):
-            row(f"corner {label} kg", lambda c, key=key: f"{c['corner_loads_kg'][key]:.2f}")
+            row(f"corner {label} kg", kg("corner_loads_kg", key))
         for key in ("roll", "pitch", "yaw"):
-            row(f"{key} inertia {iu} (about CG)",
-                lambda c, key=key: f"{c['inertia_vehicle_axes_kg_m2'][key] * isc:.{idg}f}")
+            row(f"{key} inertia {iu} (about CG)", inertia(key))
     out = [f"LOAD CASES · {data['model']}   ({data['source']})",
            f"frame: model axes · lengths {lu} · loads as mass-equivalent kg · inertia about the CG, vehicle axes",
            "", table(["", *names], rows)]
