@@ -12,13 +12,16 @@ import enum
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import numpy.typing as npt
 
 from .frames import Pose
 from .massprops import MassProperties, combine_arrays, parallel_axis_shift, validate_inertia
+
+if TYPE_CHECKING:
+    from .loadcases import LoadCase
 
 __all__ = [
     "Maturity",
@@ -375,7 +378,7 @@ class Model:
     source: str = ""
     description: str = ""
     case: str = "base"
-    load_cases: tuple[Any, ...] = ()
+    load_cases: tuple[LoadCase, ...] = ()
     _index: Mapping[str, int] = field(init=False, repr=False)
 
     def __post_init__(self) -> None:

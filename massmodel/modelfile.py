@@ -361,8 +361,7 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
     for key in LIST_SECTIONS:
         merged[key] = list(base.get(key, [])) + list(data.get(key, []))
     for path in remove:
-        before = len(merged["part"]) + len(merged["group"])
-        before += len(merged["driver"])
+        before = len(merged["part"]) + len(merged["group"]) + len(merged["driver"])
         for key in ("part", "group", "driver"):
             merged[key] = [t for t in merged[key]
                            if not (isinstance(t, dict) and isinstance(t.get("path"), str)
@@ -437,13 +436,13 @@ def _build(
         prd = rd.for_table(table)
         made = _parts(prd, table, i, groups, materials, mirror)
         components.extend(made)
-        if _optional(prd, table, f"part '{table.get('path')}'", groups):
+        if _optional(prd, table, f"part '{table.get('path')}'", _enclosing(str(table.get("path")), groups)):
             optional.update(c.path for c in made)
     for i, table in enumerate(_table_list(rd, data, "driver")):
         drd = rd.for_table(table)
         made = modelfile_driver.driver_components(drd, table, i, groups, vehicle)
         components.extend(made)
-        if _optional(drd, table, f"driver '{table.get('path')}'", groups):
+        if _optional(drd, table, f"driver '{table.get('path')}'", _enclosing(made[0].path, groups)):
             optional.update(c.path for c in made)
     seen: dict[str, str] = {}
     for c in components:
@@ -500,9 +499,9 @@ def _build(
     )
 
 
-def _optional(rd: _Reader, table: Mapping[str, Any], item: str, groups: Mapping[str, _Group]) -> bool:
+def _optional(rd: _Reader, table: Mapping[str, Any], item: str, enclosing: Sequence[_Group]) -> bool:
     """Whether a part or driver table is left out of the base model (its own flag or an enclosing group's)."""
-    return _flag(rd, table, "optional", item) or any(g.optional for g in _enclosing(str(table.get("path")), groups))
+    return _flag(rd, table, "optional", item) or any(g.optional for g in enclosing)
 
 
 def _table_list(rd: _Reader, data: Mapping[str, Any], key: str) -> list[dict[str, Any]]:

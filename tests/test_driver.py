@@ -306,6 +306,11 @@ def test_optional_driver_and_a_case_switching_it_on():
     assert [c.path for c in loads_model(text, label="car.toml").components] == ["tub"]
     seated = loads_model(text, label="car.toml", case="seated")
     assert seated.mass_properties().mass == pytest.approx(376.0, rel=1e-15)
+    # the same through an optional group around the driver's own path
+    text = text.replace("optional = true\n", "").replace('switch_on = ["cockpit/driver"]', 'switch_on = ["cockpit"]')
+    text += '[[group]]\npath = "cockpit/driver"\noptional = true\n'
+    assert [c.path for c in loads_model(text, label="car.toml").components] == ["tub"]
+    assert loads_model(text, label="car.toml", case="seated").mass_properties().mass == pytest.approx(376.0)
 
 
 # --- the demo car -----------------------------------------------------------------------------------------------
