@@ -101,7 +101,7 @@ _LIMBS = ("upper_arm", "forearm", "hand", "thigh", "shank", "foot")
 _PLAGENHOEF = ("Plagenhoef, Evans & Abdelnour (1983), Research Quarterly for Exercise and Sport 54(2), as "
                "transcribed on a university biomechanics lab page (R2)")
 
-# (mass %, CG % from proximal) per segment, one side: REFERENCES.md §10 (male) and the same transcription (female).
+# (mass %, CG % from proximal) per segment, one side: REFERENCES.md §10 (male) and the same lab page (female).
 SEGMENT_DATA: dict[str, SegmentData] = {
     "plagenhoef_1983_male": SegmentData("plagenhoef_1983_male", _PLAGENHOEF + ", male; masses normalised from "
                                         "100.70 %", {
