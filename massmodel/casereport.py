@@ -10,7 +10,6 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
-from . import cautions
 from .model import Model
 from .report import CONVENTIONS, DisplayUnits, build_report, table
 
@@ -35,13 +34,15 @@ def build_case_table(models: Mapping[str, Model]) -> dict[str, Any]:
     dict
         ``format``, ``model``, ``source``, ``conventions``, ``cases`` (one dict per case: name, description,
         parameter overrides, switched groups, and the summary numbers of its report), ``rules_passed`` (every rule
-        in every case it applies in) and ``cautions``.
+        in every case it applies in) and ``cautions`` (those of every case's report, once each).
     """
     first = next(iter(models.values()))
     definitions = {c.name: c for c in first.load_cases}
     rows = []
+    lines: list[str] = []
     for name, model in models.items():
         report = build_report(model)
+        lines.extend(line for line in report["cautions"] if line not in lines)
         d = definitions.get(name)
         rows.append({
             "name": name,
@@ -60,7 +61,7 @@ def build_case_table(models: Mapping[str, Model]) -> dict[str, Any]:
         "conventions": CONVENTIONS,
         "cases": rows,
         "rules_passed": all(r["rules_passed"] for r in rows),
-        "cautions": cautions.for_report(),
+        "cautions": lines,
     }
 
 
