@@ -209,7 +209,7 @@ def build_transfer_report(
     balance = static_balance(model.mass_properties(), model.vehicle)
     results = [load_transfer(balance, model.vehicle, c.longitudinal_g, c.lateral_g, front_roll_share)
                for c in conditions]
-    share = results[0]
+    first = results[0]
     rows = [_loads_dict("static", 0.0, 0.0, balance.front, balance.rear, balance.corners)]
     for c, r in zip(conditions, results, strict=True):
         rows.append({
@@ -229,8 +229,8 @@ def build_transfer_report(
         "wheelbase_m": model.vehicle.wheelbase,
         "track_m": {"front": model.vehicle.track_front, "rear": model.vehicle.track_rear},
         "front_roll_share": {
-            "value": share.front_roll_share,
-            "source": "given" if share.share_given else "assumed: the static front weight fraction b/L",
+            "value": first.front_roll_share,
+            "source": "given" if first.share_given else "assumed: the static front weight fraction b/L",
         },
         "conditions": rows,
         "assumptions": list(ASSUMPTIONS),
