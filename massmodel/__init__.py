@@ -14,6 +14,7 @@ Quick use::
 from __future__ import annotations
 
 from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from .loadcases import LoadCase
 from .massprops import (
     InertiaError,
     MassProperties,
@@ -30,8 +31,9 @@ from .massprops import (
 )
 from .materials import Material, builtin_materials
 from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
-from .modelfile import ModelFileError, load_model, loads_model
+from .modelfile import ModelFileError, load_case_models, load_model, loads_model
 from .report import build_report, format_report
+from .transfer import TransferredLoads, load_transfer
 from .vehicle import Balance, RuleResult, check_rules, static_balance
 
 __version__ = "0.1.0"
@@ -41,6 +43,7 @@ __all__ = [
     "Component",
     "Cutout",
     "InertiaError",
+    "LoadCase",
     "MassProperties",
     "MassSource",
     "Material",
@@ -53,6 +56,7 @@ __all__ = [
     "RuleCheck",
     "RuleResult",
     "Slot",
+    "TransferredLoads",
     "Vehicle",
     "build_report",
     "builtin_materials",
@@ -62,7 +66,9 @@ __all__ = [
     "format_report",
     "inertia_about_point",
     "inertia_in_axes",
+    "load_case_models",
     "load_model",
+    "load_transfer",
     "loads_model",
     "principal_axes",
     "products_positive",

@@ -12,13 +12,16 @@ import enum
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import numpy.typing as npt
 
 from .frames import Pose
 from .massprops import MassProperties, combine_arrays, parallel_axis_shift, validate_inertia
+
+if TYPE_CHECKING:
+    from .loadcases import LoadCase
 
 __all__ = [
     "Maturity",
@@ -261,7 +264,8 @@ class Rule:
 
     ``limit`` is in SI (kg for masses and loads, m for heights); ``minimum``/``maximum`` are fractions for
     FRONT_FRACTION. ``groups`` lists the groups summed by MIN_GROUP_MASS; ``exclude`` the groups left out of
-    MIN_MASS; ``axle`` is "front" or "rear" for MIN_AXLE_LOAD.
+    MIN_MASS; ``axle`` is "front" or "rear" for MIN_AXLE_LOAD. ``cases`` names the load cases the rule applies in
+    (empty: every case whose ``general_rules`` is true, and the base; see :mod:`massmodel.loadcases`).
     """
 
     name: str
@@ -273,6 +277,7 @@ class Rule:
     exclude: tuple[str, ...] = ()
     axle: str | None = None
     origin: str = ""
+    cases: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -357,6 +362,10 @@ class Model:
         The file the model came from ('' when built in Python).
     description : str
         Free text.
+    case : str
+        The load case this model was evaluated for ("base" when none; see :mod:`massmodel.loadcases`).
+    load_cases : tuple of LoadCase
+        Every load case the file defines (the same tuple in the base model and in each case's model).
     """
 
     name: str
@@ -368,6 +377,8 @@ class Model:
     materials: Mapping[str, Any] = field(default_factory=dict)
     source: str = ""
     description: str = ""
+    case: str = "base"
+    load_cases: tuple[LoadCase, ...] = ()
     _index: Mapping[str, int] = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
@@ -448,4 +459,6 @@ class Model:
             materials=self.materials,
             source=self.source,
             description=self.description,
+            case=self.case,
+            load_cases=self.load_cases,
         )

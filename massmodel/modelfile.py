@@ -6,6 +6,7 @@ the item and the field (:class:`ModelFileError`).
 
 from __future__ import annotations
 
+import copy
 import re
 import tomllib
 from collections.abc import Mapping, Sequence
@@ -15,16 +16,18 @@ from typing import Any
 
 import numpy as np
 
-from . import expr, units
+from . import expr, modelfile_cases, modelfile_driver, units
 from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from .loadcases import BASE_CASE
 from .massprops import InertiaError
 from .materials import Material, MaterialError, builtin_materials, material_from_fields
 from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
 from .shapes import SHAPE_KINDS, ShapeError
 
-__all__ = ["ModelFileError", "load_model", "loads_model", "SHAPE_FILE_FIELDS", "PALETTE"]
+__all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
 
-TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule"}
+TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule", "case",
+                  "driver"}
 UNIT_KINDS: dict[str, units.Dimension] = {
     "length": units.LENGTH,
     "mass": units.MASS,
@@ -53,10 +56,10 @@ SHAPE_FILE_FIELDS: dict[str, dict[str, str]] = {
 }
 PLACEMENT_FIELDS = {"at", "rotate"}
 PART_FIELDS = {"path", "shape", "material", "density", "mass", "measured", "colour", "maturity", "cut", "mirror",
-               "pattern", "slot", "note"} | PLACEMENT_FIELDS
-GROUP_FIELDS = {"path", "colour", "maturity", "mirror", "note"} | PLACEMENT_FIELDS
+               "pattern", "slot", "note", "optional"} | PLACEMENT_FIELDS
+GROUP_FIELDS = {"path", "colour", "maturity", "mirror", "note", "optional"} | PLACEMENT_FIELDS
 SLOT_FIELDS = {"name", "shape", "clearance", "note"} | PLACEMENT_FIELDS
-RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note"}
+RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note", "case"}
 VEHICLE_FIELDS = {"axes", "wheelbase", "track_front", "track_rear", "front_axle_station", "ground_level"}
 
 # Colours given to parts with none, by top-level group (sorted), cycling. Muted, distinguishable hues.
@@ -88,6 +91,7 @@ class _Group:
     colour: str | None
     maturity: Maturity | None
     mirror: bool
+    optional: bool = False
 
 
 class _Reader:
@@ -229,7 +233,7 @@ def _read_toml(path: Path, label: str) -> dict[str, Any]:
         raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
 
 
-def load_model(path: str | Path, overrides: Mapping[str, str] | None = None) -> Model:
+def load_model(path: str | Path, overrides: Mapping[str, str] | None = None, case: str | None = None) -> Model:
     """Read a model file.
 
     Parameters
@@ -237,12 +241,15 @@ def load_model(path: str | Path, overrides: Mapping[str, str] | None = None) -> 
     path : str or Path
         The TOML model file.
     overrides : mapping, optional
-        Parameter name → expression text, replacing the file's definitions (``--set name=value``).
+        Parameter name → expression text, replacing the file's definitions (``--set name=value``); applied after
+        the load case's own overrides.
+    case : str, optional
+        A load case of the file (``[[case]]``); None or ``"base"`` for the model as the file describes it.
 
     Returns
     -------
     Model
-        SI throughout, mirrors and patterns expanded.
+        SI throughout, mirrors and patterns expanded; ``model.case`` names the case.
 
     Raises
     ------
@@ -251,11 +258,16 @@ def load_model(path: str | Path, overrides: Mapping[str, str] | None = None) -> 
     """
     p = Path(path)
     data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
-    return _build(data, label=str(path), base_dir=p.parent, overrides=overrides)
+    return _build_case(data, label=str(path), base_dir=p.parent, overrides=overrides, case=case)
 
 
 def loads_model(
-    text: str, *, label: str = "<text>", base_dir: str | Path = ".", overrides: Mapping[str, str] | None = None
+    text: str,
+    *,
+    label: str = "<text>",
+    base_dir: str | Path = ".",
+    overrides: Mapping[str, str] | None = None,
+    case: str | None = None,
 ) -> Model:
     """Like :func:`load_model`, from a string (for tests and tools)."""
     try:
@@ -263,10 +275,40 @@ def loads_model(
     except tomllib.TOMLDecodeError as exc:
         raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
     data = _resolve_extends(data, label, Path(base_dir), chain=())
-    return _build(data, label=label, base_dir=Path(base_dir), overrides=overrides)
+    return _build_case(data, label=label, base_dir=Path(base_dir), overrides=overrides, case=case)
 
 
-LIST_SECTIONS = ("group", "part", "slot", "rule")
+def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = None) -> dict[str, Model]:
+    """The base model and the model of every load case of a file, read once.
+
+    Returns
+    -------
+    dict of str to Model
+        ``"base"`` first, then the cases in file order.
+    """
+    p = Path(path)
+    data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
+    base = _build_case(copy.deepcopy(data), label=str(path), base_dir=p.parent, overrides=overrides, case=None)
+    out = {BASE_CASE: base}
+    for c in base.load_cases:
+        out[c.name] = _build_case(copy.deepcopy(data), label=str(path), base_dir=p.parent, overrides=overrides,
+                                  case=c.name)
+    return out
+
+
+def _build_case(
+    data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None
+) -> Model:
+    """:func:`_build`, naming the load case in any error met while building it."""
+    try:
+        return _build(data, label=label, base_dir=base_dir, overrides=overrides, case=case)
+    except ModelFileError as exc:
+        if case is None or case == BASE_CASE or exc.item == f"case '{case}'":
+            raise
+        raise ModelFileError(exc.file, exc.item, exc.field, f"{exc.message} (in load case '{case}')") from None
+
+
+LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver")
 SOURCE_KEY = "__file__"  # which file a merged table came from (set by _resolve_extends, removed before use)
 
 
@@ -319,12 +361,12 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
     for key in LIST_SECTIONS:
         merged[key] = list(base.get(key, [])) + list(data.get(key, []))
     for path in remove:
-        before = len(merged["part"]) + len(merged["group"])
-        for key in ("part", "group"):
+        before = len(merged["part"]) + len(merged["group"]) + len(merged["driver"])
+        for key in ("part", "group", "driver"):
             merged[key] = [t for t in merged[key]
                            if not (isinstance(t, dict) and isinstance(t.get("path"), str)
                                    and (t["path"] == path or t["path"].startswith(path + "/")))]
-        if len(merged["part"]) + len(merged["group"]) == before:
+        if len(merged["part"]) + len(merged["group"]) + len(merged["driver"]) == before:
             raise ModelFileError(label, item, "remove", f"the base model has no part or group '{path}'")
     for key in data:
         if key not in merged:
@@ -332,7 +374,9 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
     return merged
 
 
-def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None) -> Model:
+def _build(
+    data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None = None
+) -> Model:
     unknown = sorted(set(data) - TOP_LEVEL_KEYS)
     if unknown:
         raise ModelFileError(label, None, None, f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
@@ -355,10 +399,16 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
     params = data.get("parameters", {})
     if not isinstance(params, dict):
         raise ModelFileError(label, "[parameters]", None, "must be a table of name = value")
+    crd = _Reader(label, defaults, {})  # case tables hold no quantities to evaluate
+    cases = modelfile_cases.read_cases(crd, _table_list(crd, data, "case"), params)
+    active = modelfile_cases.find_case(cases, case, label)
     try:
-        env = expr.evaluate_parameters(params, overrides=dict(overrides or {}))
+        env = expr.evaluate_parameters(params, overrides={**(active.override_map if active else {}), **(overrides or {})})
     except expr.ParameterError as exc:
+        if active is not None and exc.name in active.override_map:
+            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", str(exc)) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", str(exc)) from None
+    modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
     rd = _Reader(label, defaults, env)
 
     vehicle = _vehicle(rd, data.get("vehicle"))
@@ -381,8 +431,19 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
 
     groups = _groups(rd, data.get("group", []))
     components: list[Component] = []
+    optional: set[str] = set()
     for i, table in enumerate(_table_list(rd, data, "part")):
-        components.extend(_parts(rd.for_table(table), table, i, groups, materials, mirror))
+        prd = rd.for_table(table)
+        made = _parts(prd, table, i, groups, materials, mirror)
+        components.extend(made)
+        if _optional(prd, table, f"part '{table.get('path')}'", _enclosing(str(table.get("path")), groups)):
+            optional.update(c.path for c in made)
+    for i, table in enumerate(_table_list(rd, data, "driver")):
+        drd = rd.for_table(table)
+        made = modelfile_driver.driver_components(drd, table, i, groups, vehicle)
+        components.extend(made)
+        if _optional(drd, table, f"driver '{table.get('path')}'", _enclosing(made[0].path, groups)):
+            optional.update(c.path for c in made)
     seen: dict[str, str] = {}
     for c in components:
         if c.path in seen:
@@ -411,11 +472,17 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
         rule_tables.extend((brd, t, i) for i, t in enumerate(_table_list(brd, book_data, "rule")))
     rule_tables.extend((rd.for_table(t), t, i) for i, t in enumerate(_table_list(rd, data, "rule")))
     rules = tuple(_rule(r, t, i, vehicle is not None) for r, t, i in rule_tables)
+    case_names = {BASE_CASE, *(c.name for c in cases)}
     for rule in rules:
+        where = (rule.origin.split(": ")[0], rule.origin.split(": ", 1)[-1])
         for g in rule.groups + rule.exclude:
             if not any(c.path == g or c.path.startswith(g + "/") for c in components):
-                raise ModelFileError(rule.origin.split(": ")[0], rule.origin.split(": ", 1)[-1], "groups"
-                                     if g in rule.groups else "exclude", f"no part lies in group '{g}'")
+                raise ModelFileError(*where, "groups" if g in rule.groups else "exclude", f"no part lies in group '{g}'")
+        for name in rule.cases:
+            if name not in case_names:
+                raise ModelFileError(*where, "case", f"the model defines no load case '{name}'; cases: "
+                                     f"{', '.join(sorted(case_names))}")
+    components, rules = modelfile_cases.select_case(cases, active, components, optional, rules)
 
     return Model(
         name=head["name"].strip(),
@@ -427,7 +494,14 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
         materials=materials,
         source=label,
         description=str(head.get("description", "")),
+        case=active.name if active else BASE_CASE,
+        load_cases=cases,
     )
+
+
+def _optional(rd: _Reader, table: Mapping[str, Any], item: str, enclosing: Sequence[_Group]) -> bool:
+    """Whether a part or driver table is left out of the base model (its own flag or an enclosing group's)."""
+    return _flag(rd, table, "optional", item) or any(g.optional for g in enclosing)
 
 
 def _table_list(rd: _Reader, data: Mapping[str, Any], key: str) -> list[dict[str, Any]]:
@@ -506,6 +580,7 @@ def _groups(rd: _Reader, tables: Any) -> dict[str, _Group]:
             colour=_colour(g, table["colour"], item) if "colour" in table else None,
             maturity=_maturity(g, table["maturity"], item) if "maturity" in table else None,
             mirror=_flag(g, table, "mirror", item),
+            optional=_flag(g, table, "optional", item),
         )
     return out
 
@@ -751,4 +826,6 @@ def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> 
         kw["axle"] = table["axle"]
     if check in (RuleCheck.MIN_AXLE_LOAD, RuleCheck.FRONT_FRACTION, RuleCheck.MAX_CG_HEIGHT) and not has_vehicle:
         raise rd.error(item, "check", "this rule needs a [vehicle] section in the model")
+    if "case" in table:
+        kw["cases"] = modelfile_cases.rule_case_names(rd, table["case"], item)
     return Rule(name=str(name), check=check, origin=f"{rd.file}: {item}", **kw)

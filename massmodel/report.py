@@ -60,6 +60,7 @@ def build_report(model: Model) -> dict[str, Any]:
     out: dict[str, Any] = {
         "format": REPORT_FORMAT,
         "model": model.name,
+        "case": model.case,
         "source": model.source,
         "conventions": CONVENTIONS,
         **_props_dict(total),
@@ -182,7 +183,8 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     ld = 1 if units is DisplayUnits.MM else 4
     idg = 0 if units is DisplayUnits.MM else 4
     out: list[str] = []
-    out.append(f"massmodel report · {report['model']}   ({report['source']})")
+    case = f" · load case {report['case']}" if report.get("case", "base") != "base" else ""
+    out.append(f"massmodel report · {report['model']}{case}   ({report['source']})")
     out.append(f"frame: model axes · inertia about the CG, tensor convention (I_xy = -∫xy dm) · lengths {lu}")
     out.append("")
     if components:
