@@ -241,14 +241,18 @@ def _detail(it: Any, inertia_mm: bool) -> list[str]:
     return out
 
 
+def _worst_words(it: Any) -> str:
+    return "agrees to round-off" if it.worst[1] < 1e-6 else it.describe_worst()
+
+
 def _side_by_side(raw: Any, corrected: Any) -> list[str]:
     from .report import table
 
     rows = []
     for it in raw.items:
         c = corrected.item(it.group)
-        rows.append([it.group, "pass" if it.passed else "FAIL", f"{it.worst[1]:.2f}", it.describe_worst(),
-                     "pass" if c.passed else "FAIL", f"{c.worst[1]:.2f}", c.describe_worst()])
+        rows.append([it.group, "pass" if it.passed else "FAIL", f"{it.worst[1]:.2f}", _worst_words(it),
+                     "pass" if c.passed else "FAIL", f"{c.worst[1]:.2f}", _worst_words(c)])
     return [table(["item", "as declared", "ratio", "worst check", "read so", "ratio", "worst check"], rows,
                   "llrllrl")]
 
@@ -264,8 +268,13 @@ def format_check(result: Any, inertia_mm: bool = False) -> str:
     if est.description:
         out.append(f"estimate: {est.description}")
     out.extend(f"  solid {line}" for line in est.notes)
-    kind = "declared" if est.kind != "step" else "placement given"
-    out.append(f"{kind}: {est.conventions.describe()}")
+    conv = est.conventions
+    if est.kind == "step":
+        o = ", ".join(f"{1e3 * v * conv.length_factor:g}" for v in conv.origin)
+        out.append(f"STEP placement given: axes {conv.axes.text} · origin ({o}) mm in model axes · computed about "
+                   "each CG, tensor convention")
+    else:
+        out.append(f"declared: {conv.describe()}")
     out.append("compared in model axes, each tensor about its item's CG, tensor convention (I_xy = -∫xy dm); "
                "differences are estimate - model")
     out.append(f"tolerances: mass {100 * tol.mass:g} % · CG offset {1e3 * tol.cg:g} mm · tensor terms "
@@ -275,6 +284,7 @@ def format_check(result: Any, inertia_mm: bool = False) -> str:
     out.append("")
     out.append("AS DECLARED" + ("" if len(result.as_declared.items) == 1 else " (the whole first, then worst first)"))
     out.append(table(_SUMMARY_HEAD, _summary_rows(result.as_declared), "lrrrrrrrrrl"))
+    out.append("ratio: the worst of the five checks as difference / tolerance (<= 1 passes)")
     out.append("")
     out.extend(_detail(result.as_declared.items[0], inertia_mm))
     diag = result.diagnosis

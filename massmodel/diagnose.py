@@ -6,8 +6,9 @@ readings of one declared convention (a *reinterpretation*), then of two:
 
 * ``products`` — the products of inertia in the other sign convention (``P_xy = +∫xy dm`` ↔ ``I_xy = −∫xy dm``);
 * ``units`` — another inertia unit (factors 10³, 10⁶, 10⁹ between kg·m², kg·mm², g·mm², ... and the imperial
-  lb·in², lb·ft², lb·in·s², slug·ft²), another mass or length unit, or a whole other unit system (lb, in, lb·in²);
-  every factor comes from :mod:`massmodel.units` (exact definitions: 1 in = 0.0254 m, 1 lb = 0.45359237 kg,
+  lb·in², lb·ft², lb·in·s², slug·ft²), another mass unit, another length unit of the items' CG coordinates (the
+  origin and reference point declared in the header keep their size), or a whole other unit system for the items
+  (lb, in, lb·in²); every factor comes from :mod:`massmodel.units` (exact definitions: 1 in = 0.0254 m, 1 lb = 0.45359237 kg,
   g_n = 9.80665 m/s²);
 * ``reference`` — the tensors about the estimate origin rather than about each CG, and the reverse;
 * ``axes`` — any other signed permutation of the axes: the 23 other rotations, then the 24 mirror images (a mirror
@@ -51,7 +52,7 @@ from .estimate import (
     normalise_arrays,
     signed_permutations,
 )
-from .massprops import MassProperties
+from .massprops import InertiaError, MassProperties
 from .units import parse_unit
 
 __all__ = ["IMPROVEMENT", "ROUNDOFF", "Diagnosis", "Explanation", "Reinterpretation", "candidates", "diagnose"]
@@ -101,7 +102,14 @@ class Reinterpretation:
         return conv.with_(**self.changes)
 
     def to_dict(self) -> dict[str, Any]:
-        values = {k: (v.text if isinstance(v, AxisMap) else getattr(v, "value", v)) for k, v in self.changes.items()}
+        def plain(v: Any) -> Any:
+            if isinstance(v, AxisMap):
+                return v.text
+            if isinstance(v, np.ndarray):
+                return v.tolist()
+            return getattr(v, "value", v)
+
+        values = {k: plain(v) for k, v in self.changes.items()}
         return {"kind": self.kind, "reading": values, "says": self.label, "cost": self.cost}
 
 
@@ -156,8 +164,16 @@ def candidates(estimate: Estimate) -> list[Reinterpretation]:
             f"not the declared {conv.products.value} one ({conv.products.formula})"))
     if "units" in doubt:
         declared = {"mass_unit": conv.mass_unit, "length_unit": conv.length_unit, "inertia_unit": conv.inertia_unit}
-        words = {"mass_unit": "masses", "length_unit": "lengths (CG, origin, reference point)",
-                 "inertia_unit": "inertia numbers"}
+        words = {"mass_unit": "masses", "length_unit": "CG coordinates", "inertia_unit": "inertia numbers"}
+
+        def header_kept(length_unit: str) -> dict[str, Any]:
+            # The declarations (origin, reference point) were written with the declared unit: keep their size.
+            k = conv.length_factor / _factor(length_unit)
+            kept: dict[str, Any] = {"origin": conv.origin * k}
+            if conv.reference_point is not None:
+                kept["reference_point"] = conv.reference_point * k
+            return kept
+
         for kind, options in (("inertia_unit", _INERTIA_UNITS), ("mass_unit", _MASS_UNITS),
                               ("length_unit", _LENGTH_UNITS)):
             seen = [_factor(declared[kind])]
@@ -167,8 +183,11 @@ def candidates(estimate: Estimate) -> list[Reinterpretation]:
                     continue
                 seen.append(f)
                 ratio = f / seen[0]
+                changes: dict[str, Any] = {kind: unit}
+                if kind == "length_unit":
+                    changes.update(header_kept(unit))
                 out.append(Reinterpretation(
-                    kind, {kind: unit},
+                    kind, changes,
                     f"the {words[kind]} are in {unit}, not the declared {declared[kind]} (factor {ratio:.7g})"))
         base = tuple(_factor(declared[k]) for k in ("mass_unit", "length_unit", "inertia_unit"))
         seen_sys: list[tuple[float, ...]] = []
@@ -179,9 +198,11 @@ def candidates(estimate: Estimate) -> list[Reinterpretation]:
             if any(all(_same(a, b) for a, b in zip(f, s, strict=True)) for s in seen_sys):
                 continue
             seen_sys.append(f)
+            changes = dict(zip(("mass_unit", "length_unit", "inertia_unit"), system, strict=True))
+            changes.update(header_kept(system[1]))
             out.append(Reinterpretation(
-                "unit_system", dict(zip(("mass_unit", "length_unit", "inertia_unit"), system, strict=True)),
-                f"all numbers are in {', '.join(system)}, not the declared "
+                "unit_system", changes,
+                f"the items' numbers are in {', '.join(system)}, not the declared "
                 f"{conv.mass_unit}, {conv.length_unit}, {conv.inertia_unit}"))
     if "reference" in doubt:
         for ref in (ReferenceKind.CG, ReferenceKind.ORIGIN):
@@ -350,6 +371,15 @@ def diagnose(estimate: Estimate, model: Sequence[MassProperties], raw: Compariso
             for s in steps:
                 conv = s.apply(conv)
             tested[kind] += 1
+            # Mass and CG first (cheap, and what no product sign or reference point can change).
+            m = raw_arrays[0] * conv.mass_factor
+            c = conv.origin * conv.length_factor + (raw_arrays[1] * conv.length_factor) @ conv.axes.matrix
+            if np.all(m > 0.0):
+                quick = max(float(np.max(np.abs(m - model_arrays[0]) / model_arrays[0])) / tol.mass,
+                            float(np.max(np.linalg.norm(c - model_arrays[1], axis=-1))) / tol.cg)
+                if quick > limit:
+                    screened.append((quick, steps, conv))
+                    continue
             m, c, t = normalise_arrays(*raw_arrays, conv)
             eig = np.linalg.eigvalsh(t)
             if not (np.all(m > 0.0) and _screen(eig)):
@@ -373,9 +403,16 @@ def diagnose(estimate: Estimate, model: Sequence[MassProperties], raw: Compariso
     closest = None
     if best is None and screened:
         screened.sort(key=lambda x: x[0])
-        near = [full(steps, conv) for _, steps, conv in screened[:5]]
+        near = []
+        for _, steps, conv in screened:
+            try:
+                near.append(full(steps, conv))
+            except InertiaError:  # screened on mass and CG only, and its tensors are impossible
+                tested["impossible"] += 1
+            if len(near) == 5:
+                break
         near.sort(key=lambda e: e.comparison.score)
-        if near[0].comparison.score < raw_score:
+        if near and near[0].comparison.score < raw_score:
             closest = near[0]
     alternatives = tuple(found[1:6])
     ambiguous = best is not None and any(a.roundoff == best.roundoff and a.cost == best.cost for a in alternatives)

@@ -235,14 +235,19 @@ def signed_permutations() -> list[AxisMap]:
 
 # --- conventions ----------------------------------------------------------------------------------------------
 
+_DIMS = {"mass": MASS, "length": LENGTH, "inertia": INERTIA}
+
+
 @functools.lru_cache(maxsize=256)
-def _unit_factor(text: str, dim: Any, what: str) -> float:
-    """SI size of a unit text of the given dimension (cached: a diagnosis re-reads the same few units often)."""
+def _unit_factor(text: str, kind: str) -> float:
+    """SI size of a unit text of the kind 'mass', 'length' or 'inertia' (cached: a diagnosis re-reads the same
+    few units often)."""
     q = parse_unit(text)
+    dim = _DIMS[kind]
     if q.dim != dim:
         raise UnitError(f"'{text}' is {q.dim.describe()}, not {dim.describe()}")
     if not q.value > 0.0:
-        raise UnitError(f"{what} unit '{text}' has no size")
+        raise UnitError(f"{kind} unit '{text}' has no size")
     return q.value
 
 
@@ -279,9 +284,9 @@ class Conventions:
     inertia_factor: float = field(init=False)
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "mass_factor", _unit_factor(self.mass_unit, MASS, "mass"))
-        object.__setattr__(self, "length_factor", _unit_factor(self.length_unit, LENGTH, "length"))
-        object.__setattr__(self, "inertia_factor", _unit_factor(self.inertia_unit, INERTIA, "inertia"))
+        object.__setattr__(self, "mass_factor", _unit_factor(self.mass_unit, "mass"))
+        object.__setattr__(self, "length_factor", _unit_factor(self.length_unit, "length"))
+        object.__setattr__(self, "inertia_factor", _unit_factor(self.inertia_unit, "inertia"))
         origin = np.array(self.origin, dtype=float).reshape(3)
         origin.setflags(write=False)
         object.__setattr__(self, "origin", origin)
@@ -589,7 +594,7 @@ def _conventions(file: str, get: Any, vehicle: Any) -> Conventions:
         if not isinstance(text, str):
             raise EstimateError(file, "units", key, f"expected a unit text such as 'kg*mm^2', got {text!r}")
         try:
-            _unit_factor(text, {"mass": MASS, "length": LENGTH, "inertia": INERTIA}[key], key)
+            _unit_factor(text, key)
         except UnitError as exc:
             raise EstimateError(file, "units", key, str(exc)) from None
         units_[key] = text
