@@ -192,12 +192,12 @@ def candidates(estimate: Estimate) -> list[Reinterpretation]:
         base = tuple(_factor(declared[k]) for k in ("mass_unit", "length_unit", "inertia_unit"))
         seen_sys: list[tuple[float, ...]] = []
         for system in _SYSTEMS:
-            f = tuple(_factor(u) for u in system)
-            if sum(not _same(a, b) for a, b in zip(f, base, strict=True)) < 2:
+            fs = tuple(_factor(u) for u in system)
+            if sum(not _same(a, b) for a, b in zip(fs, base, strict=True)) < 2:
                 continue  # the same as the declared units or as one single-unit reading
-            if any(all(_same(a, b) for a, b in zip(f, s, strict=True)) for s in seen_sys):
+            if any(all(_same(a, b) for a, b in zip(fs, s, strict=True)) for s in seen_sys):
                 continue
-            seen_sys.append(f)
+            seen_sys.append(fs)
             changes = dict(zip(("mass_unit", "length_unit", "inertia_unit"), system, strict=True))
             changes.update(header_kept(system[1]))
             out.append(Reinterpretation(
@@ -299,7 +299,7 @@ class Diagnosis:
         }
 
 
-def _screen(eig: FloatArray) -> bool:
+def _screen(eig: npt.NDArray[Any]) -> bool:
     """All tensors possible, from their ascending eigenvalues (N, 3): positive semi-definite and the triangle
     inequality, with the tolerances of :func:`massmodel.massprops.validate_inertia`."""
     scale = np.maximum(np.abs(eig).max(axis=-1), 1e-300)
@@ -364,7 +364,7 @@ def diagnose(estimate: Estimate, model: Sequence[MassProperties], raw: Compariso
         rel = _relative_residual(model_arrays, (m, c, t), conv.origin * conv.length_factor)
         return Explanation(steps, conv, comparison, rel)
 
-    def run(batch: list[tuple[Reinterpretation, ...]], kind: str) -> list[Explanation]:
+    def run(batch: Sequence[tuple[Reinterpretation, ...]], kind: str) -> list[Explanation]:
         found = []
         for steps in batch:
             conv = estimate.conventions

@@ -157,3 +157,13 @@ def test_json_of_a_check_carries_units_and_the_declaration(tmp_path):
         "says": "the products of inertia are in the positive convention (P_xy = +∫xy dm), not the declared negative "
                 "one (I_xy = -∫xy dm)"}
     assert d["diagnosis"]["explanation"]["passed"] is True
+
+
+def test_comparison_and_diagnosis_import_without_the_cad_kernel():
+    import subprocess
+    import sys
+
+    code = ("import sys, massmodel.estimate, massmodel.compare, massmodel.diagnose, massmodel.cli_compare; "
+            "print(sorted({m.split('.')[0] for m in sys.modules} & {'cadquery', 'OCP', 'trimesh', 'pyvista'}))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "[]"

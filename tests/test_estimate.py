@@ -303,3 +303,19 @@ def test_declared_conventions_are_kept_as_declared():
     assert "products positive (P_xy = +∫xy dm)" in conv.describe()
     # the items are kept as written
     assert est.items[0].inertia[0, 2] == -2.0 and est.items[0].cg.tolist() == [1.0, 2.0, 3.0]
+
+
+def test_the_examples_in_the_docs_read():
+    import re
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[1] / "docs" / "compare.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"^```(\w*)\n(.*?)^```$", text, flags=re.S | re.M)
+    json_block = next(b for kind, b in blocks if kind == "json")
+    csv_block = next(b for kind, b in blocks if b.startswith("#: format"))
+    est = loads_estimate(json_block, "compare.md (JSON)")
+    assert est.groups == ["*", "power"] and est.conventions.axes.text == "x=-x, y=-y, z=+z"
+    est = loads_estimate(csv_block, "compare.md (CSV)", "csv")
+    assert est.conventions.reference is ReferenceKind.POINT and est.conventions.inertia_unit == "lb*in^2"
+    (mp,) = normalise(est)
+    assert mp.mass == pytest.approx(958.4 * LB, rel=1e-15)
