@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import re
 from pathlib import Path
 from typing import Any
 
@@ -56,6 +57,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--json", type=Path, metavar="FILE", help="also write the comparison and diagnosis (SI)")
     p.add_argument("--units", choices=["si", "mm"], default="si",
                    help="terminal inertia units: si (kg*m^2) or mm (kg*mm^2); CG offsets are always in mm")
+    p.add_argument("--details", action="store_true",
+                   help="show every item's tensor terms and principal axes (default: the first item's)")
     p.add_argument("--no-pairs", action="store_true", help="try single reinterpretations only")
     p.set_defaults(run=_run)
 
@@ -98,25 +101,24 @@ def _density(option: str, text: str, materials: Any) -> float:
 
 
 def _point(option: str, text: str) -> np.ndarray:
+    """'0, 0, -265 mm' (one unit for all), '0 mm, 0 mm, -0.265 m' or '(0, 0, -265) mm' → (3,) m."""
     from .expr import evaluate
-    from .units import LENGTH
+    from .units import DIMENSIONLESS, LENGTH
 
-    parts = [p.strip() for p in text.strip().strip("()[]").split(",")]
-    if len(parts) != 3:
-        raise ValueError(f"{option}: expected 'x, y, z unit' such as '0, 0, -265 mm', got {text!r}")
-    last = parts[2].split()
-    unit = " ".join(last[1:]) if len(last) > 1 else ""
-    values = []
-    for k, part in enumerate(parts):
-        expr = last[0] if k == 2 and unit else part
-        try:
-            q = evaluate(f"({expr}) * 1 {unit}" if unit else expr)
-        except ValueError as exc:
-            raise ValueError(f"{option}: {exc}") from None
-        if q.dim != LENGTH:
-            raise ValueError(f"{option}: coordinates need a length unit, e.g. '0, 0, -265 mm'; got {text!r}")
-        values.append(q.value)
-    return np.array(values)
+    parts = [p.strip() for p in re.sub(r"[\[\]()]", " ", text).split(",")]
+    usage = f"{option}: expected 'x, y, z unit' such as '0, 0, -265 mm', got {text!r}"
+    if len(parts) != 3 or not all(parts):
+        raise ValueError(usage)
+    try:
+        qs = [evaluate(p) for p in parts]
+        if qs[2].dim == LENGTH and all(q.dim == DIMENSIONLESS for q in qs[:2]):
+            unit = parts[2].split(maxsplit=1)[1] if len(parts[2].split(maxsplit=1)) == 2 else ""
+            qs = [evaluate(f"{p} {unit}") for p in parts[:2]] + [qs[2]]
+    except ValueError as exc:
+        raise ValueError(f"{option}: {exc}") from None
+    if not all(q.dim == LENGTH for q in qs):
+        raise ValueError(usage)
+    return np.array([q.value for q in qs])
 
 
 def _pairs(option: str, texts: list[str]) -> dict[str, str]:
@@ -180,7 +182,7 @@ def _run(args: argparse.Namespace) -> int:
     model = load_from_args(args)
     estimate = _load_estimate(args, model)
     result = check_estimate(model, estimate, args.group, tol, pairs=not args.no_pairs)
-    print(format_check(result, inertia_mm=args.units == "mm"))
+    print(format_check(result, inertia_mm=args.units == "mm", details=args.details))
     if args.json:
         write_json_atomic(result.to_dict(), args.json)
         print(f"\ncomparison written to {args.json}")
@@ -257,8 +259,8 @@ def _side_by_side(raw: Any, corrected: Any) -> list[str]:
                   "llrllrl")]
 
 
-def format_check(result: Any, inertia_mm: bool = False) -> str:
-    """Readable text of an :class:`massmodel.compare.EstimateCheck`."""
+def format_check(result: Any, inertia_mm: bool = False, details: bool = False) -> str:
+    """Readable text of an :class:`massmodel.compare.EstimateCheck` (every item in detail with ``details``)."""
     from .report import table
 
     est = result.estimate
@@ -285,8 +287,9 @@ def format_check(result: Any, inertia_mm: bool = False) -> str:
     out.append("AS DECLARED" + ("" if len(result.as_declared.items) == 1 else " (the whole first, then worst first)"))
     out.append(table(_SUMMARY_HEAD, _summary_rows(result.as_declared), "lrrrrrrrrrl"))
     out.append("ratio: the worst of the five checks as difference / tolerance (<= 1 passes)")
-    out.append("")
-    out.extend(_detail(result.as_declared.items[0], inertia_mm))
+    for it in result.as_declared.items if details else result.as_declared.items[:1]:
+        out.append("")
+        out.extend(_detail(it, inertia_mm))
     diag = result.diagnosis
     if diag is not None:
         out.append("")
@@ -326,4 +329,7 @@ def format_check(result: Any, inertia_mm: bool = False) -> str:
     out.append("")
     out.append("RESULT: pass - the estimate agrees within the tolerances" if result.passed else
                "RESULT: FAIL - the estimate as declared does not agree within the tolerances (exit 1)")
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {line}" for line in result.cautions)
     return "\n".join(out)

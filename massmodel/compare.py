@@ -397,6 +397,14 @@ class EstimateCheck:
     def passed(self) -> bool:
         return self.as_declared.passed
 
+    @property
+    def cautions(self) -> list[str]:
+        """The general caution, and the ballast one when the compared parts include ballast in a slot."""
+        from . import cautions
+
+        ballast = any(c.slot for c in self.model.select([self.selection]))
+        return cautions.for_report("ballast") if ballast else cautions.for_report()
+
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready (SI, units in the keys)."""
         est = self.estimate
@@ -413,6 +421,7 @@ class EstimateCheck:
             "passed": self.passed,
             "as_declared": self.as_declared.to_dict(),
             "diagnosis": None if self.diagnosis is None else self.diagnosis.to_dict(),
+            "cautions": self.cautions,
         }
 
 

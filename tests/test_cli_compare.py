@@ -107,3 +107,32 @@ def test_demo_estimate_fails_as_declared_and_the_diagnosis_names_the_deliberate_
     assert [r["kind"] for r in exp["reinterpretations"]] == ["products"] and not d["ambiguous"]
     # The invented CAD-vs-model differences stay within tolerance once the mix-up is undone (not round-off).
     assert exp["passed"] is True and exp["roundoff"] is False and exp["score"] < 1.0
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [("0, 0, -265 mm", [0.0, 0.0, -0.265]), ("0 mm, 10 mm, -0.265 m", [0.0, 0.01, -0.265]),
+     ("(1, 2, 3) in", [0.0254, 0.0508, 0.0762])],  # 1 in = 0.0254 m exactly
+)
+def test_step_origin_option(text, expected):
+    from massmodel.cli_compare import _point
+
+    assert _point("--step-origin", text).tolist() == pytest.approx(expected, rel=1e-15, abs=0.0)
+
+
+@pytest.mark.parametrize("text", ["0, 0, -265", "0, 0", "0, 0, -265 kg"])
+def test_step_origin_needs_three_lengths(text):
+    from massmodel.cli_compare import _point
+
+    with pytest.raises(ValueError, match="--step-origin: expected 'x, y, z unit'"):
+        _point("--step-origin", text)
+
+
+def test_details_show_every_item_and_cautions_follow(files, capsys):
+    tmp, model, props = files
+    est = write_estimate(tmp / "e.json", props, BASE_SPEC)
+    assert main(["crossweigh", str(model), str(est), "--details"]) == 0
+    out = capsys.readouterr().out
+    for group in ("*", "a", "b"):
+        assert f"item '{group}' in detail: tensor about its CG (kg*m^2, model axes, tensor convention)" in out
+    assert out.rstrip().splitlines()[-2] == "CAUTIONS" and "licensed engineering practice" in out
