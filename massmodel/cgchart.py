@@ -105,16 +105,19 @@ def _hull(points: FloatArray) -> FloatArray:
     if len(pts) < 3:
         return pts
 
-    def half(seq: FloatArray) -> list[FloatArray]:
-        out: list[FloatArray] = []
+    def half(seq: list[tuple[float, float]]) -> list[tuple[float, float]]:
+        out: list[tuple[float, float]] = []
         for p in seq:
-            while len(out) >= 2 and np.cross(out[-1] - out[-2], p - out[-2]) <= 0:
+            while len(out) >= 2 and (
+                (out[-1][0] - out[-2][0]) * (p[1] - out[-2][1]) - (out[-1][1] - out[-2][1]) * (p[0] - out[-2][0]) <= 0
+            ):
                 out.pop()
             out.append(p)
         return out
 
-    lower = half(pts)
-    upper = half(pts[::-1])
+    seq = [(float(x), float(y)) for x, y in pts]
+    lower = half(seq)
+    upper = half(seq[::-1])
     return np.array(lower[:-1] + upper[:-1])
 
 
