@@ -1,4 +1,4 @@
-"""Pictures of a mass model through VTK (pyvista): off-screen on the CPU, or in an interactive window.
+"""Pictures of a mass model through VTK: off-screen on the CPU, or in an interactive window (pyvista).
 
 Every view uses a parallel (orthographic) projection, as an engineering drawing does, so lengths parallel to the
 sheet keep one scale (pixels per metre) and the side, top and front views line up on the sheet. A view is a
@@ -36,7 +36,6 @@ from .scene import (
     INK,
     SLOT_COLOUR,
     Scene,
-    hex_to_rgb,
     hidden_by,
 )
 
@@ -71,6 +70,7 @@ _VIEW_DIRECTIONS = {
 }
 TRIAD_COLOURS = ("#8e3b46", "#4b7f52", "#35508a")  # forward, left, up
 TRANSLUCENT_OPACITY = 0.26
+PANEL_BACKGROUND = "#fbf9f4"
 CG_MARKER_PX = 9.0  # radius of the total CG marker on screen, px
 GROUP_MARKER_PX = 6.5
 
@@ -177,63 +177,34 @@ def view_camera(
 
 def renderer_problem() -> str | None:
     """Why no off-screen renderer can start here (None when one can)."""
-    os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
     try:
-        import pyvista as pv
-    except ImportError as exc:  # pragma: no cover - pyvista is a dependency
-        return f"pyvista cannot be imported: {exc}"
+        from . import vtkbits as vb
+    except ImportError as exc:  # pragma: no cover - VTK comes with pyvista, a dependency
+        return f"VTK cannot be imported: {exc}"
     try:
-        pl = pv.Plotter(off_screen=True, window_size=(16, 16))
-        pl.add_mesh(pv.Sphere())
-        pl.render()
-        img = pl.screenshot(return_img=True)
-        pl.close()
+        win, ren = vb.offscreen_window(16, 16, "#ffffff", samples=0)
+        ren.AddActor(vb.actor(vb.sphere(np.zeros(3), 1.0), "#000000"))
+        img = vb.grab(win)
+        win.Finalize()
     except Exception as exc:  # VTK raises many kinds when no OpenGL context exists
         return f"VTK could not open an off-screen OpenGL context: {exc}"
-    if img is None or img.shape[:2] != (16, 16):
+    if img.shape[:2] != (16, 16):
         return "VTK returned no image from an off-screen render"
     return None
 
 
-def _faces_flat(faces: npt.NDArray[np.int64]) -> npt.NDArray[np.int64]:
-    return np.hstack([np.full((len(faces), 1), 3, np.int64), faces]).ravel()
+Prop = tuple[int, Any]  # (layer, vtkActor)
 
 
-def _poly(scene: Scene, mask: npt.NDArray[np.bool_]) -> Any:
-    import pyvista as pv
+def _static_props(scene: Scene) -> list[Prop]:
+    """Layer-0 actors that do not change between views: ground, axle lines, contact points, triad."""
+    from . import vtkbits as vb
 
-    faces = scene.faces[mask]
-    poly = pv.PolyData(scene.vertices, _faces_flat(faces) if len(faces) else None)
-    if len(faces):
-        poly.cell_data["rgb"] = scene.part_colours[scene.owner[mask]]
-    return poly
-
-
-def _lines(segments: FloatArray) -> Any:
-    """PolyData of line segments (K, 2, 3)."""
-    import pyvista as pv
-
-    seg = np.asarray(segments, float).reshape(-1, 2, 3)
-    pts = seg.reshape(-1, 3)
-    n = len(seg)
-    cells = np.hstack([np.full((n, 1), 2), np.arange(2 * n).reshape(n, 2)]).ravel()
-    return pv.PolyData(pts, lines=cells) if n else pv.PolyData()
-
-
-def _rgb(colour: str) -> tuple[float, float, float]:
-    r, g, b = hex_to_rgb(colour)
-    return r / 255.0, g / 255.0, b / 255.0
-
-
-def _static_props(scene: Scene) -> list[tuple[Any, dict[str, Any]]]:
-    """Meshes of layer 0 that do not change between views: ground, axle lines, contact points, triad."""
-    import pyvista as pv
-
-    out: list[tuple[Any, dict[str, Any]]] = []
+    out: list[Prop] = []
     f, lft, up = scene.forward, scene.left, scene.up
     rect = scene.ground_rectangle()
-    if rect is not None:
-        out.append((pv.PolyData(rect, np.array([4, 0, 1, 2, 3])), {"color": "#e9e3d3", "lighting": False}))
+    if rect is not None and scene.ground is not None:
+        out.append((0, vb.actor(vb.polygon(rect), "#e9e3d3", lighting=False)))
         lift = 0.001 * up
         grid = []
         f0, f1 = (rect @ f).min(), (rect @ f).max()
@@ -243,10 +214,10 @@ def _static_props(scene: Scene) -> list[tuple[Any, dict[str, Any]]]:
             grid.append([s * f + l0 * lft + g * up + lift, s * f + l1 * lft + g * up + lift])
         for s in np.arange(np.ceil(l0 / 0.5) * 0.5, l1, 0.5):
             grid.append([f0 * f + s * lft + g * up + lift, f1 * f + s * lft + g * up + lift])
-        out.append((_lines(np.array(grid)), {"color": "#d3c9b2", "line_width": 1, "lighting": False}))
+        out.append((0, vb.actor(vb.lines(np.array(grid)), "#d3c9b2", lighting=False)))
         edge = np.array([[rect[k] + lift, rect[(k + 1) % 4] + lift] for k in range(4)])
-        out.append((_lines(edge), {"color": "#a89d85", "line_width": 1.5, "lighting": False}))
-    if scene.contact_points is not None and scene.axle_stations is not None:
+        out.append((0, vb.actor(vb.lines(edge), "#a89d85", line_width=1.5, lighting=False)))
+    if scene.contact_points is not None:
         cp = scene.contact_points
         axles = []
         for a, b in ((cp[0], cp[1]), (cp[2], cp[3])):
@@ -255,21 +226,18 @@ def _static_props(scene: Scene) -> list[tuple[Any, dict[str, Any]]]:
         top = scene.extent()[1][2]
         for p in (cp[0], cp[2]):
             base = p - (p @ lft) * lft
-            axles.append([base, base + (top - scene.ground if scene.ground is not None else 0.5) * up])
-        out.append((_lines(np.array(axles)), {"color": INK, "line_width": 1.5, "lighting": False}))
+            axles.append([base, base + (top - (scene.ground or 0.0)) * up])
+        out.append((0, vb.actor(vb.lines(np.array(axles)), INK, line_width=1.5, lighting=False)))
         for p in cp:
-            cone = pv.Cone(center=p + 0.03 * up, direction=-up, height=0.06, radius=0.035, resolution=24)
-            out.append((cone, {"color": INK, "lighting": False}))
-    # axis triad beside the rear-right corner of the drawing, on the ground
+            out.append((0, vb.actor(vb.cone(p + 0.03 * up, -up, 0.06, 0.035), INK, lighting=False)))
     origin, length = triad_origin(scene)
     for vec, colour in zip((f, lft, up), TRIAD_COLOURS, strict=True):
-        arrow = pv.Arrow(start=origin, direction=vec, scale=length, tip_length=0.25, tip_radius=0.06, shaft_radius=0.02)
-        out.append((arrow, {"color": colour, "ambient": 0.45, "diffuse": 0.6, "specular": 0.0}))
+        out.append((0, vb.actor(vb.arrow(origin, vec, length), colour, ambient=0.45, diffuse=0.6)))
     return out
 
 
 def triad_origin(scene: Scene) -> tuple[FloatArray, float]:
-    """Origin (3,) m and arrow length (m) of the drawn axis triad."""
+    """Origin (3,) m and arrow length (m) of the drawn axis triad: beside the rear-right corner, on the ground."""
     low, _ = scene.extent()
     return (low[0] - 0.15) * scene.forward + (low[1] - 0.15) * scene.left + low[2] * scene.up, 0.3
 
@@ -287,42 +255,46 @@ def principal_axis_factor(scene: Scene) -> float:
     return 0.125
 
 
-def _overlay_props(scene: Scene, cam: ViewCamera | None) -> list[tuple[Any, dict[str, Any]]]:
-    """Meshes of layer 1 (slots, ballast outlines, principal axes, group CGs) sized for ``cam``."""
-    import pyvista as pv
+def _view_props(scene: Scene, cam: ViewCamera | None) -> list[Prop]:
+    """Actors that change with the view: parts (opaque and see-through), outlines, layer-1 marks, the CG."""
+    from . import vtkbits as vb
 
-    out: list[tuple[Any, dict[str, Any]]] = []
+    out: list[Prop] = []
+    clear = _split_for_view(scene, cam) if cam is not None else _split_interactive(scene)
+    for mask, opacity in ((~clear, 1.0), (clear, TRANSLUCENT_OPACITY)):
+        if mask.any():
+            poly = vb.polydata(scene.vertices, scene.faces[mask], scene.part_colours[scene.owner[mask]])
+            out.append((0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62)))
+    e_clear = np.isin(scene.edge_owner, np.unique(scene.owner[clear]))
+    if (~e_clear).any():
+        out.append((0, vb.actor(vb.lines(scene.edges[~e_clear]), INK, lighting=False)))
+    if e_clear.any():
+        out.append((0, vb.actor(vb.lines(scene.edges[e_clear]), "#9aa1a6", opacity=0.6, lighting=False)))
     px = 1.0 / cam.scale if cam is not None else 0.004
     for _name, edges in scene.slot_edges:
-        out.append((_lines(edges), {"color": SLOT_COLOUR, "line_width": 2.0, "lighting": False}))
+        out.append((1, vb.actor(vb.lines(edges), SLOT_COLOUR, line_width=2.0, lighting=False)))
     if scene.ballast:
         mask = np.isin(scene.edge_owner, scene.ballast)
         if mask.any():
-            out.append((_lines(scene.edges[mask]), {"color": BALLAST_COLOUR, "line_width": 3.0, "lighting": False}))
+            out.append((1, vb.actor(vb.lines(scene.edges[mask]), BALLAST_COLOUR, line_width=3.0, lighting=False)))
     if scene.options.principal_axes and scene.mass > 0:
         f = principal_axis_factor(scene)
         seg = [[scene.cg - f * r * a, scene.cg + f * r * a] for a, r in zip(scene.axes, scene.radii, strict=True)]
-        out.append((_lines(np.array(seg)), {"color": INK, "line_width": 2.0, "lighting": False}))
+        out.append((1, vb.actor(vb.lines(np.array(seg)), INK, line_width=2.0, lighting=False)))
         for a, r in zip(scene.axes, scene.radii, strict=True):
-            for s in (-1.0, 1.0):
-                tick = pv.Sphere(radius=2.5 * px, center=scene.cg + s * f * r * a, theta_resolution=10, phi_resolution=8)
-                out.append((tick, {"color": INK, "lighting": False}))
+            for sign in (-1.0, 1.0):
+                tick = vb.sphere(scene.cg + sign * f * r * a, 2.5 * px, resolution=10)
+                out.append((1, vb.actor(tick, INK, lighting=False)))
     for g in scene.group_markers:
-        octa = pv.PlatonicSolid("octahedron", radius=GROUP_MARKER_PX * px, center=g.center)
-        out.append((octa, {"color": g.colour, "show_edges": True, "edge_color": INK, "line_width": 1.2,
-                           "ambient": 0.5, "diffuse": 0.6, "specular": 0.0}))
+        octa = vb.octahedron(g.center, GROUP_MARKER_PX * px)
+        out.append((1, vb.actor(octa, g.colour, edges=INK, line_width=1.2, ambient=0.5, diffuse=0.6)))
+    r = CG_MARKER_PX * px if cam is not None else 0.02
+    out.append((2, vb.actor(vb.sphere(scene.cg, r, resolution=28), CG_COLOUR, lighting=False)))
     return out
 
 
-def _cg_marker(scene: Scene, cam: ViewCamera | None) -> Any:
-    import pyvista as pv
-
-    r = CG_MARKER_PX / cam.scale if cam is not None else 0.02
-    return pv.Sphere(radius=r, center=scene.cg, theta_resolution=28, phi_resolution=20)
-
-
-def _targets(scene: Scene, cam: ViewCamera) -> tuple[list[FloatArray], list[int]]:
-    """Sample points that must stay visible in this view: the CG marker disc and every ballast block."""
+def _targets(scene: Scene, cam: ViewCamera) -> list[FloatArray]:
+    """Sample points that must stay visible in this view: the CG marker disc, then each ballast block."""
     r = CG_MARKER_PX / cam.scale
     ang = np.linspace(0.0, 2 * np.pi, 8, endpoint=False)
     disc = scene.cg + r * (np.cos(ang)[:, None] * cam.right + np.sin(ang)[:, None] * cam.up)
@@ -331,100 +303,55 @@ def _targets(scene: Scene, cam: ViewCamera) -> tuple[list[FloatArray], list[int]
         v = scene.vertices[np.unique(scene.faces[scene.owner == i])]
         c = 0.5 * (v.min(axis=0) + v.max(axis=0))
         targets.append(np.vstack([c, c + 0.6 * (v[:: max(1, len(v) // 12)] - c)]))
-    return targets, scene.ballast
+    return targets
 
 
-def _split_for_view(scene: Scene, cam: ViewCamera | None) -> npt.NDArray[np.bool_]:
-    """Face mask of the parts drawn semi-transparent in this view (they hide the CG or a ballast block)."""
-    if cam is None:
-        return np.zeros(len(scene.faces), bool)
-    targets, own = _targets(scene, cam)
-    hidden = hidden_by(scene, cam.toward, targets[:1]) | hidden_by(scene, cam.toward, targets[1:], skip=own)
+def _split_for_view(scene: Scene, cam: ViewCamera) -> npt.NDArray[np.bool_]:
+    """Face mask of the parts drawn see-through in this view (they hide the CG or a ballast block)."""
+    targets = _targets(scene, cam)
+    hidden = hidden_by(scene, cam.toward, targets[:1])
+    if len(targets) > 1:
+        hidden |= hidden_by(scene, cam.toward, targets[1:], skip=scene.ballast)
     hidden -= set(scene.ballast)
     return np.isin(scene.owner, sorted(hidden))
 
 
-class _Stage:
-    """One pyvista plotter with the three layers; re-aimed and re-filled for every view."""
+def _split_interactive(scene: Scene) -> npt.NDArray[np.bool_]:
+    """For the interactive window: parts hiding the CG from the isometric direction are see-through."""
+    return _split_for_view(scene, view_camera(scene, "iso", 1200, 800))
 
-    def __init__(self, scene: Scene, off_screen: bool, size: tuple[int, int]) -> None:
-        os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
-        import pyvista as pv
-        from vtkmodules.vtkRenderingCore import vtkLight, vtkRenderer
+
+class _Stage:
+    """A render window with three layers, re-filled and re-aimed for every view.
+
+    Off-screen it is a bare VTK window (fast to start); for the interactive window it borrows a pyvista
+    plotter's window and renderer.
+    """
+
+    def __init__(self, scene: Scene, size: tuple[int, int], plotter: Any = None) -> None:
+        from . import vtkbits as vb
 
         self.scene = scene
-        self.pl = pv.Plotter(off_screen=off_screen, window_size=size, lighting="three lights")
-        # two MSAA samples: smooth enough lines at a fraction of the cost of eight on a software renderer
-        self.pl.ren_win.SetMultiSamples(2)
-        self.pl.set_background("#fbf9f4")
-        self.pl.camera_set = True  # the cameras are set here; keep pyvista from resetting them on first render
-        self.pl.renderer.SetUseDepthPeeling(False)
-        self.layers = [self.pl.renderer]
-        self.pl.ren_win.SetNumberOfLayers(3)
-        for k in (1, 2):
-            ren = vtkRenderer()
-            ren.SetLayer(k)
-            ren.InteractiveOff()
-            ren.SetActiveCamera(self.pl.renderer.GetActiveCamera())
-            light = vtkLight()
-            light.SetLightTypeToHeadlight()
-            ren.AddLight(light)
-            self.pl.ren_win.AddRenderer(ren)
-            self.layers.append(ren)
-        for mesh, kw in _static_props(scene):
-            self.pl.add_mesh(mesh, render=False, **kw)
-        self._view_actors: list[tuple[Any, Any]] = []
-
-    def _add(self, layer: int, mesh: Any, **kw: Any) -> None:
-        import pyvista as pv
-
-        if mesh.n_points == 0:
-            return
-        if layer == 0:
-            actor = self.pl.add_mesh(mesh, render=False, **kw)
-            self._view_actors.append((self.layers[0], actor))
-            return
-        mapper = pv.DataSetMapper(mesh)
-        actor = pv.Actor(mapper=mapper)
-        prop = actor.prop
-        prop.color = kw.get("color", INK)
-        prop.line_width = kw.get("line_width", 1.0)
-        if kw.get("lighting", True) is False:
-            prop.lighting = False
+        if plotter is None:
+            self.window, base = vb.offscreen_window(size[0], size[1], PANEL_BACKGROUND)
         else:
-            prop.ambient = kw.get("ambient", 0.3)
-            prop.diffuse = kw.get("diffuse", 0.7)
-            prop.specular = kw.get("specular", 0.0)
-        if kw.get("show_edges"):
-            prop.show_edges = True
-            prop.edge_color = kw.get("edge_color", INK)
-        mapper.scalar_visibility = False
-        self.layers[layer].AddActor(actor)
-        self._view_actors.append((self.layers[layer], actor))
+            self.window, base = plotter.ren_win, plotter.renderer
+        self.layers = [base, vb.layer_renderer(self.window, base, 1), vb.layer_renderer(self.window, base, 2)]
+        for layer, act in _static_props(scene):
+            self.layers[layer].AddActor(act)
+        self._view_actors: list[Prop] = []
 
     def fill(self, cam: ViewCamera | None) -> None:
-        """Put the view-dependent actors in for camera ``cam`` (None: the interactive view)."""
-        for ren, actor in self._view_actors:
-            ren.RemoveActor(actor)
-        self._view_actors.clear()
-        scene = self.scene
-        clear = _split_for_view(scene, cam) if cam is not None else _split_interactive(scene)
-        part_kw = {"scalars": "rgb", "rgb": True, "ambient": 0.38, "diffuse": 0.62, "specular": 0.0}
-        self._add(0, _poly(scene, ~clear), **part_kw)
-        if clear.any():
-            self._add(0, _poly(scene, clear), opacity=TRANSLUCENT_OPACITY, **part_kw)
-        clear_parts = np.unique(scene.owner[clear])
-        e_clear = np.isin(scene.edge_owner, clear_parts)
-        self._add(0, _lines(scene.edges[~e_clear]), color=INK, line_width=1.0, lighting=False)
-        if e_clear.any():
-            self._add(0, _lines(scene.edges[e_clear]), color="#9aa1a6", line_width=1.0, lighting=False, opacity=0.6)
-        for mesh, kw in _overlay_props(scene, cam):
-            self._add(1, mesh, **kw)
-        self._add(2, _cg_marker(scene, cam), color=CG_COLOUR, lighting=False)
+        """Put in the view-dependent actors for camera ``cam`` (None: the interactive view)."""
+        for layer, act in self._view_actors:
+            self.layers[layer].RemoveActor(act)
+        self._view_actors = _view_props(self.scene, cam)
+        for layer, act in self._view_actors:
+            self.layers[layer].AddActor(act)
 
     def aim(self, cam: ViewCamera) -> None:
-        self.pl.ren_win.SetSize(cam.width, cam.height)
-        c = self.pl.renderer.GetActiveCamera()
+        self.window.SetSize(cam.width, cam.height)
+        c = self.layers[0].GetActiveCamera()
         c.ParallelProjectionOn()
         c.SetFocalPoint(*cam.focal)
         c.SetPosition(*(cam.focal + 50.0 * cam.toward))
@@ -433,23 +360,22 @@ class _Stage:
         c.SetClippingRange(1.0, 100.0)
 
     def snap(self) -> npt.NDArray[np.uint8]:
-        self.pl.render()
-        img = self.pl.screenshot(return_img=True)
-        return np.asarray(img)[:, :, :3].copy()
+        from . import vtkbits as vb
+
+        return vb.grab(self.window)
+
+    def composite_matrix(self, cam: ViewCamera) -> FloatArray:
+        m = self.layers[0].GetActiveCamera().GetCompositeProjectionTransformMatrix(cam.width / cam.height, -1.0, 1.0)
+        return np.array([[m.GetElement(i, j) for j in range(4)] for i in range(4)])
 
     def close(self) -> None:
-        self.pl.close()
-
-
-def _split_interactive(scene: Scene) -> npt.NDArray[np.bool_]:
-    """For the interactive window: parts hiding the CG from the isometric direction are see-through."""
-    cam = view_camera(scene, "iso", 1200, 800)
-    return _split_for_view(scene, cam)
+        self.window.Finalize()
 
 
 @dataclass(frozen=True, slots=True)
 class RenderedView:
-    """One rendered view: its camera, the RGB image (H, W, 3) uint8 and VTK's composite projection matrix."""
+    """One rendered view: its camera, the RGB image (H, W, 3) uint8 and VTK's composite projection matrix
+    (model coordinates → normalised device coordinates) of the camera it was drawn with."""
 
     camera: ViewCamera
     image: npt.NDArray[np.uint8]
@@ -462,7 +388,7 @@ def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedVi
     if not cameras:
         return []
     first = cameras[0]
-    stage = _Stage(scene, off_screen=True, size=(first.width, first.height))
+    stage = _Stage(scene, (first.width, first.height))
     out = []
     try:
         for cam in cameras:
@@ -470,13 +396,10 @@ def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedVi
             stage.fill(cam)
             stage.aim(cam)
             img = stage.snap()
-            vcam = stage.pl.renderer.GetActiveCamera()
-            m = vcam.GetCompositeProjectionTransformMatrix(cam.width / cam.height, -1.0, 1.0)
-            matrix = np.array([[m.GetElement(i, j) for j in range(4)] for i in range(4)])
             if img.shape[:2] != (cam.height, cam.width):
                 raise OSError(f"the renderer returned a {img.shape[1]}x{img.shape[0]} image for a "
                               f"{cam.width}x{cam.height} view")
-            out.append(RenderedView(cam, img, matrix, time.perf_counter() - t0))
+            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0))
     finally:
         stage.close()
     return out
@@ -509,9 +432,12 @@ def show_interactive(
         )
     if not off_screen and os.environ.get("VTK_DEFAULT_OPENGL_WINDOW") == "vtkEGLRenderWindow":
         del os.environ["VTK_DEFAULT_OPENGL_WINDOW"]  # a window needs the platform's own OpenGL window class
-    stage = _Stage(scene, off_screen=off_screen, size=window_size)
+    import pyvista as pv
+
+    pl = pv.Plotter(off_screen=off_screen, window_size=window_size, lighting="light kit")
+    pl.set_background(PANEL_BACKGROUND)
+    stage = _Stage(scene, window_size, plotter=pl)
     stage.fill(None)
-    pl = stage.pl
     pl.add_text("\n".join(title_lines), position="upper_left", font_size=10, color=INK)
     entries = [[f"{e.label}" + (f"  {e.mass:.1f} kg" if e.mass is not None else ""), e.colour] for e in scene.legend]
     if entries:
