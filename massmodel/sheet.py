@@ -181,10 +181,10 @@ class _Placer:
         return all(x + w <= tx or tx + tw <= x or y + h <= ty or ty + th <= y for tx, ty, tw, th in self.taken)
 
     def measure(self, text: str, **kw: Any) -> tuple[float, float]:
-        """Estimated text box size, px: DejaVu Sans averages about 0.52 em a character (0.6 em bold), lines
+        """Estimated text box size, px: DejaVu Sans averages about 0.55 em a character (0.62 em bold), lines
         1.2 em apart (a slight overestimate keeps boxes apart; measuring each box exactly costs a text layout)."""
         size_px = float(kw.get("fontsize", 10.0)) / 0.72
-        em = 0.6 if kw.get("weight") == "bold" else 0.52
+        em = 0.62 if kw.get("weight") == "bold" else 0.55
         rows = text.split("\n")
         return em * size_px * max(len(r) for r in rows), 1.2 * size_px * len(rows)
 
@@ -213,7 +213,7 @@ class _Placer:
                     style = box or {"fc": PANEL_BG, "ec": "none", "alpha": 0.86}
                     from matplotlib.patches import Rectangle
 
-                    self.ax.add_patch(Rectangle((x, y), tw, th, zorder=5, lw=style.get("lw", 0.8),
+                    self.ax.add_artist(Rectangle((x, y), tw, th, zorder=5, lw=style.get("lw", 0.8),
                                                 fc=style["fc"], ec=style["ec"], alpha=style.get("alpha", 1.0)))
                     if leader:
                         px = min(max(ax_, x), x + tw)
@@ -230,16 +230,36 @@ def _pt(px: float) -> float:
     return px * 0.72
 
 
-def write_png_atomic(fig: Any, path: Path, software: str = "massmodel render") -> None:
-    """Save a matplotlib figure as PNG through a temporary file in the same folder and a rename."""
+def write_png_atomic(fig: Any, path: Path, software: str = "massmodel render",
+                     under: list[tuple[npt.NDArray[np.uint8], int, int]] | None = None) -> None:
+    """Save a matplotlib figure as PNG through a temporary file in the same folder and a rename.
+
+    ``under`` lists RGB images (H, W, 3) with their top-left pixel (x, y) to lay under the drawing: the figure is
+    drawn with a transparent face, the images are pasted pixel for pixel into the paper, and the drawing is
+    blended over them (faster and more exact than resampling them through matplotlib).
+    """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from PIL import Image, PngImagePlugin
 
     canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    paper = fig.get_facecolor()
+    fig.patch.set_alpha(0.0)
+    canvas.draw()
+    rgba = np.asarray(canvas.buffer_rgba())
+    base = np.empty(rgba.shape[:2] + (3,), np.uint16)
+    base[:] = np.rint(np.array(paper[:3]) * 255.0).astype(np.uint16)
+    for img, x, y in under or []:
+        h, w = img.shape[:2]
+        base[y : y + h, x : x + w] = img[: base.shape[0] - y, : base.shape[1] - x]
+    alpha = rgba[:, :, 3:4].astype(np.uint16)
+    out = ((rgba[:, :, :3] * alpha + base * (255 - alpha) + 127) // 255).astype(np.uint8)
+    info = PngImagePlugin.PngInfo()
+    info.add_text("Software", software)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".png", dir=path.parent)
     os.close(fd)
     try:
-        canvas.print_png(tmp, metadata={"Software": software}, pil_kwargs={"compress_level": 2})
+        Image.fromarray(out).save(tmp, format="PNG", pnginfo=info, compress_level=2)
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -295,7 +315,6 @@ def _compose(scene: Scene, panels: list[Panel], rendered: list[RenderedView], si
     ax.set_ylim(h, 0)
     ax.axis("off")
     ax.patch.set_visible(False)
-    ax.set_zorder(1)  # over the rendered images (figure images draw first)
     renderer = canvas.get_renderer()
     placer = _Placer(fig, ax, renderer)
     font = {"family": "DejaVu Sans", "color": INK}
@@ -303,16 +322,17 @@ def _compose(scene: Scene, panels: list[Panel], rendered: list[RenderedView], si
 
     # sheet border: a heavy outer line and a thin inner one
     m = 14 * u
-    ax.add_patch(Rectangle((m - 6 * u, m - 6 * u), w - 2 * m + 12 * u, h - 2 * m + 12 * u, fill=False, ec=INK,
+    ax.add_artist(Rectangle((m - 6 * u, m - 6 * u), w - 2 * m + 12 * u, h - 2 * m + 12 * u, fill=False, ec=INK,
                            lw=2.2 * u + 0.6))
-    ax.add_patch(Rectangle((m, m), w - 2 * m, h - 2 * m, fill=False, ec=INK, lw=0.7))
+    ax.add_artist(Rectangle((m, m), w - 2 * m, h - 2 * m, fill=False, ec=INK, lw=0.7))
 
+    under: list[tuple[npt.NDArray[np.uint8], int, int]] = []
     for panel, rv in zip(panels, rendered, strict=True):
         fx, fy, fw, fh = panel.frame
         ix, iy, iw, ih = panel.image
-        fig.figimage(rv.image, xo=int(round(ix)), yo=int(round(h - iy - rv.image.shape[0])), origin="upper", zorder=0)
-        ax.add_patch(Rectangle((fx, fy), fw, fh, fill=False, ec=INK, lw=1.1, zorder=3))
-        ax.add_patch(Rectangle((fx, fy), fw, iy - fy, fc="#e3dccb", ec=INK, lw=1.1, zorder=3))
+        under.append((rv.image, int(round(ix)), int(round(iy))))
+        ax.add_artist(Rectangle((fx, fy), fw, fh, fill=False, ec=INK, lw=1.1, zorder=3))
+        ax.add_artist(Rectangle((fx, fy), fw, iy - fy, fc="#e3dccb", ec=INK, lw=1.1, zorder=3))
         ax.text(fx + 10 * u, fy + (iy - fy) / 2, VIEW_TITLES[panel.name], va="center", ha="left",
                 fontsize=_pt(15 * u), weight="bold", zorder=4, **font)
         placer.reserve((fx, fy, fw, iy - fy))
@@ -320,7 +340,7 @@ def _compose(scene: Scene, panels: list[Panel], rendered: list[RenderedView], si
 
     legend_rects = _info_strip(scene, ax, size, u, font, mono)
     rows = title_block_rows(scene)
-    write_png_atomic(fig, out)
+    write_png_atomic(fig, out, under=under)
     return SheetResult(
         path=out, size=size, panels=panels, views=rendered,
         legend=[(e.label, e.colour) for e in scene.legend], legend_rects=legend_rects, title_rows=rows,
@@ -347,7 +367,7 @@ def _scale_bar(panel: Panel, ax: Any, placer: _Placer, u: float, font: dict[str,
     y = iy + ih - 22 * u
     n = 5 if length in (0.5, 1.0, 0.05, 5.0, 10.0) else 4
     for k in range(n):
-        ax.add_patch(Rectangle((x0 + k * bar / n, y), bar / n, 6 * u, fc=INK if k % 2 == 0 else PANEL_BG, ec=INK,
+        ax.add_artist(Rectangle((x0 + k * bar / n, y), bar / n, 6 * u, fc=INK if k % 2 == 0 else PANEL_BG, ec=INK,
                                lw=0.8, zorder=5))
     label = f"{length:g} m" + (" along an axis" if iso else "")
     ax.text(x1, y - 3 * u, label, ha="right", va="bottom", fontsize=_pt(12 * u), zorder=6, **font)
@@ -373,7 +393,7 @@ def _annotate_panel(
         gy = float(gp[:, 1].mean())
         gx0, gx1 = float(gp[:, 0].min()), float(gp[:, 0].max())
         band = 10 * u
-        ax.add_patch(Polygon([(gx0, gy), (gx1, gy), (gx1, gy + band), (gx0, gy + band)], closed=True,
+        ax.add_artist(Polygon([(gx0, gy), (gx1, gy), (gx1, gy + band), (gx0, gy + band)], closed=True,
                              fc="none", ec="#8c826c", hatch="////", lw=0, zorder=2))
         ax.plot([gx0, gx1], [gy, gy], color=INK, lw=1.6 * u + 0.4, zorder=3)
         placer.reserve((gx0, gy - 2, gx1 - gx0, band + 2))
@@ -386,7 +406,7 @@ def _annotate_panel(
     # CG: a ring around the rendered marker and the coordinates
     cg_px = _to_sheet(panel, scene.cg)[0]
     r = 9.0 + 4.0
-    ax.add_patch(Circle(tuple(cg_px), r, fill=False, ec=INK, lw=1.6, zorder=4))
+    ax.add_artist(Circle(tuple(cg_px), r, fill=False, ec=INK, lw=1.6, zorder=4))
     ax.plot([cg_px[0] - r - 6, cg_px[0] - r + 2], [cg_px[1]] * 2, color=INK, lw=1.4, zorder=4)
     ax.plot([cg_px[0] + r - 2, cg_px[0] + r + 6], [cg_px[1]] * 2, color=INK, lw=1.4, zorder=4)
     ax.plot([cg_px[0]] * 2, [cg_px[1] - r - 6, cg_px[1] - r + 2], color=INK, lw=1.4, zorder=4)
@@ -455,7 +475,7 @@ def _annotate_panel(
 def _header(ax: Any, x: float, y: float, width: float, text: str, u: float, font: dict[str, Any]) -> float:
     from matplotlib.patches import Rectangle
 
-    ax.add_patch(Rectangle((x, y), width, 28 * u, fc="#e3dccb", ec=INK, lw=1.1))
+    ax.add_artist(Rectangle((x, y), width, 28 * u, fc="#e3dccb", ec=INK, lw=1.1))
     ax.text(x + 10 * u, y + 14 * u, text, va="center", fontsize=_pt(15 * u), weight="bold", **font)
     return y + 36 * u
 
@@ -484,7 +504,7 @@ def _info_strip(scene: Scene, ax: Any, size: tuple[int, int], u: float, font: di
         cx = x0 + (k // rows_fit) * col_w
         cy = y + (k % rows_fit) * line
         sw = (cx + 8 * u, cy + 4 * u, 24 * u, line - 8 * u)
-        ax.add_patch(Rectangle(sw[:2], sw[2], sw[3], fc=e.colour, ec=INK, lw=0.7))
+        ax.add_artist(Rectangle(sw[:2], sw[2], sw[3], fc=e.colour, ec=INK, lw=0.7))
         rects.append((e.label, e.colour, sw))
         ax.text(cx + 40 * u, cy + line / 2, e.label, va="center", fontsize=fs if cols == 1 else fs * 0.85, **font)
         if e.mass is not None and cols == 1:
@@ -509,29 +529,29 @@ def _info_strip(scene: Scene, ax: Any, size: tuple[int, int], u: float, font: di
     for text, kind in keys:
         cx, cy = kx + 22 * u, y + line / 2
         if kind == "cg":
-            ax.add_patch(Circle((cx, cy), 6 * u, fc=CG_COLOUR, ec="none"))
-            ax.add_patch(Circle((cx, cy), 9 * u, fill=False, ec=INK, lw=1.3))
+            ax.add_artist(Circle((cx, cy), 6 * u, fc=CG_COLOUR, ec="none"))
+            ax.add_artist(Circle((cx, cy), 9 * u, fill=False, ec=INK, lw=1.3))
         elif kind == "group":
-            ax.add_patch(RegularPolygon((cx, cy), 4, radius=7 * u, fc="#8e9499", ec=INK, lw=0.9))
+            ax.add_artist(RegularPolygon((cx, cy), 4, radius=7 * u, fc="#8e9499", ec=INK, lw=0.9))
         elif kind == "ballast":
-            ax.add_patch(Rectangle((cx - 11 * u, cy - 6 * u), 22 * u, 12 * u, fill=False, ec=BALLAST_COLOUR, lw=2.4))
+            ax.add_artist(Rectangle((cx - 11 * u, cy - 6 * u), 22 * u, 12 * u, fill=False, ec=BALLAST_COLOUR, lw=2.4))
         elif kind == "slot":
-            ax.add_patch(Rectangle((cx - 12 * u, cy - 7 * u), 24 * u, 14 * u, fill=False, ec=SLOT_COLOUR, lw=1.6))
+            ax.add_artist(Rectangle((cx - 12 * u, cy - 7 * u), 24 * u, 14 * u, fill=False, ec=SLOT_COLOUR, lw=1.6))
         elif kind == "axes":
             ax.plot([cx - 13 * u, cx + 13 * u], [cy, cy], color=INK, lw=2)
             ax.plot([cx - 13 * u, cx + 13 * u], [cy, cy], "o", color=INK, ms=3)
         elif kind == "contact":
-            ax.add_patch(RegularPolygon((cx, cy - 2 * u), 3, radius=7 * u, orientation=np.pi, fc=INK, ec=INK))
+            ax.add_artist(RegularPolygon((cx, cy - 2 * u), 3, radius=7 * u, orientation=np.pi, fc=INK, ec=INK))
             ax.plot([cx - 14 * u, cx + 14 * u], [cy + 5 * u, cy + 5 * u], color=INK, lw=1.2)
         else:
-            ax.add_patch(Rectangle((cx - 11 * u, cy - 7 * u), 22 * u, 14 * u, fc="#b5523b", alpha=0.3, ec="#9aa1a6"))
+            ax.add_artist(Rectangle((cx - 11 * u, cy - 7 * u), 22 * u, 14 * u, fc="#b5523b", alpha=0.3, ec="#9aa1a6"))
         ax.text(kx + 44 * u, cy, text, va="center", fontsize=_pt(12 * u), linespacing=1.3, **font)
         y += line * (1.0 + 0.9 * text.count("\n"))
     # title block
     tx = kx + w_key + gap
     rows = title_block_rows(scene)
-    ax.add_patch(Rectangle((tx, top), w_title, strip, fc="#fbf9f4", ec=INK, lw=2.0))
-    ax.add_patch(Rectangle((tx, top), w_title, 28 * u, fc=INK, ec=INK, lw=1.0))
+    ax.add_artist(Rectangle((tx, top), w_title, strip, fc="#fbf9f4", ec=INK, lw=2.0))
+    ax.add_artist(Rectangle((tx, top), w_title, 28 * u, fc=INK, ec=INK, lw=1.0))
     ax.text(tx + 10 * u, top + 14 * u, "massmodel · mass-properties sheet", va="center", fontsize=_pt(14 * u),
             weight="bold", **{**font, "color": "#fbf9f4"})
     row_h = min(24 * u, (strip - 28 * u) * 0.62 / max(len(rows), 1))
