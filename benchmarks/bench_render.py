@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))  # this checkout's massmodel, also for the in-process comparison
 CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
 ENV = {**os.environ, "VTK_DEFAULT_OPENGL_WINDOW": "vtkEGLRenderWindow", "PYTHONPATH": str(ROOT)}
 

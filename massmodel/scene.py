@@ -58,10 +58,10 @@ BALLAST_COLOUR = "#d4007a"  # outline of parts that sit in a slot
 SLOT_COLOUR = "#00838f"  # slot wire envelopes
 # Twelve inks for groups, in order of the sorted group names (invented for massmodel).
 PALETTE = (
-    "#b5523b", "#3f7f6e", "#c99a2e", "#4d648d", "#8c5e8f", "#6b8f3a",
+    "#9b6a4f", "#3f7f6e", "#c99a2e", "#4d648d", "#8c5e8f", "#6b8f3a",
     "#c2703d", "#5b8fa8", "#9c4b62", "#7d7a4f", "#55557a", "#a68a64",
 )
-MATURITY_COLOURS = {"estimated": "#c8553d", "calculated": "#d9a13b", "measured": "#4f8a5b"}
+MATURITY_COLOURS = {"estimated": "#b86f8c", "calculated": "#d9a13b", "measured": "#4f8a5b"}
 NO_DENSITY_COLOUR = "#9a9a9a"
 # Density ramp, light and cool for foam to dark and warm for tungsten (log scale).
 DENSITY_RAMP = ("#dfe8d8", "#9cc3a0", "#5f9c8c", "#3b6f8a", "#49457a", "#7a2f5f", "#a3202f")

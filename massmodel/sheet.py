@@ -544,7 +544,7 @@ def _info_strip(scene: Scene, ax: Any, size: tuple[int, int], u: float, font: di
             ax.add_artist(RegularPolygon((cx, cy - 2 * u), 3, radius=7 * u, orientation=np.pi, fc=INK, ec=INK))
             ax.plot([cx - 14 * u, cx + 14 * u], [cy + 5 * u, cy + 5 * u], color=INK, lw=1.2)
         else:
-            ax.add_artist(Rectangle((cx - 11 * u, cy - 7 * u), 22 * u, 14 * u, fc="#b5523b", alpha=0.3, ec="#9aa1a6"))
+            ax.add_artist(Rectangle((cx - 11 * u, cy - 7 * u), 22 * u, 14 * u, fc="#9b6a4f", alpha=0.3, ec="#9aa1a6"))
         ax.text(kx + 44 * u, cy, text, va="center", fontsize=_pt(12 * u), linespacing=1.3, **font)
         y += line * (1.0 + 0.9 * text.count("\n"))
     # title block

@@ -139,11 +139,15 @@ def _view_axes(scene: Scene, name: str) -> tuple[FloatArray, FloatArray]:
 
 
 def _extent_corners(scene: Scene) -> FloatArray:
+    """Corners of everything drawn: the parts' box in vehicle directions, the ground and the axis triad, (K, 3) m."""
     low, high = scene.extent()
     rect = scene.ground_rectangle()
     corners = np.array([[a, b, c] for a in (low[0], high[0]) for b in (low[1], high[1]) for c in (low[2], high[2])])
-    pts = corners @ scene.basis
-    return np.vstack([pts, rect]) if rect is not None else pts
+    origin, length = triad_origin(scene)
+    pts = [corners @ scene.basis, origin + length * np.vstack([np.zeros(3), scene.basis])]
+    if rect is not None:
+        pts.append(rect)
+    return np.vstack(pts)
 
 
 def view_span(scene: Scene, name: str) -> tuple[float, float]:
@@ -237,9 +241,14 @@ def _static_props(scene: Scene) -> list[Prop]:
 
 
 def triad_origin(scene: Scene) -> tuple[FloatArray, float]:
-    """Origin (3,) m and arrow length (m) of the drawn axis triad: beside the rear-right corner, on the ground."""
-    low, _ = scene.extent()
-    return (low[0] - 0.15) * scene.forward + (low[1] - 0.15) * scene.left + low[2] * scene.up, 0.3
+    """Origin (3,) m and arrow length (m) of the drawn axis triad: beside the rear-right corner, on the ground.
+
+    The arrows are 12 % of the longest dimension of the drawing (0.3 m for a car), at most 0.4 m.
+    """
+    low, high = scene.extent()
+    length = float(min(max(0.12 * np.max(high - low), 1e-3), 0.4))
+    gap = 0.5 * length
+    return (low[0] - gap) * scene.forward + (low[1] - gap) * scene.left + low[2] * scene.up, length
 
 
 def principal_axis_factor(scene: Scene) -> float:
