@@ -232,7 +232,12 @@ def test_hidden_by_finds_the_part_in_front(small):
 def test_title_block_numbers_match_the_model(car):
     from massmodel.sheet import title_block_rows
 
+    from massmodel.report import build_report
+
     rows = dict(title_block_rows(build_scene(car)))
+    rep = build_report(car)
+    assert rows["CG height"] == f"{rep['cg_height_m']:.4f} m above ground"
+    assert rows["CG to front axle"] == f"{rep['cg_behind_front_axle_m']:.4f} m behind"
     masses = np.array([c.props.mass for c in car.components])
     centres = np.array([c.props.center for c in car.components])
     m = masses.sum()
