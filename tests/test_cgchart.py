@@ -1,0 +1,81 @@
+"""The CG chart: rule-derived station bands and height limit, and the PNG."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from massmodel import load_model, loads_model
+from massmodel.cgchart import height_limit, render_cg_chart, station_bands
+from massmodel.cli import main
+from massmodel.massprops import translate
+from massmodel.vehicle import static_balance
+
+ROOT = Path(__file__).resolve().parents[1]
+CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
+
+
+@pytest.fixture(scope="module")
+def car():
+    return load_model(CAR)
+
+
+def _balance_at_station(model, station):
+    """Static balance of the model's mass with its CG moved along forward to ``station`` (vehicle module)."""
+    total = model.mass_properties()
+    v = model.vehicle
+    moved = translate(total, (station - v.forward @ total.center) * v.forward)
+    return static_balance(moved, v)
+
+
+def test_axle_band_edges_give_exactly_the_minimum_loads(car):
+    # Independent path: vehicle.static_balance (Jazar 2008, §2.1, eqs. 2.1-2.2) evaluated at the band edges.
+    bands = {b.name: b for b in station_bands(car)}
+    axle = bands["axle-load minimums"]
+    front_min = next(r.limit for r in car.rules if r.check.value == "min_axle_load" and r.axle == "front")
+    rear_min = next(r.limit for r in car.rules if r.check.value == "min_axle_load" and r.axle == "rear")
+    assert _balance_at_station(car, axle.low).front == pytest.approx(front_min, rel=1e-12)
+    assert _balance_at_station(car, axle.high).rear == pytest.approx(rear_min, rel=1e-12)
+    # 180 kg and 245 kg of 434.70 kg over 2.62 m (demo rulebook): the band is -1.5351 .. -1.4766 m
+    assert (round(axle.low, 4), round(axle.high, 4)) == (-1.5351, -1.4766)
+
+
+def test_front_share_band_edges_give_the_share_limits(car):
+    share = next(b for b in station_bands(car) if b.name.startswith("front share"))
+    assert _balance_at_station(car, share.low).front_fraction == pytest.approx(0.428, rel=1e-12)
+    assert _balance_at_station(car, share.high).front_fraction == pytest.approx(0.460, rel=1e-12)
+    station = float(car.vehicle.forward @ car.mass_properties().center)
+    assert not share.contains(station)
+    assert share.shift_needed(station) == pytest.approx(share.low - station, rel=1e-12)
+    assert share.shift_needed(share.low) == 0.0
+
+
+def test_height_limit_and_no_bands_without_vehicle_rules(car):
+    assert height_limit(car) == pytest.approx(0.310, rel=1e-12)
+    bare = loads_model(
+        '[model]\nname = "b"\n[[part]]\npath = "a/b"\nshape = "box"\nsize = ["1 m", "1 m", "1 m"]\n'
+        'mass = "1 kg"\nmaturity = "measured"\ncolour = "#808080"\n', label="bare.toml")
+    assert station_bands(bare) == [] and height_limit(bare) is None
+    with pytest.raises(ValueError, match="has no \\[vehicle\\] section"):
+        render_cg_chart(bare, "unused.png")
+
+
+def test_chart_png_and_command(car, tmp_path, capsys):
+    out = tmp_path / "cg.png"
+    chart = render_cg_chart(car, out, size=(1200, 800))
+    from PIL import Image
+
+    with Image.open(out) as im:
+        assert im.size == (1200, 800)
+        pixels = np.asarray(im.convert("RGB"))
+    assert len(np.unique(pixels.reshape(-1, 3), axis=0)) > 200
+    report_station = car.vehicle.front_axle_station - static_balance(car.mass_properties(), car.vehicle).cg_behind_front_axle
+    assert chart.station == pytest.approx(report_station, rel=1e-12)
+    assert main(["cg-chart", str(CAR), "-o", str(tmp_path / "c2.png"), "--size", "900x600"]) == 0
+    text = capsys.readouterr().out
+    share = next(b for b in chart.bands if b.name.startswith("front share"))
+    need = (share.low - chart.station) * 1e3
+    assert f"CG outside: move the CG {need:.1f} mm forward" in text
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["c2.png", "cg.png"]
