@@ -38,8 +38,10 @@ def test_axle_band_edges_give_exactly_the_minimum_loads(car):
     rear_min = next(r.limit for r in car.rules if r.check.value == "min_axle_load" and r.axle == "rear")
     assert _balance_at_station(car, axle.low).front == pytest.approx(front_min, rel=1e-12)
     assert _balance_at_station(car, axle.high).rear == pytest.approx(rear_min, rel=1e-12)
-    # 180 kg and 245 kg of 434.70 kg over 2.62 m (demo rulebook): the band is -1.5351 .. -1.4766 m
-    assert (round(axle.low, 4), round(axle.high, 4)) == (-1.5351, -1.4766)
+    # Closed form of the same edges (moments about the axle lines): rear + L F_min/m and front - L R_min/m.
+    v, m = car.vehicle, car.mass_properties().mass
+    assert axle.low == pytest.approx(v.rear_axle_station + v.wheelbase * front_min / m, rel=1e-12)
+    assert axle.high == pytest.approx(v.front_axle_station - v.wheelbase * rear_min / m, rel=1e-12)
 
 
 def test_front_share_band_edges_give_the_share_limits(car):
