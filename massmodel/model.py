@@ -26,6 +26,7 @@ __all__ = [
     "Cutout",
     "Component",
     "Slot",
+    "AllowedContact",
     "RuleCheck",
     "Rule",
     "Vehicle",
@@ -245,6 +246,34 @@ class Slot:
     origin: str = ""
 
 
+@dataclass(frozen=True, slots=True)
+class AllowedContact:
+    """Parts meant to touch or overlap, which packaging checks do not report (e.g. a lumped display shape inside
+    another part, plates stacked on each other).
+
+    Parameters
+    ----------
+    first, second : str
+        Part or group paths; a pair of parts is covered when one lies in ``first`` and the other in ``second``
+        (both in the same group when ``first == second``).
+    note : str
+        Why the contact is intended.
+    origin : str
+        Where it was defined.
+    """
+
+    first: str
+    second: str
+    note: str = ""
+    origin: str = ""
+
+    def covers(self, a: str, b: str) -> bool:
+        """Whether the pair of part paths ``a``, ``b`` is covered (in either order)."""
+        return (in_group(a, self.first) and in_group(b, self.second)) or (
+            in_group(a, self.second) and in_group(b, self.first)
+        )
+
+
 class RuleCheck(enum.Enum):
     """Kinds of rule check."""
 
@@ -357,6 +386,8 @@ class Model:
         The file the model came from ('' when built in Python).
     description : str
         Free text.
+    allowed_contacts : tuple of AllowedContact
+        Pairs of parts meant to touch or overlap (left out of interference and clearance findings).
     """
 
     name: str
@@ -368,6 +399,7 @@ class Model:
     materials: Mapping[str, Any] = field(default_factory=dict)
     source: str = ""
     description: str = ""
+    allowed_contacts: tuple[AllowedContact, ...] = ()
     _index: Mapping[str, int] = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
@@ -448,4 +480,5 @@ class Model:
             materials=self.materials,
             source=self.source,
             description=self.description,
+            allowed_contacts=self.allowed_contacts,
         )
