@@ -175,9 +175,11 @@ class StepShape:
         return self._bounds
 
     def contains(self, points: np.ndarray, tol: float = 1e-9) -> np.ndarray:
-        """Closed-set membership by OpenCascade's solid classifier: (N,) bool for points (N, 3) in m, file frame;
-        points within ``tol`` (m) of the boundary count as inside."""
+        """Closed-set membership: (N,) bool for points (N, 3) in m, file frame. A point is inside when OpenCascade's
+        solid classifier says IN or ON, or when its distance to the solid (BRepExtrema) is at most ``tol`` (m)."""
+        from OCP.BRepBuilderAPI import BRepBuilderAPI_MakeVertex
         from OCP.BRepClass3d import BRepClass3d_SolidClassifier
+        from OCP.BRepExtrema import BRepExtrema_DistShapeShape
         from OCP.gp import gp_Pnt
         from OCP.TopAbs import TopAbs_IN, TopAbs_ON, TopAbs_SOLID
         from OCP.TopExp import TopExp_Explorer
@@ -188,17 +190,36 @@ class StepShape:
         while explorer.More():
             classifier = BRepClass3d_SolidClassifier(explorer.Current())
             for i in np.flatnonzero(~out):
-                classifier.Perform(gp_Pnt(*(float(c) for c in p[i])), max(tol * 1e3, 1e-7))
+                classifier.Perform(gp_Pnt(*(float(c) for c in p[i])), 1e-7)
                 out[i] = classifier.State() in (TopAbs_IN, TopAbs_ON)
             explorer.Next()
+        if tol > 0.0:
+            for i in np.flatnonzero(~out):
+                vertex = BRepBuilderAPI_MakeVertex(gp_Pnt(*(float(c) for c in p[i]))).Vertex()
+                dist = BRepExtrema_DistShapeShape(vertex, self._solid_mm.wrapped)
+                out[i] = bool(dist.IsDone() and dist.Value() <= tol * 1e3)
         return out
 
     def surface_points(self, n: int) -> np.ndarray:
-        """About ``n`` deterministic points on the surface (nodes of a fine triangulation), (M, 3) float, m."""
+        """About ``n`` deterministic points on the surface, (M, 3) float, m: nodes of a triangulation refined until
+        there are at least ``n`` (nodes lie on the exact surface), thinned evenly; fewer only for solids with so few
+        curved faces that the refinement cannot add nodes."""
+        import cadquery as cq
+        from OCP.BRepBuilderAPI import BRepBuilderAPI_Copy
+
+        from .cad import tessellate
+
         n = _check_count(n, self.kind)
         size_mm = float(np.max(self._bounds[1] - self._bounds[0])) * 1e3
-        mesh = self._mesh_mm(max(size_mm * 2e-3, 1e-3))
-        return _mesh_surface_points(mesh, n) * 1e-3
+        chord = max(size_mm * 2e-3, 1e-3)
+        for _ in range(5):  # refine until there are enough nodes (flat faces only have their outline's)
+            copy = cq.Shape.cast(BRepBuilderAPI_Copy(self._solid_mm.wrapped, True, False).Shape())
+            v, _faces = tessellate(copy, chord)
+            nodes = np.unique(np.round(v, 9), axis=0)
+            if len(nodes) >= n:
+                break
+            chord /= 4.0
+        return _spread(nodes, n) * 1e-3
 
     def to_solid(self) -> Any:
         """The solid(s) as a cadquery shape in MILLIMETRES (a compound when the file holds several solids)."""

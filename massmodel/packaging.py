@@ -322,7 +322,7 @@ class SlotFit:
         if self.fit.reason:
             return self.fit.reason
         if not self.passed and self.obstacle is not None:
-            how = "touches" if self.obstacle.distance <= 0.0 else "comes within"
+            how = "touches" if self.obstacle.distance < 1e-9 else "comes within"
             return (f"{how} '{self.obstacle.neighbour}' inside the slot (gap {self.obstacle.distance * 1e3:.3f} mm, "
                     f"required {self.fit.required_clearance * 1e3:.3f} mm)")
         return ""
@@ -432,6 +432,7 @@ def check_packaging(
     if not (sliver >= 0.0 and reach >= 0.0 and (gap is None or gap >= 0.0)):
         raise ValueError("sliver, reach and gap must not be negative")
     tick = progress or (lambda stage, done, total: None)
+    chosen = _near_selection(model, near)
     seconds: dict[str, float] = {}
     t0 = time.perf_counter()
     comps = [c for c in model.components if has_solid(c)]
@@ -488,7 +489,6 @@ def check_packaging(
     seconds["slots"] = time.perf_counter() - t2
 
     t3 = time.perf_counter()
-    chosen = _near_selection(model, near)
     clearances = []
     for k, c in enumerate(chosen):
         if gap is not None:
