@@ -29,7 +29,18 @@ from .massprops import (
     validate_inertia,
 )
 from .materials import Material, builtin_materials
-from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
+from .model import (
+    AllowedContact,
+    Component,
+    Cutout,
+    MassSource,
+    Maturity,
+    Model,
+    Rule,
+    RuleCheck,
+    Slot,
+    Vehicle,
+)
 from .modelfile import ModelFileError, load_model, loads_model
 from .report import build_report, format_report
 from .vehicle import Balance, RuleResult, check_rules, static_balance
@@ -37,6 +48,7 @@ from .vehicle import Balance, RuleResult, check_rules, static_balance
 __version__ = "0.1.0"
 
 __all__ = [
+    "AllowedContact",
     "Balance",
     "Component",
     "Cutout",

@@ -44,6 +44,7 @@ __all__ = [
     "overlap_volume",
     "distance_between",
     "check_packaging",
+    "placed_solids",
 ]
 
 SLIVER_MM3 = 1e-3  # volumes below 0.001 mm³ are round-off of the boolean, not material
@@ -427,7 +428,7 @@ def check_packaging(
     KeyError
         A ``near`` path matches no part.
     """
-    from .cad import component_local_solid, has_solid, pose_trsf, slot_solid, solid_bounds
+    from .cad import slot_solid, solid_bounds
 
     if not (sliver >= 0.0 and reach >= 0.0 and (gap is None or gap >= 0.0)):
         raise ValueError("sliver, reach and gap must not be negative")
@@ -435,18 +436,7 @@ def check_packaging(
     chosen = _near_selection(model, near)
     seconds: dict[str, float] = {}
     t0 = time.perf_counter()
-    comps = [c for c in model.components if has_solid(c)]
-    left_out = tuple((c.path, "point mass: no solid" if c.shape.kind == "point" else "open mesh: display only")
-                     for c in model.components if not has_solid(c))
-    solids: list[Any] = []
-    cache: dict[Any, Any] = {}
-    import cadquery as cq
-    from OCP.BRepBuilderAPI import BRepBuilderAPI_Transform
-
-    for k, c in enumerate(comps):
-        local, location = component_local_solid(c, cache)
-        solids.append(cq.Shape.cast(BRepBuilderAPI_Transform(local.wrapped, pose_trsf(location), True).Shape()))
-        tick("solids", k + 1, len(comps))
+    comps, solids, left_out = placed_solids(model, tick)
     boxes = np.array([solid_bounds(s) for s in solids]) if solids else np.zeros((0, 2, 3))
     seconds["solids"] = time.perf_counter() - t0
 
@@ -507,6 +497,38 @@ def check_packaging(
         clearances=tuple(clearances), left_out=left_out, solids=n, total_pairs=n * (n - 1) // 2,
         candidate_pairs=len(pairs), sliver=sliver, seconds=seconds,
     )
+
+
+def placed_solids(
+    model: Model, progress: ProgressFn | None = None
+) -> tuple[list[Component], list[Any], tuple[tuple[str, str], ...]]:
+    """The solids of every part that has one, placed in the model frame (mm).
+
+    Returns
+    -------
+    components : list of Component
+        Parts with a solid, in model order.
+    solids : list of cadquery Shape
+        Their solids, mm, placed by a location (the geometry is shared, not copied, between copies of a part).
+    left_out : tuple of (str, str)
+        Parts without a solid and why.
+    """
+    import cadquery as cq
+    from OCP.TopLoc import TopLoc_Location
+
+    from .cad import component_local_solid, has_solid, pose_trsf
+
+    comps = [c for c in model.components if has_solid(c)]
+    left_out = tuple((c.path, "point mass: no solid" if c.shape.kind == "point" else "open mesh: display only")
+                     for c in model.components if not has_solid(c))
+    solids: list[Any] = []
+    cache: dict[Any, Any] = {}
+    for k, c in enumerate(comps):
+        local, location = component_local_solid(c, cache)
+        solids.append(cq.Shape.cast(local.wrapped.Moved(TopLoc_Location(pose_trsf(location)))))
+        if progress is not None:
+            progress("solids", k + 1, len(comps))
+    return comps, solids, left_out
 
 
 def _obstacle(
