@@ -546,7 +546,7 @@ def _obstacle(
     hi = env_box[1] + clearance
     inside = np.flatnonzero(np.all(boxes[:, 0] < hi, axis=1) & np.all(boxes[:, 1] > lo, axis=1))
     best: NeighbourGap | None = None
-    for j in inside:
+    for j in inside.tolist():
         if j == i or _allowed_by(model, c.path, comps[j].path):
             continue
         d, pa, pb = distance_between(solids[i], solids[j])
@@ -588,7 +588,7 @@ def _clearance(
     hi = boxes[i, 1] + reach
     near = np.flatnonzero(np.all(boxes[:, 0] <= hi, axis=1) & np.all(boxes[:, 1] >= lo, axis=1))
     gaps = []
-    for j in near:
+    for j in near.tolist():
         if j == i or _allowed_by(model, c.path, comps[j].path):
             continue
         d, pa, pb = distance_between(solids[i], solids[j])

@@ -302,7 +302,10 @@ mass = "2 kg"
 maturity = "estimated"
 at = ["1 m", "0 m", "0 m"]
 """)
-    result = export_model(model, tmp_path, ExportOptions(formats=frozenset({Format.STEP})))
+    calls = []
+    result = export_model(model, tmp_path, ExportOptions(formats=frozenset({Format.STEP})),
+                          progress=lambda stage, done, total: calls.append((stage, done, total)))
+    assert calls == [("solids", 1, 1), ("STEP", 1, 1)]  # what drives the command's progress bar
     sc = result.sidecar
     assert result.exported == ("block",) and result.left_out == (("loom", "point mass: no solid"),)
     assert sc["left_out"] == [{"path": "loom", "reason": "point mass: no solid", "mass_kg": 2.0}]
