@@ -454,6 +454,8 @@ def _write_step(model: Model, parts: Sequence[_Part], path: Path, file_name: str
     header.SetDescriptionValue(1, TCollection_HAsciiString(
         f"massmodel export of '{model.name}': one solid per component, lengths in mm, model axes"))
     header.SetOriginatingSystem(TCollection_HAsciiString("massmodel"))
+    header.SetAuthorValue(1, TCollection_HAsciiString(""))
+    header.SetOrganizationValue(1, TCollection_HAsciiString(""))
     header.SetAuthorisation(TCollection_HAsciiString(""))
     header.Apply(step_model)
     with _native_output() as said:

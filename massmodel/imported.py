@@ -28,7 +28,7 @@ import math
 import os
 import re
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, ClassVar
@@ -44,6 +44,7 @@ __all__ = [
     "MESH_SUFFIXES",
     "STEP_SUFFIXES",
     "load_geometry",
+    "shape_from_fields",
     "load_step",
     "load_mesh",
 ]
@@ -581,3 +582,35 @@ def load_geometry(kind: str, path: Path, unit: str, metres_per_unit: float) -> S
             _cache.pop(next(iter(_cache)))
         _cache[key] = shape
     return shape
+
+
+def shape_from_fields(kind: str, fields: Mapping[str, Any], base_dir: Path) -> StepShape | MeshShape:
+    """The shape of a model-file table with ``shape = "step"`` or ``"mesh"``: its ``file`` (relative to
+    ``base_dir``, the model file's folder) and the declared length ``unit`` of the file.
+
+    Raises
+    ------
+    GeometryFileError
+        ``file`` or ``unit`` missing or malformed, or the file unusable (``field`` names which).
+    """
+    from . import units
+
+    what = "STEP file" if kind == "step" else "mesh file (STL, OBJ or GLB)"
+    file = fields.get("file")
+    if file is None:
+        raise GeometryFileError(f"is missing (the path of the {what}, relative to this model file)", "file", kind)
+    if not isinstance(file, str) or not file.strip():
+        raise GeometryFileError(f"expected the path of the {what}, got {file!r}", "file", kind)
+    text = fields.get("unit")
+    if text is None:
+        raise GeometryFileError("is missing: declare the length unit of the file's coordinates, e.g. unit = \"mm\"",
+                                "unit", kind)
+    try:
+        if not isinstance(text, str):
+            raise units.UnitError(f"expected a length unit such as \"mm\", got {text!r}")
+        size = units.parse_unit(text)
+        if size.dim != units.LENGTH:
+            raise units.UnitError(f"'{text}' is not a length unit")
+    except units.UnitError as exc:
+        raise GeometryFileError(str(exc), "unit", kind) from None
+    return load_geometry(kind, Path(base_dir) / file, text, float(size.value))

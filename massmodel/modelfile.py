@@ -232,28 +232,10 @@ class _Reader:
 
     def file_shape(self, kind: str, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
         """A STEP or mesh shape: ``file`` (relative to the model file's folder) and its declared length ``unit``."""
-        from .imported import load_geometry
+        from .imported import shape_from_fields
 
-        what = "STEP file" if kind == "step" else "mesh file (STL, OBJ or GLB)"
-        if "file" not in table:
-            raise self.error(item, prefix + "file", f"is missing (the path of the {what}, relative to this model file)")
-        file = table["file"]
-        if not isinstance(file, str) or not file.strip():
-            raise self.error(item, prefix + "file", f"expected the path of the {what}, got {file!r}")
-        if "unit" not in table:
-            raise self.error(item, prefix + "unit",
-                             "is missing: declare the length unit of the file's coordinates, e.g. unit = \"mm\"")
-        text = table["unit"]
         try:
-            if not isinstance(text, str):
-                raise units.UnitError(f"expected a length unit such as \"mm\", got {text!r}")
-            size = units.parse_unit(text)
-            if size.dim != units.LENGTH:
-                raise units.UnitError(f"'{text}' is not a length unit")
-        except units.UnitError as exc:
-            raise self.error(item, prefix + "unit", str(exc)) from None
-        try:
-            return load_geometry(kind, self.base_dir / file, text, float(size.value))
+            return shape_from_fields(kind, table, self.base_dir)
         except ShapeError as exc:
             raise self.error(item, prefix + (getattr(exc, "field", None) or "file"), str(exc)) from None
 

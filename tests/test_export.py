@@ -313,6 +313,9 @@ at = ["1 m", "0 m", "0 m"]
     assert sc["selection_total_with_left_out"]["mass_kg"] == 8.0
     assert_close(sc["selection_total_with_left_out"]["cg_m"], [0.25, 0.0, 0.0], 1e-15)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["with-a-point.massprops.json", "with-a-point.step"]
+    mask = os.umask(0o022)
+    os.umask(mask)
+    assert (tmp_path / "with-a-point.step").stat().st_mode & 0o777 == 0o666 & ~mask  # not mkstemp's 0600
 
 
 def test_selection_of_a_group_or_a_part(exported, tmp_path):
