@@ -30,7 +30,18 @@ from .massprops import (
     validate_inertia,
 )
 from .materials import Material, builtin_materials
-from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
+from .model import (
+    AllowedContact,
+    Component,
+    Cutout,
+    MassSource,
+    Maturity,
+    Model,
+    Rule,
+    RuleCheck,
+    Slot,
+    Vehicle,
+)
 from .modelfile import ModelFileError, load_case_models, load_model, loads_model
 from .report import build_report, format_report
 from .transfer import TransferredLoads, load_transfer
@@ -39,6 +50,7 @@ from .vehicle import Balance, RuleResult, check_rules, static_balance
 __version__ = "0.1.0"
 
 __all__ = [
+    "AllowedContact",
     "Balance",
     "Component",
     "Cutout",

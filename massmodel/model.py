@@ -29,6 +29,7 @@ __all__ = [
     "Cutout",
     "Component",
     "Slot",
+    "AllowedContact",
     "RuleCheck",
     "Rule",
     "Vehicle",
@@ -248,6 +249,34 @@ class Slot:
     origin: str = ""
 
 
+@dataclass(frozen=True, slots=True)
+class AllowedContact:
+    """Parts meant to touch or overlap, which packaging checks do not report (e.g. a lumped display shape inside
+    another part, plates stacked on each other).
+
+    Parameters
+    ----------
+    first, second : str
+        Part or group paths; a pair of parts is covered when one lies in ``first`` and the other in ``second``
+        (both in the same group when ``first == second``).
+    note : str
+        Why the contact is intended.
+    origin : str
+        Where it was defined.
+    """
+
+    first: str
+    second: str
+    note: str = ""
+    origin: str = ""
+
+    def covers(self, a: str, b: str) -> bool:
+        """Whether the pair of part paths ``a``, ``b`` is covered (in either order)."""
+        return (in_group(a, self.first) and in_group(b, self.second)) or (
+            in_group(a, self.second) and in_group(b, self.first)
+        )
+
+
 class RuleCheck(enum.Enum):
     """Kinds of rule check."""
 
@@ -366,6 +395,8 @@ class Model:
         The load case this model was evaluated for ("base" when none; see :mod:`massmodel.loadcases`).
     load_cases : tuple of LoadCase
         Every load case the file defines (the same tuple in the base model and in each case's model).
+    allowed_contacts : tuple of AllowedContact
+        Pairs of parts meant to touch or overlap (left out of interference and clearance findings).
     """
 
     name: str
@@ -379,6 +410,7 @@ class Model:
     description: str = ""
     case: str = "base"
     load_cases: tuple[LoadCase, ...] = ()
+    allowed_contacts: tuple[AllowedContact, ...] = ()
     _index: Mapping[str, int] = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
@@ -461,4 +493,5 @@ class Model:
             description=self.description,
             case=self.case,
             load_cases=self.load_cases,
+            allowed_contacts=self.allowed_contacts,
         )

@@ -21,13 +21,25 @@ from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_s
 from .loadcases import BASE_CASE
 from .massprops import InertiaError
 from .materials import Material, MaterialError, builtin_materials, material_from_fields
-from .model import Component, Cutout, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
+from .model import (
+    AllowedContact,
+    Component,
+    Cutout,
+    MassSource,
+    Maturity,
+    Model,
+    Rule,
+    RuleCheck,
+    Slot,
+    Vehicle,
+    in_group,
+)
 from .shapes import SHAPE_KINDS, ShapeError
 
 __all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
 
 TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule", "case",
-                  "driver"}
+                  "driver", "allowed_contact"}
 UNIT_KINDS: dict[str, units.Dimension] = {
     "length": units.LENGTH,
     "mass": units.MASS,
@@ -53,12 +65,16 @@ SHAPE_FILE_FIELDS: dict[str, dict[str, str]] = {
     "torus": {"ring_radius": "length", "tube_radius": "length"},
     "ellipsoid": {"semi_x": "length", "semi_y": "length", "semi_z": "length"},
     "point": {},
+    "step": {"file": "file", "unit": "unit"},
+    "mesh": {"file": "file", "unit": "unit"},
 }
+FILE_SHAPE_KINDS = ("step", "mesh")  # geometry read from a file (massmodel.imported), resolved from the model's folder
 PLACEMENT_FIELDS = {"at", "rotate"}
 PART_FIELDS = {"path", "shape", "material", "density", "mass", "measured", "colour", "maturity", "cut", "mirror",
                "pattern", "slot", "note", "optional"} | PLACEMENT_FIELDS
 GROUP_FIELDS = {"path", "colour", "maturity", "mirror", "note", "optional"} | PLACEMENT_FIELDS
 SLOT_FIELDS = {"name", "shape", "clearance", "note"} | PLACEMENT_FIELDS
+CONTACT_FIELDS = {"between", "note"}
 RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note", "case"}
 VEHICLE_FIELDS = {"axes", "wheelbase", "track_front", "track_rear", "front_axle_station", "ground_level"}
 
@@ -97,13 +113,16 @@ class _Group:
 class _Reader:
     """Converts TOML values of one file to SI, raising errors with file/item/field context."""
 
-    def __init__(self, file: str, defaults: Mapping[str, float], env: Mapping[str, units.Quantity]) -> None:
+    def __init__(self, file: str, defaults: Mapping[str, float], env: Mapping[str, units.Quantity],
+                 base_dir: Path | None = None) -> None:
         self.file = file
         self.defaults = defaults
         self.env = env
+        self.base_dir = Path(file).parent if base_dir is None else base_dir  # geometry files resolve from here
 
     def for_table(self, table: dict[str, Any]) -> _Reader:
-        """The reader for a table merged from a base file (errors then name that file); pops the marker."""
+        """The reader for a table merged from a base file (errors then name that file, geometry paths resolve from
+        its folder); pops the marker."""
         source = table.pop(SOURCE_KEY, None)
         return self if source is None else _Reader(source, self.defaults, self.env)
 
@@ -188,6 +207,8 @@ class _Reader:
         kind = table.get("shape")
         if not isinstance(kind, str) or kind not in SHAPE_FILE_FIELDS:
             raise self.error(item, prefix + "shape", f"expected one of {', '.join(SHAPE_FILE_FIELDS)}, got {kind!r}")
+        if kind in FILE_SHAPE_KINDS:
+            return self.file_shape(kind, table, item, prefix)
         kwargs: dict[str, Any] = {}
         for name, how in SHAPE_FILE_FIELDS[kind].items():
             if name not in table:
@@ -210,6 +231,16 @@ class _Reader:
         except ShapeError as exc:
             field = getattr(exc, "field", None)
             raise self.error(item, prefix + (field or "shape"), str(exc)) from None
+
+
+    def file_shape(self, kind: str, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
+        """A STEP or mesh shape: ``file`` (relative to the model file's folder) and its declared length ``unit``."""
+        from .imported import shape_from_fields
+
+        try:
+            return shape_from_fields(kind, table, self.base_dir)
+        except ShapeError as exc:
+            raise self.error(item, prefix + (getattr(exc, "field", None) or "file"), str(exc)) from None
 
 
 def _shape_keys(kind: Any) -> set[str]:
@@ -308,7 +339,7 @@ def _build_case(
         raise ModelFileError(exc.file, exc.item, exc.field, f"{exc.message} (in load case '{case}')") from None
 
 
-LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver")
+LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver", "allowed_contact")
 SOURCE_KEY = "__file__"  # which file a merged table came from (set by _resolve_extends, removed before use)
 
 
@@ -409,7 +440,7 @@ def _build(
             raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", str(exc)) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", str(exc)) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
-    rd = _Reader(label, defaults, env)
+    rd = _Reader(label, defaults, env, base_dir)
 
     vehicle = _vehicle(rd, data.get("vehicle"))
     centre_normal = vehicle.left if vehicle is not None else np.array([0.0, 1.0, 0.0])
@@ -459,6 +490,10 @@ def _build(
     for c in components:
         if c.slot is not None and c.slot not in names:
             raise rd.error(f"part '{c.path}'", "slot", f"no slot named '{c.slot}'; slots: {', '.join(names) or 'none'}")
+    contacts = tuple(
+        _allowed_contact(rd.for_table(t), t, i, components)
+        for i, t in enumerate(_table_list(rd, data, "allowed_contact"))
+    )
 
     rule_tables: list[tuple[_Reader, dict[str, Any], int]] = []
     book = head.get("rulebook")
@@ -496,12 +531,27 @@ def _build(
         description=str(head.get("description", "")),
         case=active.name if active else BASE_CASE,
         load_cases=cases,
+        allowed_contacts=contacts,
     )
 
 
 def _optional(rd: _Reader, table: Mapping[str, Any], item: str, enclosing: Sequence[_Group]) -> bool:
     """Whether a part or driver table is left out of the base model (its own flag or an enclosing group's)."""
     return _flag(rd, table, "optional", item) or any(g.optional for g in enclosing)
+
+
+def _allowed_contact(rd: _Reader, table: dict[str, Any], index: int, components: Sequence[Component]) -> AllowedContact:
+    """``[[allowed_contact]] between = [a, b]``: parts (or groups of parts) meant to touch or overlap."""
+    item = f"allowed_contact #{index + 1}"
+    rd.check_fields(table, CONTACT_FIELDS, item)
+    pair = table.get("between")
+    if not isinstance(pair, list) or len(pair) != 2 or not all(isinstance(p, str) and _PATH_RE.match(p) for p in pair):
+        raise rd.error(item, "between", f"expected two part or group paths, got {pair!r}")
+    for k, path in enumerate(pair):
+        if not any(in_group(c.path, path) for c in components):
+            raise rd.error(item, f"between[{k}]", f"no part lies at or under '{path}'")
+    note = rd.text(table, "note", item) or ""
+    return AllowedContact(pair[0], pair[1], note=note, origin=f"{rd.file}: {item}")
 
 
 def _table_list(rd: _Reader, data: Mapping[str, Any], key: str) -> list[dict[str, Any]]:
@@ -657,6 +707,12 @@ def _parts(
             kw["measured_inertia"] = np.array(
                 [rd.vector(r, "inertia", item, f"measured.inertia[{i}]") for i, r in enumerate(rows)]
             )
+    if getattr(shape, "closed", True) is False and source is not MassSource.MEASURED:
+        raise rd.error(
+            item, source.value,
+            f"the mesh '{shape.file}' is not closed ({shape.problem}), so it has no trustworthy volume or inertia and "
+            "cannot carry a material, density or mass; fix the mesh, or give `measured` properties to show it as is",
+        )
     if shape.volume() <= 0.0 and source in (MassSource.MATERIAL, MassSource.DENSITY):
         raise rd.error(item, source.value, "a point has no volume: give it a 'mass' or 'measured' properties")
 
@@ -729,6 +785,8 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
         unknown = sorted(set(ct) - allowed)
         if unknown:
             raise rd.error(item, prefix + unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
+        if ct.get("shape") in FILE_SHAPE_KINDS:
+            raise rd.error(item, prefix + "shape", "a cut-out is a primitive shape (model holes from a file in the file)")
         shape = rd.shape(ct, item, prefix)
         if shape.volume() <= 0.0:
             raise rd.error(item, prefix + "shape", "a cut-out needs a volume")
@@ -777,6 +835,9 @@ def _slot(rd: _Reader, table: dict[str, Any], index: int) -> Slot:
     item = f"slot '{name}'"
     rd.check_fields(table, SLOT_FIELDS | _shape_keys(table.get("shape")), item)
     shape = rd.shape(table, item)
+    if not shape.volume() > 0.0:
+        problem = getattr(shape, "problem", "") or "it has no volume"
+        raise rd.error(item, "shape", f"a slot needs a closed envelope solid ({problem})")
     if "clearance" not in table:
         raise rd.error(item, "clearance", "is missing (the gap a block must keep to the slot walls)")
     clearance = rd.quantity(table["clearance"], "length", item, "clearance")
