@@ -437,7 +437,7 @@ class BlockGeometry:
         for corner in itertools.product((1.0, -1.0), repeat=3):
             sg = np.array(corner)
 
-            def at(d: Sequence[float], sg: FloatArray = sg) -> FloatArray:
+            def at(d: npt.ArrayLike, sg: FloatArray = sg) -> FloatArray:
                 return sg * (half - np.asarray(d, dtype=float))
 
             for k1, k2 in itertools.combinations(axes, 2):  # two prisms overlap in a square pyramid: add it back
@@ -525,7 +525,7 @@ class BlockGeometry:
         if self.chamfer:
             selector = " or ".join(f"|{e.upper()}" for e in self.chamfer.edges)
             wp = wp.edges(selector).chamfer(self.chamfer.size * 1e3)
-        solid = wp.val()
+        solid: Any = wp.val()
         h = self.holes
         if h is None:
             return solid
