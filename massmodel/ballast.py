@@ -191,6 +191,11 @@ class BlockSpec:
     min_thickness: float | None = None
 
     def __post_init__(self) -> None:
+        density = getattr(self.material, "density", None)
+        if not isinstance(self.material, Material) or not (isinstance(density, float) and density > 0.0):
+            raise SizingError(f"the ballast material {getattr(self.material, 'key', self.material)!r} has no density: "
+                              "a block's mass needs one (give the material a density and, for alloys, its band)",
+                              "material")
         if not (math.isfinite(self.increment) and self.increment > 0.0):
             raise SizingError(f"increment must be a positive length, got {self.increment!r}", "increment")
         for axis, value in self.fixed.items():

@@ -164,6 +164,7 @@ class PlacementResult:
     shortfalls: tuple[Shortfall, ...]
     stats: SolverStats
     notes: tuple[str, ...] = ()
+    first_round: tuple[float, ...] = ()  # continuous optimum (nominal kg per candidate) before any row was tightened
 
     @property
     def ballast_mass(self) -> tuple[float, float, float]:
@@ -829,6 +830,7 @@ def place_ballast(model: Model, plan: Plan) -> PlacementResult:
     bal_before = static_balance(props_before, model.vehicle) if model.vehicle else None
     tighten: dict[str, float] = {}
     notes: list[str] = []
+    first: tuple[float, ...] = ()
     for ln in prob.lines:
         if ln.floor > ln.cap:
             notes.append(f"slot {ln.cand.name}: its capacity ({ln.cap:.3f} kg) is less than its thinnest block "
@@ -846,6 +848,8 @@ def place_ballast(model: Model, plan: Plan) -> PlacementResult:
                              "with the tightened rows there is no solution: try a finer increment")
             return PlacementResult(plan, model, baseline, False, (), None, (), (), bal_before, None, props_before,
                                    None, tuple(shortfalls), stats, tuple(notes))
+        if round_no == 1:
+            first = tuple(float(v) for v in m)
         g = rows.values(m)
         slack = plan.targets.ballast_allowance
         binding = {req.key for req, gj in zip(rows.reqs, g, strict=True)
@@ -876,4 +880,4 @@ def place_ballast(model: Model, plan: Plan) -> PlacementResult:
     rules = tuple(check_rules(ballasted))
     stats.seconds = time.perf_counter() - t_start
     return PlacementResult(plan, model, baseline, True, tuple(allocations), ballasted, tuple(assessments), rules,
-                           bal_before, bal_after, props_before, props_after, (), stats, tuple(notes))
+                           bal_before, bal_after, props_before, props_after, (), stats, tuple(notes), first)
