@@ -116,6 +116,18 @@ def plot_placement(result: Any, path: str | Path) -> Path:
     side = fig.add_subplot(grid[0, :])
     _view(side, result, (0, 2), "side elevation: x forward (mm, model frame) vs z up (mm)")
     side.legend(loc="upper left", fontsize=7, frameon=False)
+    used = [p for al in result.allocations if al.sizing is not None for p in al.sizing.pieces]
+    if used:  # the blocks are thin: a zoomed section of the side view around them
+        pts = np.vstack([_box_outline(p, (0, 2), p.geometry.size, p.pose) for p in used])
+        lo, hi = pts.min(axis=0), pts.max(axis=0)
+        inset = side.inset_axes((0.64, 0.52, 0.35, 0.46))
+        _view(inset, result, (0, 2), "")
+        pad = np.array([60.0, 25.0])
+        inset.set_xlim(lo[0] - pad[0], hi[0] + pad[0])
+        inset.set_ylim(lo[1] - pad[1], hi[1] + pad[1])
+        inset.set_aspect("auto")
+        inset.tick_params(labelsize=6)
+        side.indicate_inset_zoom(inset, edgecolor="#555555")
     plan = fig.add_subplot(grid[1, 0])
     _view(plan, result, (0, 1), "plan view: x forward vs y left (mm)")
     bars = fig.add_subplot(grid[1, 1])
