@@ -217,3 +217,36 @@ def test_atomic_writes_leave_nothing_behind(tmp_path):
     with pytest.raises(RuntimeError):
         write_atomic(tmp_path / "out.toml", broken)
     assert list(tmp_path.iterdir()) == []
+
+
+def test_seat_group_ballast_placed_in_a_lowered_car(tmp_path, capsys):
+    # A lighter driver makes driver + seat short; the under-seat block is made part of the seat group, so it
+    # counts for that rule. The car is also lowered by 10 mm, which moves the chassis group frame: the written
+    # part must be placed in that frame (the file is reloaded and compared by the command itself).
+    plan = tmp_path / "plan.toml"
+    plan.write_text(
+        '[plan]\nname = "seat"\n[targets]\nmass_margin = "0.5 kg"\n'
+        '[defaults]\nmaterial = "tungsten_b777_class3"\nincrement = "0.5 mm"\nmin_thickness = "2 mm"\n'
+        '[[candidate]]\nslot = "floor_front"\nfill = "+z"\n'
+        '[[candidate]]\nslot = "under_seat"\nfill = "+z"\nreplace_existing = true\npath = "chassis/seat/ballast"\n'
+        'chamfer = { size = "1 mm", edges = "z" }\n',
+        encoding="utf-8")
+    out = tmp_path / "seat_ballasted.toml"
+    code = main(["place-ballast", str(CAR), str(plan), "--set", "driver_mass=70 kg", "--set", "ride_height=30 mm",
+                 "--out-model", str(out), "--no-fit"])
+    text = capsys.readouterr().out
+    assert code == 0, text
+    written = out.read_text()
+    assert 'driver_mass = "70 kg"' in written and 'ride_height = "30 mm"' in written
+    assert 'material = "tungsten_b777_class3"' in written  # chamfers along one axis: exact primitives, wedge cut-outs
+    assert 'shape = "wedge"' in written
+    model = load_model(out)
+    assert all(r.passed for r in check_rules(model))
+    seat = [c for c in model.components if c.path.startswith("chassis/seat/ballast")]
+    assert seat and all(c.slot == "under_seat" for c in seat)
+    group = sum(c.props.mass for c in model.select(["driver", "chassis/seat"]))
+    assert group >= 77.5  # limit + margin, met at nominal density and (checked by the command) at the low end
+    # the block sits on the lowered slot floor: slot centre z = floor_top + ride_offset + 15 mm = -232 mm
+    slot_floor = -0.265 + 0.040 + 0.003 - 0.010
+    lowest = min(c.pose.translation[2] - c.shape.size_z / 2 for c in seat)
+    assert lowest == pytest.approx(slot_floor + 0.001, abs=1e-12)  # on the floor, at the 1 mm clearance

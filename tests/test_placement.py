@@ -232,3 +232,36 @@ def test_the_demo_plan():
     mass = next(a for a in result.assessments if a.requirement.kind == "min_mass")
     assert mass.worst >= 425.5  # the rule plus the plan's margin at the low end of the band
     assert result.balance_after.cg_height < result.balance_before.cg_height
+
+
+def test_a_block_growing_along_the_car_moves_its_own_lever_arm():
+    # The front block sits against its slot's front wall and grows rearwards, so its CG moves back as it grows:
+    # φ(m) = φ(x_wall - m / (2 ρ A)) and the front-share row becomes quadratic (solved by sequential LP).
+    rules = [Rule("min mass", RuleCheck.MIN_MASS, limit=420.0),
+             Rule("front share", RuleCheck.FRONT_FRACTION, minimum=0.40)]
+    slots = [slot("tunnel", (-1.0, 0.0, 0.2), (0.6, 0.1, 0.05)), slot("rear", (-2.2, 0.0, 0.1))]
+    model = car(rules, slots)
+    result = place_ballast(model, plan(model, ["-x", "z"], Targets(mass_margin=0.0, ballast_allowance=0.0)))
+    assert result.feasible
+    m1 = result.first_round[0]
+    area, x_wall, b = 0.1 * 0.05, -1.0 + 0.3, 20.0
+    # F0 + m1 φ(x_wall - m1/(2ρA)) + (B - m1) φ(-2.2) = 0.40 (M0 + B): a quadratic in m1
+    k = 1.0 / (2.0 * RHO * area * L)
+    coeffs = [-k, phi(x_wall) - phi(-2.2), 400.0 * phi(-1.5) + b * phi(-2.2) - 0.40 * (400.0 + b)]
+    roots = [r.real for r in np.roots(coeffs) if abs(r.imag) < 1e-12 and 0.0 <= r.real <= b]
+    assert len(roots) == 1
+    assert m1 == pytest.approx(roots[0], rel=1e-7)
+
+
+def test_left_right_balance_by_the_lever_rule():
+    rules = [Rule("min mass", RuleCheck.MIN_MASS, limit=420.0)]
+    model = car(rules, [slot("left", (-1.5, 0.3, 0.10)), slot("right", (-1.5, -0.3, 0.11))], y0=0.01)
+    t = Targets(mass_margin=0.0, ballast_allowance=0.0, lateral_offset_max=0.001)
+    result = place_ballast(model, plan(model, ["z", "z"], t))
+    assert result.feasible
+    left, right = result.first_round
+    # the lower left slot is preferred until the CG reaches 1 mm left: (400*0.01 + 0.3 (mL - mR)) / 420 = 0.001
+    assert right == pytest.approx((20.0 - (0.42 - 4.0) / 0.3) / 2.0, rel=1e-9)
+    assert left == pytest.approx(20.0 - right, rel=1e-9)
+    lateral = next(a for a in result.assessments if a.requirement.kind == "lateral_max")
+    assert lateral.worst <= 0.001 and lateral.binding
