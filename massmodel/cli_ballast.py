@@ -250,6 +250,10 @@ def _size_block(args: argparse.Namespace) -> int:
     spec = _spec_changes(args, model, spec)
     path = path or f"ballast/{env.name}"
     rule_lines: list[str] = []
+    held = [c.path for c in model.components if c.slot == env.name and c.path not in replace_paths]
+    if held:
+        rule_lines.append(f"note: the slot now holds {', '.join(held)}; the block is sized for the empty slot "
+                          "(--replace-existing counts them out of the rules)")
     target = None
     if args.target is not None and args.target.strip().lower() == "rules":
         if args.margin is None and margin_default is None:

@@ -217,10 +217,10 @@ def _line(c: Candidate) -> _Line:
         q = (mp_full.center - wall) / mp_full.mass
         p = wall
     cap = mp_full.mass
-    if c.capacity is not None:
-        one = hi * full.pieces[0].geometry.volume() / max(full.fill_length / c.spec.increment, 1.0)
+    if c.capacity is not None:  # keep one increment of room for rounding up (at the high end of the band)
+        one = hi * full.volume / max(full.fill_length / c.spec.increment, 1.0)
         cap = min(cap, max((c.capacity - one) / (hi / rho), 0.0))
-    thin = size_block(c.envelope, c.spec, lo * 1e-9)  # the thinnest block the spec allows
+    thin = size_block(c.envelope, c.spec, 1e-12)  # the thinnest block the spec allows
     floor = thin.masses()[0]
     vol_full = full.volume
     area = vol_full / full.fill_length

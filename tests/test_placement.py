@@ -265,3 +265,24 @@ def test_left_right_balance_by_the_lever_rule():
     assert left == pytest.approx(20.0 - right, rel=1e-9)
     lateral = next(a for a in result.assessments if a.requirement.kind == "lateral_max")
     assert lateral.worst <= 0.001 and lateral.binding
+
+
+def test_the_mix_objective_reduces_to_each_single_objective():
+    rules = [Rule("min mass", RuleCheck.MIN_MASS, limit=415.0),
+             Rule("front share", RuleCheck.FRONT_FRACTION, minimum=0.38, maximum=0.50)]
+    slots = [slot("nose", (0.3, 0.0, 0.25)), slot("mid", (-1.2, 0.3, 0.1)), slot("tail", (-2.8, 0.0, 0.05))]
+    model = car(rules, slots)
+    runs = {}
+    for name, objective, w in (("height", Objective.CG_HEIGHT, (0.5, 0.5)), ("yaw", Objective.YAW_INERTIA, (0.5, 0.5)),
+                               ("mix_h", Objective.MIX, (1.0, 0.0)), ("mix_y", Objective.MIX, (0.0, 1.0)),
+                               ("mix", Objective.MIX, (0.5, 0.5))):
+        t = Targets(mass_margin=0.0, ballast_allowance=0.0, objective=objective, weight_height=w[0], weight_yaw=w[1])
+        runs[name] = place_ballast(model, plan(model, ["z"] * 3, t))
+    first = {k: np.array(r.first_round) for k, r in runs.items()}
+    assert np.allclose(first["mix_h"], first["height"], atol=1e-6)
+    assert np.allclose(first["mix_y"], first["yaw"], atol=1e-6)
+    h = {k: r.balance_after.cg_height for k, r in runs.items()}
+    yaw = {k: r.props_after.inertia[2, 2] for k, r in runs.items()}
+    # the compromise lies between the two single optima in both measures
+    assert h["height"] <= h["mix"] + 1e-9 <= h["yaw"] + 2e-9
+    assert yaw["yaw"] <= yaw["mix"] + 1e-6 <= yaw["height"] + 2e-6
