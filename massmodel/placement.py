@@ -45,7 +45,7 @@ from __future__ import annotations
 import math
 import time
 from collections.abc import Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -56,13 +56,13 @@ from .ballast_parts import piece_component
 from .ballast_plan import Candidate, Objective, Plan
 from .massprops import MassProperties, parallel_axis_shift
 from .model import Component, Model, RuleCheck, in_group
+from .placement_solvers import TOL_KG, Rows, SolverStats, extreme_ratio, minimise_on_off, sequential_lp
 from .vehicle import Balance, RuleResult, check_rules, static_balance
 
 __all__ = ["Requirement", "Assessment", "Allocation", "Shortfall", "SolverStats", "PlacementResult", "place_ballast"]
 
 FloatArray = npt.NDArray[np.float64]
 MAX_ROUNDS = 8
-TOL_KG = 1e-7  # a row is met when g >= -TOL_KG (kg)
 
 
 @dataclass(frozen=True, slots=True)
@@ -126,23 +126,6 @@ class Shortfall:
     best_alone: float | None
     conflicts: tuple[str, ...]
     explanation: str
-
-
-@dataclass(slots=True)
-class SolverStats:
-    """Work done by the solvers."""
-
-    seconds: float = 0.0
-    lp_solves: int = 0
-    lp_iterations: int = 0
-    nonlinear_evaluations: int = 0
-    rounds: int = 0
-    methods: list[str] = field(default_factory=list)
-
-    @property
-    def evaluations(self) -> int:
-        """LP/MILP solves + simplex iterations + nonlinear function and gradient evaluations."""
-        return self.lp_solves + self.lp_iterations + self.nonlinear_evaluations
 
 
 @dataclass(frozen=True, eq=False)
@@ -425,27 +408,7 @@ def _problem(model: Model, plan: Plan) -> tuple[_Problem, Model]:
 
 # --- solvers ---------------------------------------------------------------------------------------------------
 
-@dataclass
-class _Rows:
-    g0: FloatArray
-    a: FloatArray
-    b: FloatArray
-    reqs: list[Requirement]
-    labels: list[str]
-
-    def values(self, m: FloatArray) -> FloatArray:
-        return self.g0 + self.a @ m + self.b @ (m * m)
-
-    def linear_at(self, m_bar: FloatArray) -> tuple[FloatArray, FloatArray]:
-        """Tangent rows at m̄: g ≈ g0' + A' m."""
-        return self.g0 - self.b @ (m_bar * m_bar), self.a + 2.0 * self.b * m_bar
-
-    @property
-    def linear(self) -> bool:
-        return not np.any(self.b)
-
-
-def _rows(prob: _Problem, reqs: Sequence[Requirement], cuts: Sequence[tuple[Requirement, FloatArray]]) -> _Rows:
+def _rows(prob: _Problem, reqs: Sequence[Requirement], cuts: Sequence[tuple[Requirement, FloatArray]]) -> Rows:
     g0, a, b, rr, labels = [], [], [], [], []
     for req in reqs:
         for label, kappa in prob.scenarios(req):
@@ -463,138 +426,22 @@ def _rows(prob: _Problem, reqs: Sequence[Requirement], cuts: Sequence[tuple[Requ
         rr.append(req)
         labels.append("worst density mix")
     n = prob.n
-    return _Rows(np.array(g0), np.array(a).reshape(-1, n), np.array(b).reshape(-1, n), rr, labels)
+    return Rows(np.array(g0), np.array(a).reshape(-1, n), np.array(b).reshape(-1, n), rr, labels)
 
 
-def _lp(c: FloatArray, g0: FloatArray, a: FloatArray, ub: FloatArray, floor: FloatArray,
-        total: tuple[float, float] | None, stats: SolverStats) -> FloatArray | None:
-    """min c·m s.t. g0 + a m ≥ 0, m ∈ {0} ∪ [floor, ub], optionally lo ≤ Σm ≤ hi. None when infeasible."""
-    from scipy.optimize import Bounds, LinearConstraint, linprog, milp
-
-    n = len(c)
-    semi = floor > 1e-12
-    stats.lp_solves += 1
-    if not np.any(semi):
-        a_ub = [-a] if len(g0) else []
-        b_ub = [g0] if len(g0) else []
-        if total is not None:
-            a_ub += [np.ones((1, n)), -np.ones((1, n))]
-            b_ub += [np.array([total[1]]), np.array([-total[0]])]
-        res = linprog(c, A_ub=np.vstack(a_ub) if a_ub else None, b_ub=np.concatenate(b_ub) if b_ub else None,
-                      bounds=list(zip(np.zeros(n), ub, strict=True)), method="highs")
-        stats.lp_iterations += int(getattr(res, "nit", 0) or 0)
-        if "linprog (HiGHS)" not in stats.methods:
-            stats.methods.append("linprog (HiGHS)")
-        return np.clip(res.x, 0.0, ub) if res.status == 0 else None
-    # m and an on/off y per slot: floor·y <= m <= ub·y
-    cc = np.concatenate([c, np.zeros(n)])
-    rows, lbs, ubs = [], [], []
-    if len(g0):
-        rows.append(np.hstack([a, np.zeros_like(a)]))
-        lbs.append(-g0)
-        ubs.append(np.full(len(g0), np.inf))
-    rows += [np.hstack([np.eye(n), -np.diag(ub)]), np.hstack([np.eye(n), -np.diag(np.where(semi, floor, 0.0))])]
-    lbs += [np.full(n, -np.inf), np.zeros(n)]
-    ubs += [np.zeros(n), np.full(n, np.inf)]
-    if total is not None:
-        rows.append(np.hstack([np.ones((1, n)), np.zeros((1, n))]))
-        lbs.append(np.array([total[0]]))
-        ubs.append(np.array([total[1]]))
-    cons = LinearConstraint(np.vstack(rows), np.concatenate(lbs), np.concatenate(ubs))
-    integrality = np.concatenate([np.zeros(n), np.ones(n)])
-    res = milp(cc, constraints=cons, integrality=integrality,
-               bounds=Bounds(np.zeros(2 * n), np.concatenate([ub, np.ones(n)])))
-    stats.lp_iterations += int(getattr(res, "mip_node_count", 0) or 0)
-    if "milp (HiGHS)" not in stats.methods:
-        stats.methods.append("milp (HiGHS)")
-    if res.status != 0 or res.x is None:
-        return None
-    return np.where(res.x[n:] > 0.5, np.clip(res.x[:n], 0.0, ub), 0.0)
-
-
-def _slp(c: FloatArray, rows: _Rows, ub: FloatArray, floor: FloatArray, total: tuple[float, float] | None,
-         stats: SolverStats, start: FloatArray | None = None) -> FloatArray | None:
-    """Sequential LP on the tangent rows until the solution settles (one LP when every row is linear)."""
-    m_bar = np.zeros_like(ub) if start is None else start
-    m = None
-    for _ in range(30):
-        g0, a = rows.linear_at(m_bar)
-        m = _lp(c, g0, a, ub, floor, total, stats)
-        if m is None:
-            return None
-        if rows.linear or np.max(np.abs(m - m_bar)) < 1e-10 * max(1.0, float(np.max(ub))):
-            break
-        m_bar = m
-    if m is not None and np.any(rows.values(m) < -TOL_KG):
-        # a row curving the other way (b < 0) is met only approximately by its tangent: nudge inwards once
-        g0, a = rows.linear_at(m)
-        g_true = rows.values(m)
-        m2 = _lp(c, g0 + np.minimum(g_true - (g0 + a @ m), 0.0) - TOL_KG, a, ub, floor, total, stats)
-        if m2 is not None:
-            m = m2
-    return m
-
-
-def _nonlinear(fun: Any, rows: _Rows, lo: FloatArray, hi: FloatArray, total: tuple[float, float],
-               starts: Sequence[FloatArray], stats: SolverStats, jac: Any = None) -> FloatArray | None:
-    """SLSQP from several starts; the best point meeting every row (within TOL_KG) and the total range."""
-    from scipy.optimize import minimize
-
-    if "SLSQP" not in stats.methods:
-        stats.methods.append("SLSQP")
-    n = len(lo)
-    cons = [{"type": "ineq", "fun": rows.values, "jac": lambda m: rows.a + 2.0 * rows.b * m},
-            {"type": "ineq", "fun": lambda m: np.array([np.sum(m) - total[0], total[1] - np.sum(m)]),
-             "jac": lambda m: np.vstack([np.ones(n), -np.ones(n)])}]
-    best, best_f = None, math.inf
-    for x0 in starts:
-        res = minimize(fun, np.clip(x0, lo, hi), method="SLSQP", jac=jac, bounds=list(zip(lo, hi, strict=True)),
-                       constraints=cons, options={"maxiter": 300, "ftol": 1e-14})
-        stats.nonlinear_evaluations += int(res.nfev) + int(getattr(res, "njev", 0) or 0)
-        m = np.clip(res.x, lo, hi)
-        tot = float(np.sum(m))
-        ok = (np.all(rows.values(m) >= -TOL_KG) and total[0] - 1e-9 <= tot <= total[1] + 1e-9)
-        if ok and fun(m) < best_f:
-            best, best_f = m, float(fun(m))
-    return best
-
-
-def _optimise(fun: Any, rows: _Rows, ub: FloatArray, floor: FloatArray, total: tuple[float, float],
-              starts: Sequence[FloatArray], stats: SolverStats, jac: Any = None) -> FloatArray | None:
-    """Minimise ``fun`` over the rows with each slot either empty or between its thinnest block and its capacity.
-
-    The continuous relaxation (every slot from 0 to its capacity) is solved first; its support and the supports of
-    the starting points give the on/off patterns, each then solved with its slots held between floor and
-    capacity. The best point found is returned.
-    """
-    relaxed = _nonlinear(fun, rows, np.zeros_like(ub), ub, total, starts, stats, jac)
-    patterns = {tuple(bool(v) for v in (s > 0.0)) for s in starts}
-    if relaxed is not None:
-        patterns.add(tuple(bool(v) for v in (relaxed > np.maximum(0.5 * floor, 1e-9))))
-    best, best_f = None, math.inf
-    for pat in sorted(patterns):
-        on = np.array(pat, dtype=bool)
-        lo, hi = np.where(on, floor, 0.0), np.where(on, ub, 0.0)
-        init = [np.clip(x, lo, hi) for x in ([relaxed] if relaxed is not None else []) + list(starts)]
-        found = _nonlinear(fun, rows, lo, hi, total, init, stats, jac)
-        if found is not None and fun(found) < best_f:
-            best, best_f = found, float(fun(found))
-    return best
-
-
-def _solve(prob: _Problem, rows: _Rows, stats: SolverStats) -> tuple[FloatArray | None, float]:
+def _solve(prob: _Problem, rows: Rows, stats: SolverStats) -> tuple[FloatArray | None, float]:
     """Stage 1 (least ballast) and stage 2 (the objective). Returns (masses or None when infeasible, least)."""
     n = prob.n
     unusable = np.array([ln.floor > ln.cap for ln in prob.lines])
     ub = np.where(unusable, 0.0, np.array([ln.cap for ln in prob.lines]))
     floor = np.where(unusable, 0.0, np.array([ln.floor for ln in prob.lines]))
-    m1 = _slp(np.ones(n), rows, ub, floor, None, stats)
+    m1 = sequential_lp(np.ones(n), rows, ub, floor, None, stats)
     if m1 is None:
         return None, math.nan
     least = float(np.sum(m1))
     total = (least, least + prob.plan.targets.ballast_allowance)
     up_q = np.array([prob.up @ ln.q for ln in prob.lines])
-    m_lin = _slp(prob.cg_height_gradient(m1), rows, ub, floor, total, stats, start=m1)
+    m_lin = sequential_lp(prob.cg_height_gradient(m1), rows, ub, floor, total, stats, start=m1)
     if m_lin is None:
         m_lin = m1
 
@@ -603,7 +450,7 @@ def _solve(prob: _Problem, rows: _Rows, stats: SolverStats) -> tuple[FloatArray 
 
     m_height = m_lin
     if np.any(up_q) or total[1] > total[0]:
-        found = _optimise(height_mm, rows, ub, floor, total, [m_lin, m1], stats,
+        found = minimise_on_off(height_mm, rows, ub, floor, total, [m_lin, m1], stats,
                           jac=lambda m: 1e3 * prob.cg_height_gradient(m))
         if found is not None and height_mm(found) < height_mm(m_lin) - 1e-9:
             m_height = found
@@ -613,11 +460,11 @@ def _solve(prob: _Problem, rows: _Rows, stats: SolverStats) -> tuple[FloatArray 
     rng = np.random.default_rng(20261201)
     starts = [m_height, m_lin, m1]
     for _ in range(3):
-        cand = _slp(rng.normal(size=n), rows, ub, floor, total, stats, start=m1)
+        cand = sequential_lp(rng.normal(size=n), rows, ub, floor, total, stats, start=m1)
         if cand is not None:
             starts.append(cand)
     yaw_scale = max(prob.yaw(m1), 1e-9)
-    m_yaw = _optimise(lambda m: prob.yaw(m) / yaw_scale, rows, ub, floor, total, starts, stats)
+    m_yaw = minimise_on_off(lambda m: prob.yaw(m) / yaw_scale, rows, ub, floor, total, starts, stats)
     if m_yaw is None:
         m_yaw = min(starts, key=prob.yaw)
     if objective is Objective.YAW_INERTIA:
@@ -631,7 +478,7 @@ def _solve(prob: _Problem, rows: _Rows, stats: SolverStats) -> tuple[FloatArray 
         return (t.weight_height * (prob.cg_height(m) - h_min) / h_span
                 + t.weight_yaw * (prob.yaw(m) - y_min) / y_span)
 
-    found = _optimise(mix, rows, ub, floor, total, [m_height, m_yaw, 0.5 * (m_height + m_yaw)], stats)
+    found = minimise_on_off(mix, rows, ub, floor, total, [m_height, m_yaw, 0.5 * (m_height + m_yaw)], stats)
     best = min([m_height, m_yaw] + ([found] if found is not None else []), key=mix)
     return best, least
 
@@ -645,25 +492,6 @@ class _Block:
     k_lo: float
     k_hi: float
     center: FloatArray
-
-
-def _extreme_ratio(num0: float, den0: float, w: FloatArray, v: FloatArray, lo: FloatArray, hi: FloatArray,
-                   maximize: bool) -> tuple[float, FloatArray]:
-    """Extreme of (num0 + Σ κ w v) / (den0 + Σ κ w) over κᵢ ∈ [loᵢ, hiᵢ] (w ≥ 0): Dinkelbach's iteration.
-
-    The ratio is linear-fractional in κ, so the extreme lies at a vertex: at the optimum λ each κᵢ sits at the end
-    that moves the ratio the wanted way (vᵢ > λ pulls it up).
-    """
-    kappa = np.ones_like(w)
-    lam = (num0 + np.sum(kappa * w * v)) / (den0 + np.sum(kappa * w))
-    for _ in range(2 * len(w) + 4):
-        up = v > lam
-        new = np.where(up, hi, lo) if maximize else np.where(up, lo, hi)
-        lam_new = (num0 + np.sum(new * w * v)) / (den0 + np.sum(new * w))
-        if np.array_equal(new, kappa) and abs(lam_new - lam) <= 1e-15 * max(1.0, abs(lam)):
-            break
-        kappa, lam = new, lam_new
-    return float(lam), kappa
 
 
 def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block],
@@ -690,15 +518,15 @@ def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block
             worst = base + float(np.sum(np.where(share >= 0.0, lo, hi) * w * share))
         elif k in ("fraction_min", "fraction_max"):
             nominal = (f0 + float(np.sum(w * phi))) / (m0 + float(np.sum(w)))
-            worst = _extreme_ratio(f0, m0, w, phi, lo, hi, maximize=(k == "fraction_max"))[0]
+            worst = extreme_ratio(f0, m0, w, phi, lo, hi, maximize=(k == "fraction_max"))[0]
         elif k == "cg_height_max":
             z = c @ prob.up if len(blocks) else np.zeros(0)
             nominal = (float(prob.up @ q0) + float(np.sum(w * z))) / (m0 + float(np.sum(w))) - prob.ground
-            worst = _extreme_ratio(float(prob.up @ q0), m0, w, z, lo, hi, maximize=True)[0] - prob.ground
+            worst = extreme_ratio(float(prob.up @ q0), m0, w, z, lo, hi, maximize=True)[0] - prob.ground
         elif k in ("lateral_max", "lateral_min"):
             y = c @ prob.left if len(blocks) else np.zeros(0)
             nominal = (float(prob.left @ q0) + float(np.sum(w * y))) / (m0 + float(np.sum(w)))
-            worst = _extreme_ratio(float(prob.left @ q0), m0, w, y, lo, hi, maximize=(k == "lateral_max"))[0]
+            worst = extreme_ratio(float(prob.left @ q0), m0, w, y, lo, hi, maximize=(k == "lateral_max"))[0]
         else:  # max_ballast
             nominal = worst = float(np.sum(w))
         sign = -1.0 if req.is_max else 1.0
@@ -709,7 +537,7 @@ def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block
 
 # --- infeasibility ---------------------------------------------------------------------------------------------
 
-def _diagnose(prob: _Problem, reqs: Sequence[Requirement], rows: _Rows, stats: SolverStats) -> list[Shortfall]:
+def _diagnose(prob: _Problem, reqs: Sequence[Requirement], rows: Rows, stats: SolverStats) -> list[Shortfall]:
     """Elastic LP: one slack (kg) per row, least total slack; rows with slack are the ones that cannot be met."""
     from scipy.optimize import linprog
 
@@ -767,14 +595,14 @@ def _best_alone(prob: _Problem, req: Requirement, ub: FloatArray) -> float | Non
     if k == "axle_rear":
         return prob.m0 - f0 + float(np.sum(np.clip(lo * (1.0 - pa), 0.0, None) * ub))
     if k in ("fraction_min", "fraction_max"):
-        return _extreme_ratio(f0, prob.m0, np.ones(prob.n), pa, zeros, caps, maximize=(k == "fraction_min"))[0]
+        return extreme_ratio(f0, prob.m0, np.ones(prob.n), pa, zeros, caps, maximize=(k == "fraction_min"))[0]
     if k == "cg_height_max":
         z = centres @ prob.up
-        return _extreme_ratio(float(prob.up @ prob.q0), prob.m0, np.ones(prob.n), z, zeros, caps,
+        return extreme_ratio(float(prob.up @ prob.q0), prob.m0, np.ones(prob.n), z, zeros, caps,
                               maximize=False)[0] - prob.ground
     if k in ("lateral_max", "lateral_min"):
         y = centres @ prob.left
-        return _extreme_ratio(float(prob.left @ prob.q0), prob.m0, np.ones(prob.n), y, zeros, caps,
+        return extreme_ratio(float(prob.left @ prob.q0), prob.m0, np.ones(prob.n), y, zeros, caps,
                               maximize=(k == "lateral_min"))[0]
     return None
 

@@ -18,7 +18,8 @@ from massmodel.ballast_plan import Candidate, Objective, Plan, Targets
 from massmodel.frames import Pose
 from massmodel.materials import Material
 from massmodel.model import Component, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
-from massmodel.placement import _extreme_ratio, place_ballast
+from massmodel.placement import place_ballast
+from massmodel.placement_solvers import extreme_ratio
 from massmodel.shapes import Box, PointMass
 from massmodel.vehicle import static_balance
 
@@ -200,8 +201,8 @@ def test_worst_density_mix_by_dinkelbach_equals_the_vertex_search():
         num0, den0 = rng.uniform(100, 200), rng.uniform(300, 400)
         values = [(num0 + np.sum(k * w * v)) / (den0 + np.sum(k * w))
                   for k in (np.where(bits, hi, lo) for bits in itertools.product([0, 1], repeat=n))]
-        assert _extreme_ratio(num0, den0, w, v, lo, hi, maximize=True)[0] == pytest.approx(max(values), rel=1e-14)
-        assert _extreme_ratio(num0, den0, w, v, lo, hi, maximize=False)[0] == pytest.approx(min(values), rel=1e-14)
+        assert extreme_ratio(num0, den0, w, v, lo, hi, maximize=True)[0] == pytest.approx(max(values), rel=1e-14)
+        assert extreme_ratio(num0, den0, w, v, lo, hi, maximize=False)[0] == pytest.approx(min(values), rel=1e-14)
 
 
 def test_minimum_mass_holds_at_the_low_end_of_the_band():
