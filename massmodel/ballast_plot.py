@@ -29,12 +29,21 @@ CG_BEFORE = "#4d4d4d"
 CG_AFTER = "#1f7a4d"
 
 
+CAUTION_FOOTER = (
+    "Ballast must be fixed so that it cannot come loose (bolted through primary structure, sealed where the rules "
+    "require it).\nTungsten alloy dust from machining or grinding is a respiratory hazard. Heavy blocks need safe "
+    "handling.\nThe series' technical regulations and the scrutineers decide; massmodel results are engineering "
+    "estimates."
+)
+
+
 def _figure(size: tuple[float, float]) -> Any:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
     fig = Figure(figsize=size, dpi=110)
     FigureCanvasAgg(fig)
+    fig.text(0.5, 0.005, CAUTION_FOOTER, ha="center", va="bottom", fontsize=6.5, color="#7a2e22")
     return fig
 
 
@@ -179,7 +188,8 @@ def plot_placement(result: Any, path: str | Path) -> Path:
 
 def plot_seat_study(study: Any, path: str | Path) -> Path:
     """CG height of the car against the height of the seat ballast (PNG)."""
-    fig = _figure((7.5, 5.0))
+    fig = _figure((7.5, 5.4))
+    fig.subplots_adjust(bottom=0.22)
     ax = fig.add_subplot(1, 1, 1)
     h = study.heights * 1e3
     z = study.cg_heights * 1e3
