@@ -1,0 +1,106 @@
+"""Placement over 20 candidate slots on the demo car (target: under 2 s).
+
+Prints the solver time, the number of evaluations and ratios against references measured in the same run
+(loading the demo model; one HiGHS linear program of the same size). Not a test: machines are shared and noisy.
+"""
+
+from __future__ import annotations
+
+import statistics
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+import numpy as np  # noqa: E402
+
+from massmodel.ballast_plan import loads_plan  # noqa: E402
+from massmodel.modelfile import load_model  # noqa: E402
+from massmodel.placement import place_ballast  # noqa: E402
+
+CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
+TARGET_S = 2.0
+
+
+def plan_text(n_extra: int = 17) -> str:
+    """The demo's three slots plus ``n_extra`` invented floor and side boxes: 20 candidates."""
+    lines = [
+        '[plan]\nname = "benchmark: 20 slots"',
+        '[targets]\nmass_margin = "0.5 kg"\nfront_fraction = { target = 0.436, tolerance = 0.003 }',
+        'lateral_offset_max = "3 mm"\nobjective = "cg_height"',
+        '[defaults]\nmaterial = "tungsten_b777_class3"\nincrement = "0.5 mm"\nmin_thickness = "3 mm"',
+        'chamfer = { size = "1 mm", edges = "xyz" }',
+        '[defaults.holes]\npattern = "line"\ncount = 2\ndiameter = "8.5 mm"\npitch = "60 mm"',
+        '[[candidate]]\nslot = "floor_front"\nfill = "+z"',
+        '[[candidate]]\nslot = "under_seat"\nfill = "+z"\nreplace_existing = true',
+        '[[candidate]]\nslot = "gearbox_left"\nfill = "+z"\nreplace_existing = true',
+    ]
+    rng = np.random.default_rng(5)
+    classes = ["tungsten_b777_class1", "tungsten_b777_class2", "tungsten_b777_class3", "tungsten_b777_class4"]
+    for k in range(n_extra):
+        x = -2400.0 + 2700.0 * k / max(n_extra - 1, 1)
+        y = [0.0, 180.0, -180.0][k % 3]
+        z = -205.0 + float(rng.uniform(0.0, 60.0))
+        size = [float(rng.uniform(90, 160)), float(rng.uniform(80, 140)), float(rng.uniform(25, 45))]
+        fill = "+z" if k % 4 else "z"
+        lines.append(
+            f'[[candidate]]\nslot = "bench_{k + 1:02d}"\nfill = "{fill}"\nmaterial = "{classes[k % 4]}"\n'
+            f'box = {{ size = ["{size[0]:.1f} mm", "{size[1]:.1f} mm", "{size[2]:.1f} mm"], '
+            f'at = ["{x:.1f} mm", "{y:.1f} mm", "{z:.1f} mm"], clearance = "1 mm" }}'
+        )
+    return "\n".join(lines) + "\n"
+
+
+def best_of(fn, repeat: int = 3) -> tuple[float, object]:
+    times, out = [], None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return min(times), out
+
+
+def main() -> int:
+    t_load, model = best_of(lambda: load_model(CAR))
+    plan = loads_plan(plan_text(), model, label="benchmark plan")
+    assert len(plan.candidates) == 20
+    place_ballast(model, plan)  # warm-up: imports
+    from massmodel import ballast
+
+    runs = []
+    for _ in range(3):
+        ballast._geometry.cache_clear()  # every run sizes its blocks from scratch
+        t0 = time.perf_counter()
+        result = place_ballast(model, plan)
+        runs.append((time.perf_counter() - t0, result))
+    t_place = min(r[0] for r in runs)
+    t_median = statistics.median(r[0] for r in runs)
+    result = min(runs, key=lambda r: r[0])[1]
+    assert result.feasible, [s.explanation for s in result.shortfalls]
+
+    from scipy.optimize import linprog
+
+    rng = np.random.default_rng(1)
+    a = rng.uniform(-1, 1, (30, 20))
+    t_lp, _ = best_of(lambda: linprog(np.ones(20), A_ub=a, b_ub=np.ones(30), bounds=[(0, 30)] * 20, method="highs"))
+
+    s = result.stats
+    used = sum(1 for al in result.allocations if al.sizing is not None)
+    print("bench_placement: place_ballast over 20 candidate slots on the demo car")
+    print(f"  placement (sizing, solving, checking)  {t_place:8.3f} s   (target < {TARGET_S:.1f} s: "
+          f"{'ok' if t_place < TARGET_S else 'SLOWER'}; ratio to target {t_place / TARGET_S:.2f})")
+    print(f"  solver time reported by the result     {s.seconds:8.3f} s")
+    print(f"  evaluations                            {s.evaluations:8d}   ({s.lp_solves} LP/MILP solves, "
+          f"{s.lp_iterations} iterations, {s.nonlinear_evaluations} nonlinear evaluations, {s.rounds} rounds)")
+    print(f"  methods                                {', '.join(s.methods)}")
+    print(f"  slots used                             {used} of 20; ballast {result.ballast_mass[0]:.3f} kg nominal")
+    print(f"  reference: load the demo model         {t_load:8.3f} s   ratio placement / load {t_place / t_load:6.2f}")
+    print(f"  reference: one 20-variable HiGHS LP    {t_lp:8.4f} s   ratio placement / LP  {t_place / t_lp:6.1f}")
+    print(f"  median of 3 runs                       {t_median:8.3f} s")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,252 @@
+"""The ballast commands end to end on the demo car: files written, the ballasted model passes every rule, the
+unreachable target explained, user mistakes as one-line errors (exit 2)."""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from massmodel.cli import EXIT_FAIL, EXIT_USAGE, main
+from massmodel.modelfile import load_model
+from massmodel.vehicle import check_rules
+
+ROOT = Path(__file__).resolve().parent.parent
+CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
+PLAN = ROOT / "parts_demo" / "bl3_ballast_plan.toml"
+
+
+@pytest.fixture(scope="module")
+def placed(tmp_path_factory):
+    out = tmp_path_factory.mktemp("placed")
+    argv = ["place-ballast", str(CAR), str(PLAN), "--out-model", str(out / "bl3_ballasted.toml"),
+            "--step", str(out / "blocks.step"), "--stl", str(out / "blocks.stl"), "--json", str(out / "placed.json"),
+            "--picture", str(out / "placed.png")]
+    code = main(argv)
+    return out, code
+
+
+def test_place_ballast_writes_a_model_that_passes_every_rule(placed):
+    out, code = placed
+    assert code == 0
+    ballasted = load_model(out / "bl3_ballasted.toml")
+    results = check_rules(ballasted)
+    assert len(results) == 6 and all(r.passed for r in results)
+    data = json.loads((out / "placed.json").read_text())
+    # the JSON's "after" state is the reloaded model's
+    mp = ballasted.mass_properties()
+    assert data["after"]["mass_kg"] == pytest.approx(mp.mass, rel=1e-12)
+    assert np.allclose(data["after"]["cg_m"], mp.center, atol=1e-12)
+    # minimum mass at the LOW end of every density band: baseline + low-end block masses >= 425 + 0.5 kg
+    removed = sum(load_model(CAR).component(p).props.mass for p in data["removed"])
+    fuel = sum(c.props.mass for c in ballasted.components if c.path.startswith("fuel"))
+    low = mp.mass - data["ballast_kg"]["nominal"] + data["ballast_kg"]["min"] - fuel
+    assert low >= 425.5
+    assert removed == pytest.approx(8.294, abs=1e-3)
+    # the input was not touched and the new file extends it
+    assert 'extends = "' in (out / "bl3_ballasted.toml").read_text()
+    assert main(["report", str(out / "bl3_ballasted.toml"), "--strict", "--brief"]) == 0
+
+
+def test_step_and_stl_of_the_blocks_round_trip(placed):
+    cq = pytest.importorskip("cadquery")
+    trimesh = pytest.importorskip("trimesh")
+    out, _ = placed
+    data = json.loads((out / "placed.json").read_text())
+    parts = [p for s in data["slots"] for p in s["parts"]]
+    volume = sum(piece["mass_max_density_kg"] / 18350.0 for s in data["slots"] if "pieces" in s
+                 for piece in s["pieces"])  # Class 3 blocks: mass at 18350 kg/m^3 / density
+    assy = cq.Assembly.importStep(str(out / "blocks.step"))
+    assert sorted(c.name for c in assy.children) == sorted(p.replace("/", ".") for p in parts)
+    assert len(assy.toCompound().Solids()) == len(parts)
+    step_volume = sum(s.Volume() for s in assy.toCompound().Solids()) * 1e-9
+    assert step_volume == pytest.approx(volume, rel=1e-9)
+    mesh = trimesh.load(out / "blocks.stl")
+    assert mesh.volume * 1e-9 == pytest.approx(volume, rel=2e-3)  # STL in mm; holes tessellated
+    from PIL import Image
+
+    img = np.asarray(Image.open(out / "placed.png").convert("L"))
+    assert img.shape[0] > 800 and img.std() > 10  # a picture, not a blank page
+
+
+def test_size_block_explains_an_unreachable_target(tmp_path, capsys):
+    code = main(["size-block", str(CAR), "--plan", str(PLAN), "--slot", "nose_box", "--target", "rules",
+                 "--json", str(tmp_path / "nose.json"), "--step", str(tmp_path / "nose.step")])
+    text = capsys.readouterr().out
+    assert code == EXIT_FAIL
+    assert "TARGET NOT REACHED" in text and "a second slot" in text and "more length" in text
+    data = json.loads((tmp_path / "nose.json").read_text())
+    assert not data["reached"]
+    cap = data["heaviest_block_kg"]["min"]
+    assert cap == pytest.approx(18250 * data["volume_m3"], rel=1e-12)
+    assert data["shortfall_kg"] == pytest.approx(data["target_at_low_density_kg"] - cap, rel=1e-12)
+    assert data["target_at_low_density_kg"] == pytest.approx(10.80, abs=0.01)
+    assert (tmp_path / "nose.step").stat().st_size > 1000
+
+
+def test_size_block_in_a_model_slot(tmp_path, capsys):
+    code = main(["size-block", str(CAR), "--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z",
+                 "--increment", "0.5mm", "--target", "10kg", "--holes", "2", "--hole-diameter", "8.5mm",
+                 "--hole-pitch", "120mm", "--chamfer", "0.5mm", "--json", str(tmp_path / "b.json")])
+    assert code == 0
+    data = json.loads((tmp_path / "b.json").read_text())
+    assert data["mass_kg"]["min"] >= 10.0
+    assert data["fit"][0]["fits"]
+    assert data["pieces"][0]["size_m"][:2] == pytest.approx([0.198, 0.238], abs=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("extra", "words"),
+    [
+        (["--box", "1.5mm,50mm,50mm", "--at", "0mm,0mm,0mm", "--clearance", "1mm", "--material",
+          "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5mm"], "no room for a block"),
+        (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5mm",
+          "--target=-2kg"], "target mass must be a positive mass"),
+        (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5mm",
+          "--holes", "1", "--hole-diameter", "300mm"], "larger than the block"),
+        (["--slot", "floor_front", "--material", "unobtainium", "--fill", "+z", "--increment", "0.5mm"],
+         "unknown material"),
+        (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5"],
+         "expected a length with its unit"),
+    ],
+)
+def test_size_block_bad_input(extra, words, capsys):
+    code = main(["size-block", str(CAR), *extra])
+    err = capsys.readouterr().err
+    assert code == EXIT_USAGE
+    assert words in err and err.count("\n") == 1 and "Traceback" not in err
+
+
+def test_material_without_density_is_a_clear_error(tmp_path, capsys):
+    car = tmp_path / "car.toml"
+    shutil.copy(CAR, car)
+    shutil.copy(ROOT / "parts_demo" / "marrowfield_rules.toml", tmp_path)
+    with car.open("a", encoding="utf-8") as fh:
+        fh.write('\n[materials.mystery_alloy]\nname = "a bar with no data sheet"\n')
+    code = main(["size-block", str(car), "--slot", "floor_front", "--material", "mystery_alloy", "--fill", "+z",
+                 "--increment", "0.5mm"])
+    err = capsys.readouterr().err
+    assert code == EXIT_USAGE
+    assert "material 'mystery_alloy'" in err and "'density' is missing" in err
+
+
+def test_plan_slot_smaller_than_its_clearance(tmp_path, capsys):
+    plan = tmp_path / "plan.toml"
+    plan.write_text(
+        '[plan]\nname = "tight"\n[targets]\nmass_margin = "0.5 kg"\n'
+        '[[candidate]]\nslot = "tiny"\nbox = { size = ["1.5 mm", "100 mm", "30 mm"], at = ["0 mm", "0 mm", "0 mm"], '
+        'clearance = "1 mm" }\nmaterial = "tungsten_b777_class1"\nfill = "+z"\nincrement = "0.5 mm"\n',
+        encoding="utf-8")
+    code = main(["place-ballast", str(CAR), str(plan)])
+    err = capsys.readouterr().err
+    assert code == EXIT_USAGE
+    assert f"{plan}: candidate 'tiny', field 'slot'" in err and "no room for a block" in err
+
+
+def test_plan_errors_name_file_item_and_field(tmp_path, capsys):
+    plan = tmp_path / "plan.toml"
+    plan.write_text('[plan]\nname = "p"\n[targets]\nmass_margin = "0.5"\n[[candidate]]\nslot = "floor_front"\n',
+                    encoding="utf-8")
+    assert main(["place-ballast", str(CAR), str(plan)]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert f"{plan}: [targets], field 'mass_margin'" in err and "no default units" in err
+    plan.write_text('[plan]\nname = "p"\n[targets]\nmass_margin = "0.5 kg"\n[[candidate]]\nslot = "under_seat"\n'
+                    'material = "tungsten_b777_class1"\nfill = "+z"\nincrement = "0.5 mm"\n', encoding="utf-8")
+    assert main(["place-ballast", str(CAR), str(plan)]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert "field 'replace_existing'" in err and "already holds ballast/seat_block" in err
+
+
+def test_place_ballast_never_overwrites_the_input(tmp_path, capsys):
+    car = tmp_path / "car.toml"
+    shutil.copy(CAR, car)
+    shutil.copy(ROOT / "parts_demo" / "marrowfield_rules.toml", tmp_path)
+    before = car.read_bytes()
+    assert main(["place-ballast", str(car), str(PLAN), "--out-model", str(car), "--no-fit"]) == EXIT_USAGE
+    assert "that is the input model" in capsys.readouterr().err
+    assert car.read_bytes() == before
+
+
+def test_infeasible_placement_names_the_binding_rule(capsys, tmp_path):
+    code = main(["place-ballast", str(CAR), str(PLAN), "--without", "floor_front", "--without", "under_seat",
+                 "--without", "gearbox_left", "--json", str(tmp_path / "x.json")])
+    text = capsys.readouterr().out
+    assert code == EXIT_FAIL
+    assert "NO PLACEMENT MEETS EVERY RULE AND TARGET" in text
+    data = json.loads((tmp_path / "x.json").read_text())
+    first = data["shortfalls"][0]
+    assert first["requirement"] == "minimum mass, car with driver, without fuel"
+    # the nose box alone (Class 4, low end of the band) against 425.5 kg without the two blocks it would replace
+    model = load_model(CAR)
+    base = sum(c.props.mass for c in model.components if not c.path.startswith(("fuel", "ballast/seat_block",
+                                                                                 "ballast/gearbox_block")))
+    assert base == pytest.approx(model.mass_properties().mass - 20.0 - 8.294, abs=2e-3)
+
+
+def test_seat_ballast_study(tmp_path, capsys):
+    code = main(["seat-ballast", str(CAR), "--set", "driver_mass=70 kg", "--material", "tungsten_b777_class3",
+                 "--margin", "0.5kg", "--plot", str(tmp_path / "seat.png"), "--json", str(tmp_path / "seat.json")])
+    assert code == 0
+    assert "SEAT BALLAST" in capsys.readouterr().out
+    data = json.loads((tmp_path / "seat.json").read_text())
+    model = load_model(CAR, overrides={"driver_mass": "70 kg"})
+    group = sum(c.props.mass for c in model.select(["driver", "chassis/seat"]))
+    assert data["need_at_low_density_kg"] == pytest.approx(77.5 - group, rel=1e-12)
+    assert data["plate"]["mass_kg"]["min"] >= data["need_at_low_density_kg"]
+    # first moment of mass: the car's CG height with a mass m at height h is (M z + m h) / (M + m)
+    mp = model.mass_properties()
+    m = data["ballast_mass_kg"]
+    z0 = mp.center[2] - (-0.265)  # ground plane at z = -265 mm (parts_demo/README.md)
+    for row in data["rows"]:
+        assert row["cg_height_m"] == pytest.approx((mp.mass * z0 + m * row["ballast_height_m"]) / (mp.mass + m),
+                                                   rel=1e-12)
+    assert data["cg_rise_per_ballast_height"] == pytest.approx(m / (mp.mass + m), rel=1e-9)
+    assert (tmp_path / "seat.png").stat().st_size > 10_000
+
+
+def test_atomic_writes_leave_nothing_behind(tmp_path):
+    from massmodel.ballast_export import write_atomic
+
+    def broken(path):
+        path.write_text("half")
+        raise RuntimeError("disk full")
+
+    with pytest.raises(RuntimeError):
+        write_atomic(tmp_path / "out.toml", broken)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_seat_group_ballast_placed_in_a_lowered_car(tmp_path, capsys):
+    # A lighter driver makes driver + seat short; the under-seat block is made part of the seat group, so it
+    # counts for that rule. The car is also lowered by 10 mm, which moves the chassis group frame: the written
+    # part must be placed in that frame (the file is reloaded and compared by the command itself).
+    plan = tmp_path / "plan.toml"
+    plan.write_text(
+        '[plan]\nname = "seat"\n[targets]\nmass_margin = "0.5 kg"\n'
+        '[defaults]\nmaterial = "tungsten_b777_class3"\nincrement = "0.5 mm"\nmin_thickness = "2 mm"\n'
+        '[[candidate]]\nslot = "floor_front"\nfill = "+z"\n'
+        '[[candidate]]\nslot = "under_seat"\nfill = "+z"\nreplace_existing = true\npath = "chassis/seat/ballast"\n'
+        'chamfer = { size = "1 mm", edges = "z" }\n',
+        encoding="utf-8")
+    out = tmp_path / "seat_ballasted.toml"
+    code = main(["place-ballast", str(CAR), str(plan), "--set", "driver_mass=70 kg", "--set", "ride_height=30 mm",
+                 "--out-model", str(out), "--no-fit"])
+    text = capsys.readouterr().out
+    assert code == 0, text
+    written = out.read_text()
+    assert 'driver_mass = "70 kg"' in written and 'ride_height = "30 mm"' in written
+    assert 'material = "tungsten_b777_class3"' in written  # chamfers along one axis: exact primitives, wedge cut-outs
+    assert 'shape = "wedge"' in written
+    model = load_model(out)
+    assert all(r.passed for r in check_rules(model))
+    seat = [c for c in model.components if c.path.startswith("chassis/seat/ballast")]
+    assert seat and all(c.slot == "under_seat" for c in seat)
+    group = sum(c.props.mass for c in model.select(["driver", "chassis/seat"]))
+    assert group >= 77.5  # limit + margin, met at nominal density and (checked by the command) at the low end
+    # the block sits on the lowered slot floor: slot centre z = floor_top + ride_offset + 15 mm = -232 mm
+    slot_floor = -0.265 + 0.040 + 0.003 - 0.010
+    lowest = min(c.pose.translation[2] - c.shape.size_z / 2 for c in seat)
+    assert lowest == pytest.approx(slot_floor + 0.001, abs=1e-12)  # on the floor, at the 1 mm clearance
