@@ -167,7 +167,7 @@ def test_rules_target_on_the_demo():
     total = sum(c.props.mass for c in model.components if not c.path.startswith("fuel"))
     target, needs = rules_target(model, 0.5, "ballast/floor_front")
     assert target == pytest.approx(425.0 + 0.5 - total, rel=1e-12)
-    assert target == pytest.approx(10.80, abs=0.01)  # parts_demo/README.md: "some 10 kg short"
+    assert 9.0 < target < 12.0  # the demo scenario (parts_demo/README.md): some 10 kg short before ballast
     seat = next(n for n in needs if n.check == "min_group_mass")
     assert not seat.counts  # a floor block is not part of driver + seat
     replaced, _ = rules_target(model, 0.5, "ballast/under_seat", remove=("ballast/seat_block",))

@@ -230,9 +230,8 @@ def test_hidden_by_finds_the_part_in_front(small):
 
 
 def test_title_block_numbers_match_the_model(car):
-    from massmodel.sheet import title_block_rows
-
     from massmodel.report import build_report
+    from massmodel.sheet import title_block_rows
 
     rows = dict(title_block_rows(build_scene(car)))
     rep = build_report(car)
