@@ -135,10 +135,13 @@ class ParameterError(ValueError):
     ----------
     name : str or None
         The parameter at fault (None when the name itself could not be read).
+    message : str
+        What is wrong, without the parameter name.
     """
 
     def __init__(self, name: str | None, message: str) -> None:
         self.name = name
+        self.message = message
         super().__init__(f"parameter '{name}': {message}" if name is not None else message)
 
 

@@ -58,6 +58,8 @@ GROUP_FIELDS = {"path", "colour", "maturity", "mirror", "note"} | PLACEMENT_FIEL
 SLOT_FIELDS = {"name", "shape", "clearance", "note"} | PLACEMENT_FIELDS
 RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note"}
 VEHICLE_FIELDS = {"axes", "wheelbase", "track_front", "track_rear", "front_axle_station", "ground_level"}
+MODEL_FIELDS = {"name", "description", "rulebook", "extends", "remove"}
+AXIS_NAMES = ("forward", "left", "up")
 
 # Colours given to parts with none, by top-level group (sorted), cycling. Muted, distinguishable hues.
 PALETTE = ("#5b7fa6", "#b0704f", "#6d9a62", "#a3628e", "#c2a25a", "#4f9a9a", "#8c7bb8", "#9a9a6a",
@@ -120,7 +122,9 @@ class _Reader:
             result = q.value
         else:
             want = UNIT_KINDS[kind]
-            if q.dim == units.DIMENSIONLESS:
+            if q.dim == units.DIMENSIONLESS and q.value == 0.0:
+                result = 0.0  # zero means the same in every unit
+            elif q.dim == units.DIMENSIONLESS:
                 if kind not in self.defaults:
                     raise self.error(
                         item, field,
@@ -180,10 +184,14 @@ class _Reader:
             linear = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
         return Pose(linear, at)
 
-    def shape(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
+    def shape_kind(self, table: Mapping[str, Any], item: str, prefix: str = "") -> str:
         kind = table.get("shape")
         if not isinstance(kind, str) or kind not in SHAPE_FILE_FIELDS:
             raise self.error(item, prefix + "shape", f"expected one of {', '.join(SHAPE_FILE_FIELDS)}, got {kind!r}")
+        return kind
+
+    def shape(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
+        kind = self.shape_kind(table, item, prefix)
         kwargs: dict[str, Any] = {}
         for name, how in SHAPE_FILE_FIELDS[kind].items():
             if name not in table:
@@ -218,11 +226,16 @@ def _swap_side(path: str) -> str | None:
     return "/".join(swapped) if swapped != segs else None
 
 
-def _read_toml(path: Path, label: str) -> dict[str, Any]:
+def _read_toml(path: Path, label: str, referrer: tuple[str, str, str] | None = None) -> dict[str, Any]:
+    """Parse a TOML file. A file that cannot be read is blamed on ``referrer`` (file, item, field) when given:
+    the mistake is then the reference (e.g. ``rulebook = "..."``), not the missing file."""
     try:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
-        raise ModelFileError(label, None, None, f"cannot read the file ({exc.strerror or exc})") from None
+        reason = exc.strerror or str(exc)
+        if referrer is not None:
+            raise ModelFileError(*referrer, f"cannot read '{path}' ({reason})") from None
+        raise ModelFileError(label, None, None, f"cannot read the file ({reason})") from None
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -278,17 +291,21 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
     by path (a group path removes everything in it). [units] must agree, so that bare numbers keep their meaning.
     """
     head = data.get("model", {})
-    if not isinstance(head, dict) or "extends" not in head:
+    if not isinstance(head, dict):
         return data
     item = "[model]"
+    if "extends" not in head:
+        if "remove" in head:
+            raise ModelFileError(label, item, "remove", "only a model that 'extends' a base file can remove parts")
+        return data
     ref = head["extends"]
     if not isinstance(ref, str):
         raise ModelFileError(label, item, "extends", "expected the path of the base model file")
     base_path = base_dir / ref
     if base_path.resolve() in chain or len(chain) > 8:
         raise ModelFileError(label, item, "extends", f"'{ref}' extends itself (directly or through other files)")
-    base = _resolve_extends(_read_toml(base_path, str(base_path)), str(base_path), base_path.parent,
-                            chain + (base_path.resolve(),))
+    base = _resolve_extends(_read_toml(base_path, str(base_path), (label, item, "extends")), str(base_path),
+                            base_path.parent, chain + (base_path.resolve(),))
     for key in LIST_SECTIONS:
         for table in base.get(key, []):
             if isinstance(table, dict):
@@ -337,8 +354,18 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
     if unknown:
         raise ModelFileError(label, None, None, f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
     head = data.get("model", {})
-    if not isinstance(head, dict) or not isinstance(head.get("name"), str) or not head["name"].strip():
+    if not isinstance(head, dict):
+        raise ModelFileError(label, "[model]", None, "must be a table with at least a 'name'")
+    if not isinstance(head.get("name"), str) or not head["name"].strip():
         raise ModelFileError(label, "[model]", "name", "is missing (every model needs a name)")
+    for key in sorted(set(head) - MODEL_FIELDS):
+        raise ModelFileError(label, "[model]", key, f"unknown field; allowed: {', '.join(sorted(MODEL_FIELDS))}")
+    for key in ("description", "rulebook"):
+        if key in head and not isinstance(head[key], str):
+            raise ModelFileError(label, "[model]", key, f"expected text, got {head[key]!r}")
+    for key in ("units", "materials"):
+        if not isinstance(data.get(key, {}), dict):
+            raise ModelFileError(label, f"[{key}]", None, "must be a table")
 
     defaults: dict[str, float] = {}
     for kind, text in data.get("units", {}).items():
@@ -358,7 +385,9 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
     try:
         env = expr.evaluate_parameters(params, overrides=dict(overrides or {}))
     except expr.ParameterError as exc:
-        raise ModelFileError(label, f"parameter '{exc.name}'", "value", str(exc)) from None
+        if exc.name is not None and exc.name in (overrides or {}):
+            raise ModelFileError(label, f"--set {exc.name}", None, exc.message) from None
+        raise ModelFileError(label, f"parameter '{exc.name}'", "value", exc.message) from None
     rd = _Reader(label, defaults, env)
 
     vehicle = _vehicle(rd, data.get("vehicle"))
@@ -377,17 +406,19 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
                 key, table, lambda f, v, it=item: rd.quantity(v, "density", it, f), flag="user"
             )
         except MaterialError as exc:
-            raise rd.error(item, None, str(exc)) from None
+            raise rd.error(item, exc.field, str(exc).removeprefix(f"material '{key}': ")) from None
 
     groups = _groups(rd, data.get("group", []))
     components: list[Component] = []
-    for i, table in enumerate(_table_list(rd, data, "part")):
-        components.extend(_parts(rd.for_table(table), table, i, groups, materials, mirror))
     seen: dict[str, str] = {}
-    for c in components:
-        if c.path in seen:
-            raise rd.error(c.origin.split(": ", 1)[-1], "path", f"duplicate path '{c.path}' (also {seen[c.path]})")
-        seen[c.path] = c.origin
+    for i, table in enumerate(_table_list(rd, data, "part")):
+        prd = rd.for_table(table)
+        for c in _parts(prd, table, i, groups, materials, mirror):
+            if c.path in seen:
+                raise prd.error(f"part '{table['path']}'", "path",
+                                f"duplicate path '{c.path}' (also made by {seen[c.path]})")
+            seen[c.path] = c.origin
+            components.append(c)
 
     slots = []
     for i, table in enumerate(_table_list(rd, data, "slot")):
@@ -403,7 +434,7 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
     book = head.get("rulebook")
     if book is not None:
         book_path = base_dir / str(book)
-        book_data = _read_toml(book_path, str(book_path))
+        book_data = _read_toml(book_path, str(book_path), (label, "[model]", "rulebook"))
         extra = sorted(set(book_data) - {"rule", "rulebook"})
         if extra:
             raise ModelFileError(str(book_path), None, None, f"unknown section '{extra[0]}'; a rulebook holds [[rule]] tables")
@@ -445,9 +476,11 @@ def _vehicle(rd: _Reader, table: Any) -> Vehicle | None:
         raise rd.error(item, None, "must be a table")
     rd.check_fields(table, VEHICLE_FIELDS, item)
     axes = table.get("axes", {"forward": "+x", "left": "+y", "up": "+z"})
+    if not isinstance(axes, dict) or set(axes) != set(AXIS_NAMES):
+        raise rd.error(item, "axes", "expected { forward = \"+x\", left = \"+y\", up = \"+z\" } (signed model axes)")
     vecs = {}
-    for name in ("forward", "left", "up"):
-        spec = axes.get(name) if isinstance(axes, dict) else None
+    for name in AXIS_NAMES:
+        spec = axes[name] if isinstance(axes[name], str) else None
         m = re.fullmatch(r"([+-])([xyz])", spec or "")
         if not m:
             raise rd.error(item, f"axes.{name}", f"expected a signed model axis such as '+x' or '-z', got {spec!r}")
@@ -533,6 +566,7 @@ def _parts(
 ) -> list[Component]:
     path = _path(rd, table, "part", index)
     item = f"part '{path}'"
+    rd.shape_kind(table, item)
     rd.check_fields(table, PART_FIELDS | _shape_keys(table.get("shape")), item)
     shape = rd.shape(table, item)
     local_pose = rd.pose(table, item)
@@ -566,8 +600,11 @@ def _parts(
             raise rd.error(item, "mass", "must be positive")
     else:
         meas = table["measured"]
-        if not isinstance(meas, dict) or "mass" not in meas or "cg" not in meas:
+        if not isinstance(meas, dict):
             raise rd.error(item, "measured", "expected a table with 'mass', 'cg' and optionally 'inertia'")
+        for key in ("mass", "cg"):
+            if key not in meas:
+                raise rd.error(item, f"measured.{key}", "is missing (measured properties need 'mass' and 'cg')")
         extra = sorted(set(meas) - {"mass", "cg", "inertia"})
         if extra:
             raise rd.error(item, f"measured.{extra[0]}", "unknown field; allowed: mass, cg, inertia")
@@ -632,7 +669,8 @@ def _parts(
         try:
             out.append(Component(
                 path=p, shape=shape, pose=pose, source=source, maturity=maturity, colour=colour,
-                cutouts=cutouts, slot=slot, note=note, origin=f"{rd.file}: part '{p}'", **kw,
+                cutouts=cutouts, slot=slot, note=note,
+                origin=f"{rd.file}: {item}" + (f" (copy '{p}')" if p != path else ""), **kw,
             ))
         except InertiaError as exc:
             raise rd.error(item, "measured.inertia", str(exc).split(": ", 2)[-1]) from None
@@ -650,6 +688,7 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
     scale = float(np.max(np.abs(parent.bounds()))) or 1.0
     for i, ct in enumerate(raw):
         prefix = f"cut[{i}]."
+        rd.shape_kind(ct, item, prefix)
         allowed = {"shape"} | PLACEMENT_FIELDS | _shape_keys(ct.get("shape"))
         unknown = sorted(set(ct) - allowed)
         if unknown:
@@ -700,6 +739,7 @@ def _slot(rd: _Reader, table: dict[str, Any], index: int) -> Slot:
     if not isinstance(name, str) or not name.strip():
         raise rd.error(f"slot #{index + 1}", "name", "is missing")
     item = f"slot '{name}'"
+    rd.shape_kind(table, item)
     rd.check_fields(table, SLOT_FIELDS | _shape_keys(table.get("shape")), item)
     shape = rd.shape(table, item)
     if "clearance" not in table:
@@ -711,7 +751,9 @@ def _slot(rd: _Reader, table: dict[str, Any], index: int) -> Slot:
 
 
 def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> Rule:
-    name = table.get("name") or f"rule #{index + 1}"
+    name = table.get("name", f"rule #{index + 1}")
+    if not isinstance(name, str) or not name.strip():
+        raise rd.error(f"rule #{index + 1}", "name", f"expected non-empty text, got {name!r}")
     item = f"rule '{name}'"
     rd.check_fields(table, RULE_FIELDS, item)
     try:
