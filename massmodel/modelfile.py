@@ -69,9 +69,10 @@ _COLOUR_RE = re.compile(r"^#[0-9a-fA-F]{6}$")
 
 
 class ModelFileError(ValueError):
-    """A problem in a model file, naming the file, the item and the field."""
+    """A problem in a model file, naming the file, the item and the field (one line of text)."""
 
     def __init__(self, file: str, item: str | None, field: str | None, message: str) -> None:
+        message = " ".join(line.strip() for line in message.splitlines() if line.strip())
         self.file = file
         self.item = item
         self.field = field
@@ -111,11 +112,12 @@ class _Reader:
     def quantity(self, value: Any, kind: str, item: str, field: str) -> float:
         """A scalar of the given kind ('length', 'mass', 'angle', 'density', 'inertia', 'number'), SI."""
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
-            raise self.error(item, field, f"expected a {kind} such as '{KIND_EXAMPLE[kind]}', got {value!r}")
+            article = "an" if kind[0] in "aeiou" else "a"
+            raise self.error(item, field, f"expected {article} {kind} such as '{KIND_EXAMPLE[kind]}', got {value!r}")
         try:
             q = expr.evaluate(value, self.env)
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise self.error(item, field, str(exc)) from None
+            raise self.error(item, field, _one_line(exc)) from None
         if kind == "number":
             if not q.dim == units.DIMENSIONLESS:
                 raise self.error(item, field, f"expected a plain number, got a quantity in {q.dim}")
@@ -135,7 +137,8 @@ class _Reader:
             elif q.dim == want:
                 result = q.value
             else:
-                raise self.error(item, field, f"expected a {kind} ({want}), got {value!r} in {q.dim}")
+                article = "an" if kind[0] in "aeiou" else "a"
+                raise self.error(item, field, f"expected {article} {kind} ({want}), got {value!r} in {q.dim}")
         if not np.isfinite(result):
             raise self.error(item, field, f"{value!r} is not a finite number")
         return float(result)
@@ -214,6 +217,16 @@ class _Reader:
         except ShapeError as exc:
             field = getattr(exc, "field", None)
             raise self.error(item, prefix + (field or "shape"), str(exc)) from None
+
+
+def _one_line(exc: Exception) -> str:
+    """An expression error as one line: the message, then where in the text it is."""
+    if isinstance(exc, expr.ExpressionError):
+        where = f" (in '{exc.text}'" if exc.text else ""
+        if where and exc.position is not None:
+            where += f", at character {exc.position + 1}"
+        return exc.message + (where + ")" if where else "")
+    return str(exc)
 
 
 def _shape_keys(kind: Any) -> set[str]:
@@ -352,7 +365,8 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
 def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None) -> Model:
     unknown = sorted(set(data) - TOP_LEVEL_KEYS)
     if unknown:
-        raise ModelFileError(label, None, None, f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
+        raise ModelFileError(label, f"[{unknown[0]}]", None,
+                             f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
     head = data.get("model", {})
     if not isinstance(head, dict):
         raise ModelFileError(label, "[model]", None, "must be a table with at least a 'name'")
@@ -387,7 +401,8 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
     except expr.ParameterError as exc:
         if exc.name is not None and exc.name in (overrides or {}):
             raise ModelFileError(label, f"--set {exc.name}", None, exc.message) from None
-        raise ModelFileError(label, f"parameter '{exc.name}'", "value", exc.message) from None
+        message = _one_line(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
+        raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     rd = _Reader(label, defaults, env)
 
     vehicle = _vehicle(rd, data.get("vehicle"))
@@ -437,7 +452,8 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
         book_data = _read_toml(book_path, str(book_path), (label, "[model]", "rulebook"))
         extra = sorted(set(book_data) - {"rule", "rulebook"})
         if extra:
-            raise ModelFileError(str(book_path), None, None, f"unknown section '{extra[0]}'; a rulebook holds [[rule]] tables")
+            raise ModelFileError(str(book_path), f"[{extra[0]}]", None,
+                                 f"unknown section '{extra[0]}'; a rulebook holds [[rule]] tables")
         brd = _Reader(str(book_path), defaults, env)
         rule_tables.extend((brd, t, i) for i, t in enumerate(_table_list(brd, book_data, "rule")))
     rule_tables.extend((rd.for_table(t), t, i) for i, t in enumerate(_table_list(rd, data, "rule")))
