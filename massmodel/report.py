@@ -11,17 +11,29 @@ import json
 import os
 import tempfile
 from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
+import numpy.typing as npt
 
 from . import cautions
-from .massprops import MassProperties, principal_axes, radii_of_gyration
+from .frames import is_orthogonal
+from .massprops import MassProperties, inertia_about_point, inertia_in_axes, principal_axes, radii_of_gyration
 from .model import Maturity, Model
 from .vehicle import ASSUMPTIONS, Balance, RuleResult, check_rules, static_balance
 
-__all__ = ["DisplayUnits", "build_report", "format_report", "write_json_atomic", "CONVENTIONS", "REPORT_FORMAT"]
+__all__ = [
+    "DisplayUnits",
+    "InertiaRequest",
+    "build_report",
+    "format_report",
+    "inertia_about_entry",
+    "write_json_atomic",
+    "CONVENTIONS",
+    "REPORT_FORMAT",
+]
 
 REPORT_FORMAT = "massmodel-report/1"
 CONVENTIONS = {
@@ -32,7 +44,57 @@ CONVENTIONS = {
     "principal_axes": "rows are unit vectors in model axes, in the order of principal_moments_kg_m2 (ascending), "
     "right-handed",
     "loads": "axle and corner loads as mass-equivalent kg (load / 9.80665 m/s^2)",
+    "inertia_about_points": "tensor of the whole model about point_m (model coordinates), components in the axes "
+    "whose unit vectors (model axes) are the rows of 'axes'; tensor convention",
 }
+
+
+@dataclass(frozen=True, slots=True)
+class InertiaRequest:
+    """A request for the model's inertia tensor about a point, optionally in other axes.
+
+    Parameters
+    ----------
+    point : (3,) float or None
+        m, model coordinates; None means the model's CG.
+    axes : (3, 3) float or None
+        Rows are the unit axes (model axes) to express the tensor in; None means the model axes.
+    label : str
+        How the user wrote it, for the report.
+    axes_label : str
+        How the user named the axes.
+    """
+
+    point: npt.NDArray[np.float64] | None
+    axes: npt.NDArray[np.float64] | None = None
+    label: str = ""
+    axes_label: str = "model"
+
+
+def inertia_about_entry(mp: MassProperties, request: InertiaRequest) -> dict[str, Any]:
+    """The tensor of ``mp`` about a point and in given axes, as report data.
+
+    Parallel-axis theorem to the point (``I_P = I_G + m(|d|² E − d dᵀ)``, d = G − P), then a passive change of
+    axes ``A I Aᵀ`` (rows of A = the new axes); Goldstein, Poole & Safko, *Classical Mechanics* (2002) §5.3.
+
+    Raises
+    ------
+    ValueError
+        When the axes are not orthonormal and right-handed.
+    """
+    point = mp.center if request.point is None else np.asarray(request.point, dtype=float).reshape(3)
+    tensor = inertia_about_point(mp, point)
+    axes = np.eye(3) if request.axes is None else np.asarray(request.axes, dtype=float)
+    if not is_orthogonal(axes) or np.linalg.det(axes) < 0.0:
+        raise ValueError(f"axes {request.axes_label!r} must be orthonormal and right-handed")
+    tensor = inertia_in_axes(tensor, axes)
+    return {
+        "label": request.label or ("cg" if request.point is None else ""),
+        "point_m": point.tolist(),
+        "axes_label": request.axes_label,
+        "axes": axes.tolist(),
+        "inertia_kg_m2": (0.5 * (tensor + tensor.T)).tolist(),
+    }
 
 
 class DisplayUnits(enum.Enum):
@@ -54,8 +116,11 @@ def _props_dict(mp: MassProperties) -> dict[str, Any]:
     return {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
 
 
-def build_report(model: Model) -> dict[str, Any]:
-    """The full report of a model as plain data (JSON-ready, SI)."""
+def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) -> dict[str, Any]:
+    """The full report of a model as plain data (JSON-ready, SI).
+
+    ``inertia_requests`` add the whole model's tensor about user points (key ``inertia_about_points``).
+    """
     total = model.mass_properties()
     out: dict[str, Any] = {
         "format": REPORT_FORMAT,
@@ -82,6 +147,7 @@ def build_report(model: Model) -> dict[str, Any]:
             "pitch": float(model.vehicle.left @ total.inertia @ model.vehicle.left),
             "yaw": float(model.vehicle.up @ total.inertia @ model.vehicle.up),
         }
+    out["inertia_about_points"] = [inertia_about_entry(total, r) for r in inertia_requests]
     out["rules"] = [_rule_dict(r) for r in check_rules(model)]
     out["rules_passed"] = all(r["passed"] for r in out["rules"])
     out["groups"] = []
@@ -171,8 +237,20 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | No
     return "\n".join([line(headers), "  ".join("─" * w for w in widths), *(line(r) for r in rows)])
 
 
+def _num(x: float, spec: str) -> str:
+    """``format(x, spec)``, except that a value that rounds to zero shows no minus sign ("0.0000", not "-0.0000")."""
+    text = format(x, spec)
+    if "-" in text and float(text) == 0.0:
+        text = format(0.0, spec)
+    return text
+
+
 def _vec(v: Sequence[float], scale: float, digits: int) -> str:
-    return "(" + ", ".join(f"{x * scale:.{digits}f}" for x in v) + ")"
+    return "(" + ", ".join(_num(x * scale, f".{digits}f") for x in v) + ")"
+
+
+def _tensor_lines(tensor: Any, scale: float, digits: int) -> list[str]:
+    return ["    [" + "  ".join(_num(x, f">14.{digits}f") for x in row) + " ]" for row in np.asarray(tensor) * scale]
 
 
 def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI, components: bool = True) -> str:
@@ -187,7 +265,7 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append("")
     if components:
         rows = [
-            [c["path"], f"{c['mass_kg']:.3f}", c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
+            [c["path"], _num(c["mass_kg"], ".3f"), c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
             for c in report["components"]
         ]
         out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
@@ -207,32 +285,39 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append(f"  mass            {report['mass_kg']:.3f} kg")
     out.append(f"  CG              {_vec(report['cg_m'], ls, ld)} {lu}")
     if "inertia_cg_kg_m2" in report:
-        t = np.asarray(report["inertia_cg_kg_m2"]) * isc
         out.append(f"  inertia about CG ({iu}, model axes, tensor convention):")
-        for row in t:
-            out.append("    [" + "  ".join(f"{x:>14.{idg}f}" for x in row) + " ]")
+        out.extend(_tensor_lines(report["inertia_cg_kg_m2"], isc, idg))
     if "principal_moments_kg_m2" in report:
         out.append(f"  principal moments {_vec(report['principal_moments_kg_m2'], isc, idg)} {iu} (ascending)")
         for i, ax in enumerate(report["principal_axes"]):
             out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
         out.append(f"  radii of gyration {_vec(report['radii_of_gyration_m'], ls, ld)} {lu} (about CG, model axes)")
+    for entry in report.get("inertia_about_points", []):
+        what = "the CG" if entry["label"] == "cg" else "point"
+        given = f", given as '{entry['label']}'" if entry["label"] not in ("", "cg") else ""
+        out.append(f"  inertia about {what} {_vec(entry['point_m'], ls, ld)} {lu} (model coordinates{given}), {iu}, "
+                   f"{entry['axes_label']} axes, tensor convention:")
+        if entry["axes_label"] != "model":
+            for i, ax in enumerate(entry["axes"]):
+                out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
+        out.extend(_tensor_lines(entry["inertia_kg_m2"], isc, idg))
     if "axle_loads_kg" in report:
         out.append("")
         out.append("VEHICLE BALANCE (static)")
         v = report["inertia_vehicle_axes_kg_m2"]
-        out.append(f"  CG height above ground     {report['cg_height_m'] * ls:.{ld}f} {lu}")
-        out.append(f"  CG behind front axle       {report['cg_behind_front_axle_m'] * ls:.{ld}f} {lu}")
-        out.append(f"  CG left of centre plane    {report['cg_left_of_centre_m'] * ls:.{ld}f} {lu}")
-        out.append(f"  front fraction {report['front_fraction']:.4f}   left fraction {report['left_fraction']:.4f}   "
-                   f"cross (FR+RL) {report['cross_fraction']:.4f}")
-        out.append(f"  roll / pitch / yaw inertia about CG  {v['roll'] * isc:.{idg}f} / {v['pitch'] * isc:.{idg}f} / "
-                   f"{v['yaw'] * isc:.{idg}f} {iu}")
+        out.append(f"  CG height above ground     {_num(report['cg_height_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  CG behind front axle       {_num(report['cg_behind_front_axle_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  CG left of centre plane    {_num(report['cg_left_of_centre_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  front fraction {_num(report['front_fraction'], '.4f')}   left fraction "
+                   f"{_num(report['left_fraction'], '.4f')}   cross (FR+RL) {_num(report['cross_fraction'], '.4f')}")
+        out.append(f"  roll / pitch / yaw inertia about CG  {_num(v['roll'] * isc, f'.{idg}f')} / "
+                   f"{_num(v['pitch'] * isc, f'.{idg}f')} / {_num(v['yaw'] * isc, f'.{idg}f')} {iu}")
         a = report["axle_loads_kg"]
         c = report["corner_loads_kg"]
         out.append(table(
             ["kg", "left", "right", "axle"],
-            [["front", f"{c['front_left']:.2f}", f"{c['front_right']:.2f}", f"{a['front']:.2f}"],
-             ["rear", f"{c['rear_left']:.2f}", f"{c['rear_right']:.2f}", f"{a['rear']:.2f}"]],
+            [["front", _num(c["front_left"], ".2f"), _num(c["front_right"], ".2f"), _num(a["front"], ".2f")],
+             ["rear", _num(c["rear_left"], ".2f"), _num(c["rear_right"], ".2f"), _num(a["rear"], ".2f")]],
         ))
         out.append(f"  assumptions: {report['load_assumptions']}")
     if report["rules"]:
@@ -244,7 +329,10 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
             mar = r["margin"]["value"]
             unit = r["value"]["unit"]
             fmt = ".4f" if unit in ("fraction", "m") else ".2f"
-            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{val:{fmt}} {unit}", r["limit"], f"{mar:+{fmt}} {unit}"])
+            # a failing rule keeps its minus sign even when the margin rounds to zero
+            margin = _num(mar, "+" + fmt) if r["passed"] else format(mar, "+" + fmt)
+            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{_num(val, fmt)} {unit}", r["limit"],
+                         f"{margin} {unit}"])
         out.append(table(["", "rule", "value", "limit", "margin"], rows, "llrrr"))
         out.append("  " + ("all rules pass" if report["rules_passed"] else "SOME RULES FAIL"))
     out.append("")
