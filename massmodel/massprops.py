@@ -211,8 +211,9 @@ def combine_arrays(
         kg.
     centers : (N, 3) float
         Each body's CG, m, common reference frame.
-    inertias : (N, 3, 3) float
-        Each body's tensor about its own CG, kg·m², axes parallel to the reference frame.
+    inertias : (K, 3, 3) float
+        The bodies' tensors about their own CGs, kg·m², axes parallel to the reference frame. Only their sum enters,
+        so K may differ from N (e.g. K = 1: the tensors already summed, as :func:`massmodel.batch.aggregate` does).
 
     Returns
     -------
