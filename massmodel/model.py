@@ -181,10 +181,7 @@ class Component:
                 tensor = (self.mass / volume) * unit if volume > 0.0 else np.zeros((3, 3))
             local = MassProperties(self.mass, self.measured_cg, tensor)
         object.__setattr__(self, "props_local", local)
-        r = self.pose.linear
-        object.__setattr__(
-            self, "props", MassProperties(local.mass, self.pose.apply(local.center), r @ local.inertia @ r.T)
-        )
+        object.__setattr__(self, "props", MassProperties._moved(local, self.pose.linear, self.pose.translation))
 
     @property
     def group(self) -> str:

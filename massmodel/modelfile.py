@@ -10,6 +10,7 @@ import re
 import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
@@ -96,15 +97,26 @@ class _Group:
 class _Reader:
     """Converts TOML values of one file to SI, raising errors with file/item/field context."""
 
-    def __init__(self, file: str, defaults: Mapping[str, float], env: Mapping[str, units.Quantity]) -> None:
+    def __init__(self, file: str, defaults: Mapping[str, float], env: Mapping[str, units.Quantity],
+                 cache: dict[str | float, units.Quantity] | None = None) -> None:
         self.file = file
         self.defaults = defaults
         self.env = env
+        # expression text -> value: the parameters are fixed while a file is read, so each text is evaluated once
+        self.cache: dict[str | float, units.Quantity] = {} if cache is None else cache
 
     def for_table(self, table: dict[str, Any]) -> _Reader:
         """The reader for a table merged from a base file (errors then name that file); pops the marker."""
         source = table.pop(SOURCE_KEY, None)
-        return self if source is None else _Reader(source, self.defaults, self.env)
+        return self if source is None else _Reader(source, self.defaults, self.env, self.cache)
+
+    def evaluate(self, value: int | float | str) -> units.Quantity:
+        """The value of a number or an expression text (remembered per text or number; bools are refused
+        before this)."""
+        q = self.cache.get(value)  # type: ignore[call-overload]
+        if q is None:
+            q = self.cache[value] = expr.evaluate(value, self.env)
+        return q
 
     def error(self, item: str | None, field: str | None, message: str) -> ModelFileError:
         return ModelFileError(self.file, item, field, message)
@@ -115,7 +127,7 @@ class _Reader:
             article = "an" if kind[0] in "aeiou" else "a"
             raise self.error(item, field, f"expected {article} {kind} such as '{KIND_EXAMPLE[kind]}', got {value!r}")
         try:
-            q = expr.evaluate(value, self.env)
+            q = self.evaluate(value)
         except (expr.ExpressionError, units.UnitError) as exc:
             raise self.error(item, field, _one_line(exc)) from None
         if kind == "number":
@@ -426,9 +438,10 @@ def _build(data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mappi
     groups = _groups(rd, data.get("group", []))
     components: list[Component] = []
     seen: dict[str, str] = {}
+    frames: dict[str, Pose] = {}
     for i, table in enumerate(_table_list(rd, data, "part")):
         prd = rd.for_table(table)
-        for c in _parts(prd, table, i, groups, materials, mirror):
+        for c in _parts(prd, table, i, groups, materials, mirror, frames):
             if c.path in seen:
                 raise prd.error(f"part '{table['path']}'", "path",
                                 f"duplicate path '{c.path}' (also made by {seen[c.path]})")
@@ -579,7 +592,10 @@ def _parts(
     groups: Mapping[str, _Group],
     materials: Mapping[str, Material],
     mirror: Pose,
+    frames: dict[str, Pose],
 ) -> list[Component]:
+    """The components one [[part]] table makes (its mirror and pattern copies included); ``frames`` remembers the
+    model-frame pose of each group path."""
     path = _path(rd, table, "part", index)
     item = f"part '{path}'"
     rd.shape_kind(table, item)
@@ -652,9 +668,13 @@ def _parts(
         colour = next((g.colour for g in reversed(enclosing) if g.colour is not None), None) or PALETTE[
             sum(map(ord, path.split("/")[0])) % len(PALETTE)
         ]
-    group_pose = Pose.identity()
-    for g in enclosing:
-        group_pose = group_pose * g.pose
+    parent = path.rpartition("/")[0]
+    group_pose = frames.get(parent)
+    if group_pose is None:
+        group_pose = Pose.identity()
+        for g in enclosing:
+            group_pose = group_pose * g.pose
+        frames[parent] = group_pose
 
     copies: list[tuple[str, Pose]] = []
     if "pattern" in table:
@@ -728,14 +748,21 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
     return tuple(cuts)
 
 
+@lru_cache(maxsize=1)
+def _overlap_grid(n: int = 24) -> np.ndarray:
+    """(n³, 3) sample points in the unit cube, offset so that they miss the faces."""
+    offsets = (np.arange(n) + 0.5 + 0.1234567) / (n + 1)
+    return np.stack(np.meshgrid(offsets, offsets, offsets, indexing="ij"), axis=-1).reshape(-1, 3)
+
+
 def _check_cutouts_disjoint(rd: _Reader, item: str, cuts: Sequence[Cutout], boxes: Sequence[np.ndarray]) -> None:
     """Overlapping cut-outs would be subtracted twice. For each pair whose bounding boxes (part frame) overlap, test a
     sampling grid over the common box (offset so that it misses shared faces); an overlap thinner than about 1/24 of
     that box may escape this test.
     """
-    n = 24
-    offsets = (np.arange(n) + 0.5 + 0.1234567) / (n + 1)
-    unit = np.stack(np.meshgrid(offsets, offsets, offsets, indexing="ij"), axis=-1).reshape(-1, 3)
+    if len(cuts) < 2:
+        return
+    unit = _overlap_grid()
     for i in range(len(cuts)):
         for j in range(i + 1, len(cuts)):
             lo = np.maximum(boxes[i][0], boxes[j][0])

@@ -20,7 +20,14 @@ import numpy.typing as npt
 
 from . import cautions
 from .frames import is_orthogonal
-from .massprops import MassProperties, inertia_about_point, inertia_in_axes, principal_axes, radii_of_gyration
+from .massprops import (
+    MassProperties,
+    combine_arrays,
+    inertia_about_point,
+    inertia_in_axes,
+    principal_axes,
+    radii_of_gyration,
+)
 from .model import Maturity, Model
 from .vehicle import ASSUMPTIONS, Balance, RuleResult, check_rules, static_balance
 
@@ -30,6 +37,7 @@ __all__ = [
     "build_report",
     "format_report",
     "inertia_about_entry",
+    "json_text",
     "write_json_atomic",
     "CONVENTIONS",
     "REPORT_FORMAT",
@@ -150,11 +158,7 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
     out["inertia_about_points"] = [inertia_about_entry(total, r) for r in inertia_requests]
     out["rules"] = [_rule_dict(r) for r in check_rules(model)]
     out["rules_passed"] = all(r["passed"] for r in out["rules"])
-    out["groups"] = []
-    for g in model.groups():
-        members = model.select([g])
-        mp = model.mass_properties([g])
-        out["groups"].append({"path": g, "parts": len(members), **_props_dict(mp)})
+    out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in _group_rollups(model)]
     out["maturity_kg"] = {
         m.value: float(sum(c.props.mass for c in model.components if c.maturity is m)) for m in Maturity
     }
@@ -175,6 +179,27 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
     ]
     out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
     out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
+    return out
+
+
+def _group_rollups(model: Model) -> list[tuple[str, int, MassProperties]]:
+    """(group path, number of parts, combined properties) of every group, sorted by path.
+
+    One pass over the paths builds each group's member list (a part lies in every proper prefix of its path), so
+    the cost grows with the number of parts times their depth, not with parts times groups.
+    """
+    members: dict[str, list[int]] = {}
+    for i, c in enumerate(model.components):
+        segs = c.path.split("/")
+        for k in range(1, len(segs)):
+            members.setdefault("/".join(segs[:k]), []).append(i)
+    if not members:
+        return []
+    masses, centers, inertias = model.arrays()
+    out = []
+    for g in sorted(members):
+        idx = np.array(members[g])
+        out.append((g, len(idx), MassProperties(*combine_arrays(masses[idx], centers[idx], inertias[idx]))))
     return out
 
 
@@ -209,15 +234,37 @@ def _rule_dict(r: RuleResult) -> dict[str, Any]:
     }
 
 
+def json_text(data: Any) -> str:
+    """JSON text laid out for people and written fast.
+
+    The members of the top-level object and of the objects in it go one per line, a list of objects (components,
+    groups, rules) one element per line, and everything deeper is compact. Only the standard library's C encoder
+    is used (indented output would take the slow pure-Python one: seconds for a model of 10,000 components). NaN
+    and infinities are refused (ValueError).
+    """
+    return _layout(data, 0)
+
+
+def _layout(value: Any, depth: int) -> str:
+    pad, inner = "  " * depth, "  " * (depth + 1)
+    if isinstance(value, dict) and value and depth < 2:
+        members = (f"{inner}{json.dumps(str(k))}: {_layout(v, depth + 1)}" for k, v in value.items())
+        return "{\n" + ",\n".join(members) + "\n" + pad + "}"
+    if isinstance(value, list) and value and depth < 2 and all(isinstance(v, dict) for v in value):
+        return "[\n" + ",\n".join(inner + json.dumps(v, allow_nan=False) for v in value) + "\n" + pad + "]"
+    return json.dumps(value, allow_nan=False)
+
+
 def write_json_atomic(data: Any, path: str | Path) -> None:
-    """Write JSON to ``path`` through a temporary file in the same folder and a rename (never half-written)."""
+    """Write JSON (:func:`json_text`) to ``path`` through a temporary file in the same folder and a rename (never
+    half-written)."""
     target = Path(path)
+    text = json_text(data) + "\n"
     target.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2, allow_nan=False)
-            fh.write("\n")
+            fh.write(text)
         os.replace(tmp, target)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
