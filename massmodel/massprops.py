@@ -164,6 +164,23 @@ class MassProperties:
         return cls(mass, np.asarray(center, dtype=float), np.zeros((3, 3)))
 
     @classmethod
+    def _valid_tensor(cls, mass: float, center: npt.ArrayLike, inertia: FloatArray) -> MassProperties:
+        """Like the constructor, for a tensor already known to be physical (a closed form of a valid primitive, or
+        one validated by the caller): mass and centre are checked, the tensor is not checked again."""
+        mass = float(mass)
+        if not math.isfinite(mass) or mass < 0.0:
+            raise InertiaError(f"mass must be finite and >= 0 kg, got {mass!r}")
+        c = np.array(center, dtype=float).reshape(3)
+        if not all(math.isfinite(x) for x in c.tolist()):
+            raise InertiaError("centre of mass must be finite")
+        out = object.__new__(cls)
+        c.setflags(write=False)
+        object.__setattr__(out, "mass", mass)
+        object.__setattr__(out, "center", c)
+        object.__setattr__(out, "inertia", _frozen(inertia, (3, 3)))
+        return out
+
+    @classmethod
     def _moved(cls, mp: MassProperties, linear: FloatArray, translation: FloatArray) -> MassProperties:
         """``mp`` moved actively by an orthogonal ``linear`` (checked by the caller) and ``translation``.
 
@@ -172,9 +189,14 @@ class MassProperties:
         """
         out = object.__new__(cls)
         inertia = linear @ mp.inertia @ linear.T
+        inertia += inertia.T
+        inertia *= 0.5
+        center = linear @ mp.center + translation
+        center.setflags(write=False)
+        inertia.setflags(write=False)
         object.__setattr__(out, "mass", mp.mass)
-        object.__setattr__(out, "center", _frozen(linear @ mp.center + translation, (3,)))
-        object.__setattr__(out, "inertia", _frozen(0.5 * (inertia + inertia.T), (3, 3)))
+        object.__setattr__(out, "center", center)
+        object.__setattr__(out, "inertia", inertia)
         return out
 
     @classmethod

@@ -162,10 +162,15 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
     out["maturity_kg"] = {
         m.value: float(sum(c.props.mass for c in model.components if c.maturity is m)) for m in Maturity
     }
+    masses, centers, inertias = model._all_arrays()
+    # one conversion of the stacked arrays to lists instead of three small ones per component
+    rows = zip(masses.tolist(), centers.tolist(), inertias.tolist(), strict=True)
     out["components"] = [
         {
             "path": c.path,
-            **_props_dict(c.props),
+            "mass_kg": mass,
+            "cg_m": cg,
+            "inertia_cg_kg_m2": tensor,
             "volume_m3": c.volume if c.volume > 0 else None,
             "mass_source": c.source.value,
             "material": c.material,
@@ -175,7 +180,7 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
             "slot": c.slot,
             "colour": c.colour,
         }
-        for c in model.components
+        for c, (mass, cg, tensor) in zip(model.components, rows, strict=True)
     ]
     out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
     out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
@@ -195,7 +200,7 @@ def _group_rollups(model: Model) -> list[tuple[str, int, MassProperties]]:
             members.setdefault("/".join(segs[:k]), []).append(i)
     if not members:
         return []
-    masses, centers, inertias = model.arrays()
+    masses, centers, inertias = model._all_arrays()
     out = []
     for g in sorted(members):
         idx = np.array(members[g])
