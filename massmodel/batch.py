@@ -257,8 +257,7 @@ def _check_orthogonal(cols: FloatArray, offset: int) -> None:
             if i == j:
                 g -= 1.0
             np.abs(g, out=g)
-            np.fmax(worst, g, out=worst)
-            worst[np.isnan(g)] = np.inf
+            np.maximum(worst, g, out=worst)  # NaN propagates and fails the test below
     bad = ~(worst <= ORTHOGONALITY_TOL)
     if bad.any():
         k = int(np.argmax(bad))
