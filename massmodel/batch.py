@@ -91,11 +91,11 @@ class UnitProperties:
 
 def _taper(r0: FloatArray, r1: FloatArray, n: int, m: int) -> FloatArray:
     """∫₀¹ tᵐ r(t)ⁿ dt for r(t) = r0 (1 − t) + r1 t, exactly (Bernstein form, as :mod:`massmodel.shapes`)."""
-    return sum(
-        math.comb(n, i) * r0 ** (n - i) * r1**i * (math.factorial(m + i) * math.factorial(n - i)
-                                                     / math.factorial(n + m + 1))
-        for i in range(n + 1)
-    )
+    total = np.zeros_like(r0)
+    for i in range(n + 1):
+        total += math.comb(n, i) * r0 ** (n - i) * r1**i * (math.factorial(m + i) * math.factorial(n - i)
+                                                             / math.factorial(n + m + 1))
+    return total
 
 
 def _check_dims(kind: str, dims: npt.ArrayLike) -> FloatArray:

@@ -221,11 +221,12 @@ class _Reader:
                 raise self.error(item, "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
             values = tuple(self.scalar(a, "angle", item, "rotate.angles", i) for i, a in enumerate(angles))
             key = (kinds[0], axes, values)
-            linear = self.rotations.get(key)
-            if linear is None:  # the same rotation recurs often (read-only, so poses may share it)
-                linear = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
-                linear.setflags(write=False)
-                self.rotations[key] = linear
+            known = self.rotations.get(key)
+            if known is None:  # the same rotation recurs often (read-only, so poses may share it)
+                known = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
+                known.setflags(write=False)
+                self.rotations[key] = known
+            linear = known
         return Pose._trusted(linear, at)
 
     def shape_kind(self, table: Mapping[str, Any], item: str, prefix: str = "") -> str:
@@ -387,6 +388,7 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
         raise ModelFileError(label, item, "remove", "expected a list of part or group paths of the base model")
     merged: dict[str, Any] = {k: v for k, v in base.items() if k not in ("model",)}
     base_head = dict(base.get("model", {}))
+    merged_rulebook: str | None
     if "rulebook" in base_head and "rulebook" not in head:
         merged_rulebook = str((base_path.parent / str(base_head["rulebook"])).resolve())
     else:
@@ -780,7 +782,7 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
         if shape.volume() <= 0.0:
             raise rd.error(item, prefix + "shape", "a cut-out needs a volume")
         pose = rd.pose(ct, item)
-        pts = pose.apply(shape.surface_points(400))
+        pts = pose.apply(_surface_samples(shape))
         inside = parent.contains(pts, tol=1e-9 * scale)
         if not np.all(inside):
             worst = pts[~inside][0] * 1000.0
@@ -793,6 +795,14 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
         boxes.append(np.array([pts.min(axis=0), pts.max(axis=0)]))
     _check_cutouts_disjoint(rd, item, cuts, boxes)
     return tuple(cuts)
+
+
+@lru_cache(maxsize=512)
+def _surface_samples(shape: Any) -> np.ndarray:
+    """About 400 points on a cut-out's surface (shapes are immutable and hashable; the same hole recurs)."""
+    points = shape.surface_points(400)
+    points.setflags(write=False)
+    return points
 
 
 @lru_cache(maxsize=1)
