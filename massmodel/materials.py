@@ -10,7 +10,7 @@ import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import lru_cache
-from importlib import resources
+from pathlib import Path
 from types import MappingProxyType
 
 __all__ = ["Material", "MaterialError", "builtin_materials", "material_from_fields"]
@@ -118,7 +118,9 @@ def builtin_materials() -> Mapping[str, Material]:
     from .expr import evaluate
     from .units import DENSITY
 
-    text = resources.files("massmodel").joinpath("data/materials.toml").read_text(encoding="utf-8")
+    # the data file ships inside the package (package-data in pyproject.toml); a plain path read keeps
+    # importlib.resources (and zipfile) out of the start-up of every command
+    text = (Path(__file__).parent / "data" / "materials.toml").read_text(encoding="utf-8")
     data = tomllib.loads(text)
 
     def density(name: str, value: object) -> float:

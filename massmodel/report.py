@@ -9,7 +9,6 @@ from __future__ import annotations
 import enum
 import json
 import os
-import tempfile
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -266,6 +265,8 @@ def write_json_atomic(data: Any, path: str | Path) -> None:
     target = Path(path)
     text = json_text(data) + "\n"
     target.parent.mkdir(parents=True, exist_ok=True)
+    import tempfile  # only when writing (keeps the start-up of `massmodel report` light)
+
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
