@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import argparse
+import re
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
 
 from .cli import EXIT_FAIL
 
-__all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from_args"]
+__all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from_args", "parse_point", "parse_axes"]
 
 
 def add_model_arguments(p: argparse.ArgumentParser) -> None:
@@ -49,6 +52,16 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--strict", action="store_true", help="exit 1 when a rule check fails")
     p.add_argument("--all-cases", action="store_true",
                    help="the base and every load case side by side (mass, CG, axle and corner loads, inertia, rules)")
+    p.add_argument(
+        "--inertia-about", dest="inertia_about", action="append", default=[], metavar="POINT",
+        help="also give the tensor of the whole model about POINT, model coordinates with units, e.g. "
+        "'0 mm, 0 mm, -265 mm' (model parameters may be used: '0, 0, ground_z'), or 'cg' (repeatable)",
+    )
+    p.add_argument(
+        "--inertia-axes", dest="inertia_axes", default="model", metavar="AXES",
+        help="axes of the --inertia-about tensors: 'model' (default), 'vehicle' (forward, left, up) or a rotation "
+        "of the model axes such as 'extrinsic y: 10 deg' or 'intrinsic zyx: 30 deg, 0, 5 deg'",
+    )
     p.set_defaults(run=_report)
 
     p = sub.add_parser("check", help="validate a model file and its rules without a report")
@@ -59,13 +72,89 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(run=_materials)
 
 
+def parse_point(text: str, env: Mapping[str, Any]) -> Any:
+    """A point given on the command line: three lengths with units separated by commas (SI result, (3,) m).
+
+    Each coordinate is an expression of the model-file language and may use the model's parameters; a bare 0 needs
+    no unit. ``"cg"`` gives None (the model's CG).
+    """
+    import numpy as np
+
+    from .expr import ExpressionError, evaluate
+    from .units import DIMENSIONLESS, LENGTH, UnitError
+
+    if text.strip().lower() == "cg":
+        return None
+    parts = text.split(",")
+    if len(parts) != 3:
+        raise ValueError(f"--inertia-about {text!r}: expected three coordinates with units, e.g. '0 mm, 0 mm, -265 mm'")
+    out = []
+    for axis, part in zip("xyz", parts, strict=True):
+        try:
+            q = evaluate(part.strip(), env)
+        except (ExpressionError, UnitError) as exc:
+            raise ValueError(f"--inertia-about {text!r}, {axis}: {exc.args[0].splitlines()[0]}") from None
+        if q.dim == DIMENSIONLESS and q.value == 0.0:
+            out.append(0.0)
+        elif q.dim == LENGTH:
+            out.append(q.value)
+        else:
+            raise ValueError(f"--inertia-about {text!r}, {axis}: expected a length with a unit such as '250 mm'")
+    return np.array(out)
+
+
+def parse_axes(text: str, vehicle: Any, env: Mapping[str, Any]) -> Any:
+    """Axes named on the command line, as (3, 3) rows of unit vectors in model axes (None for the model axes).
+
+    ``"vehicle"``: forward, left, up of the model's vehicle. ``"extrinsic SEQ: a1, a2, ..."`` or
+    ``"intrinsic SEQ: ..."``: the model axes rotated as a part's ``rotate`` table would rotate them (see
+    :mod:`massmodel.frames`); the rows are the rotated axes, i.e. the columns of the rotation matrix.
+    """
+
+    from .expr import ExpressionError, evaluate
+    from .frames import RotationKind, rotation_from_sequence
+    from .units import ANGLE, DIMENSIONLESS, UnitError
+
+    spec = text.strip()
+    if spec.lower() == "model":
+        return None
+    if spec.lower() == "vehicle":
+        if vehicle is None:
+            raise ValueError("--inertia-axes vehicle: the model has no [vehicle] section")
+        return vehicle.basis
+    m = re.fullmatch(r"(extrinsic|intrinsic)\s+([xyz]{1,3})\s*:(.*)", spec)
+    if not m:
+        raise ValueError(f"--inertia-axes {text!r}: expected 'model', 'vehicle' or a rotation such as "
+                         "'extrinsic y: 10 deg'")
+    angles = []
+    for part in m.group(3).split(","):
+        try:
+            q = evaluate(part.strip(), env)
+        except (ExpressionError, UnitError) as exc:
+            raise ValueError(f"--inertia-axes {text!r}: {exc.args[0].splitlines()[0]}") from None
+        if q.dim == DIMENSIONLESS and q.value == 0.0:
+            angles.append(0.0)
+        elif q.dim == ANGLE:
+            angles.append(q.value)
+        else:
+            raise ValueError(f"--inertia-axes {text!r}: angles need a unit, e.g. '10 deg'")
+    if len(angles) != len(m.group(2)):
+        raise ValueError(f"--inertia-axes {text!r}: expected {len(m.group(2))} angles for '{m.group(2)}'")
+    return rotation_from_sequence(RotationKind(m.group(1)), m.group(2), tuple(angles)).T.copy()
+
+
 def _report(args: argparse.Namespace) -> int:
-    from .report import DisplayUnits, build_report, format_report, write_json_atomic
+    from .report import DisplayUnits, InertiaRequest, build_report, format_report, write_json_atomic
 
     if args.all_cases:
         return _report_cases(args)
     model = load_from_args(args)
-    report = build_report(model)
+    axes = parse_axes(args.inertia_axes, model.vehicle, model.parameters)
+    requests = [
+        InertiaRequest(parse_point(text, model.parameters), axes, label=text.strip(), axes_label=args.inertia_axes)
+        for text in args.inertia_about
+    ]
+    report = build_report(model, requests)
     print(format_report(report, DisplayUnits(args.units), components=not args.brief))
     if args.json:
         write_json_atomic(report, args.json)

@@ -54,6 +54,7 @@ import operator
 import re
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 from massmodel.units import ANGLE, DIMENSIONLESS, UNIT_NAMES, UNITS, Quantity, UnitError, unit_product
 
@@ -135,10 +136,13 @@ class ParameterError(ValueError):
     ----------
     name : str or None
         The parameter at fault (None when the name itself could not be read).
+    message : str
+        What is wrong, without the parameter name.
     """
 
     def __init__(self, name: str | None, message: str) -> None:
         self.name = name
+        self.message = message
         super().__init__(f"parameter '{name}': {message}" if name is not None else message)
 
 
@@ -371,7 +375,7 @@ class _Parser:
                 continue
             break
         try:
-            return _Const(Quantity(value, DIMENSIONLESS) * unit_product(parts), token.pos)
+            return _Const(Quantity(value, DIMENSIONLESS) * _unit_size(tuple(parts)), token.pos)
         except UnitError as exc:
             raise self.error(str(exc), token.pos) from None
 
@@ -424,7 +428,15 @@ class _Parser:
         return _Apply(name, tuple(args), token.pos)
 
 
+@lru_cache(maxsize=256)
+def _unit_size(parts: tuple[tuple[str, int, bool], ...]) -> Quantity:
+    """:func:`massmodel.units.unit_product`, remembered: a model file names the same few units thousands of times."""
+    return unit_product(parts)
+
+
+@lru_cache(maxsize=8192)
 def _parse(text: str) -> _Node:
+    """Syntax tree of an expression text (trees are immutable, so the same text is parsed once)."""
     if len(text) > MAX_LENGTH:
         raise ExpressionError(
             f"expression is too long ({len(text)} characters; the limit is {MAX_LENGTH})", text

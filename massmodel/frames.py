@@ -25,6 +25,7 @@ Goldstein, Poole & Safko, *Classical Mechanics*, 3rd ed., §4.4 (Euler angles; a
 from __future__ import annotations
 
 import enum
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -100,13 +101,29 @@ def rotation_from_sequence(kind: RotationKind, axes: str, angles: tuple[float, .
     """
     if len(axes) != len(angles) or not 1 <= len(axes) <= 3:
         raise ValueError(f"rotation sequence {axes!r} needs one angle per axis, got {len(angles)} angles")
-    result = np.eye(3)
+    result = [[1.0, 0.0, 0.0], [0.0, 1.0, 0.0], [0.0, 0.0, 1.0]]
     for axis, angle in zip(axes, angles, strict=True):
-        step = elementary_rotation(axis, angle)
+        step = _elementary(axis, angle)
         # Extrinsic: each new rotation is applied in the fixed frame (pre-multiply);
         # intrinsic: about the moving axes (post-multiply).
-        result = step @ result if kind is RotationKind.EXTRINSIC else result @ step
-    return result
+        result = _matmul(step, result) if kind is RotationKind.EXTRINSIC else _matmul(result, step)
+    return np.array(result)
+
+
+def _elementary(axis: str, angle: float) -> list[list[float]]:
+    """:func:`elementary_rotation` as nested lists (the sequence is multiplied out on floats: it runs per part)."""
+    c, s = math.cos(angle), math.sin(angle)
+    if axis == "x":
+        return [[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]]
+    if axis == "y":
+        return [[c, 0.0, s], [0.0, 1.0, 0.0], [-s, 0.0, c]]
+    if axis == "z":
+        return [[c, -s, 0.0], [s, c, 0.0], [0.0, 0.0, 1.0]]
+    raise ValueError(f"rotation axis must be 'x', 'y' or 'z', not {axis!r}")
+
+
+def _matmul(a: list[list[float]], b: list[list[float]]) -> list[list[float]]:
+    return [[a[i][0] * b[0][j] + a[i][1] * b[1][j] + a[i][2] * b[2][j] for j in range(3)] for i in range(3)]
 
 
 def reflection_across_plane(normal: npt.ArrayLike) -> FloatArray:
@@ -123,9 +140,22 @@ def reflection_across_plane(normal: npt.ArrayLike) -> FloatArray:
 
 
 def is_orthogonal(matrix: npt.ArrayLike, tol: float = 1e-9) -> bool:
-    """True when ``matrix`` is a 3×3 orthogonal matrix (rotation or reflection) to ``tol``."""
+    """True when ``matrix`` is a 3×3 orthogonal matrix (rotation or reflection) to ``tol``.
+
+    The test of ``numpy.allclose(m @ m.T, E, atol=tol)`` (so a relative tolerance of 1e-5 on the unit diagonal),
+    written out on the nine floats because it runs for every pose a model file makes. NaN fails.
+    """
     m = np.asarray(matrix, dtype=float)
-    return m.shape == (3, 3) and bool(np.allclose(m @ m.T, np.eye(3), atol=tol))
+    if m.shape != (3, 3):
+        return False
+    r = m.tolist()
+    for i in range(3):
+        for j in range(i, 3):
+            g = r[i][0] * r[j][0] + r[i][1] * r[j][1] + r[i][2] * r[j][2]
+            ok = abs(g - 1.0) <= tol + 1e-5 if i == j else abs(g) <= tol
+            if not ok:
+                return False
+    return True
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -148,7 +178,7 @@ class Pose:
         translation = np.array(self.translation, dtype=float).reshape(3)
         if not is_orthogonal(linear):
             raise ValueError("pose matrix must be orthogonal (a rotation or a reflection)")
-        if not (np.all(np.isfinite(linear)) and np.all(np.isfinite(translation))):
+        if not all(math.isfinite(x) for x in (*linear.ravel().tolist(), *translation.tolist())):
             raise ValueError("pose must be finite")
         linear.setflags(write=False)
         translation.setflags(write=False)
@@ -156,14 +186,27 @@ class Pose:
         object.__setattr__(self, "translation", translation)
 
     @classmethod
+    def _trusted(cls, linear: FloatArray, translation: FloatArray) -> Pose:
+        """A pose from arrays known to be valid (products and inverses of valid poses): no checks, no copies."""
+        pose = object.__new__(cls)
+        linear.setflags(write=False)
+        translation.setflags(write=False)
+        object.__setattr__(pose, "linear", linear)
+        object.__setattr__(pose, "translation", translation)
+        return pose
+
+    @classmethod
     def identity(cls) -> Pose:
         """The pose that leaves coordinates unchanged."""
-        return cls(np.eye(3), np.zeros(3))
+        return cls._trusted(np.eye(3), np.zeros(3))
 
     @classmethod
     def from_translation(cls, translation: npt.ArrayLike) -> Pose:
         """A pure translation, m."""
-        return cls(np.eye(3), np.asarray(translation, dtype=float))
+        t = np.array(translation, dtype=float).reshape(3)
+        if not np.isfinite(t).all():
+            raise ValueError("pose must be finite")
+        return cls._trusted(np.eye(3), t)
 
     @property
     def is_mirrored(self) -> bool:
@@ -181,11 +224,12 @@ class Pose:
 
     def __mul__(self, other: Pose) -> Pose:
         """``self * other`` is ``other`` followed by ``self``."""
-        return Pose(self.linear @ other.linear, self.linear @ other.translation + self.translation)
+        # a product of orthogonal matrices is orthogonal: no new checks (round-off grows by ~1e-16 per product)
+        return Pose._trusted(self.linear @ other.linear, self.linear @ other.translation + self.translation)
 
     def inverse(self) -> Pose:
         """The pose mapping parent coordinates back to the child frame."""
-        return Pose(self.linear.T, -(self.linear.T @ self.translation))
+        return Pose._trusted(self.linear.T.copy(), -(self.linear.T @ self.translation))
 
     def matrix4(self) -> FloatArray:
         """Homogeneous 4×4 matrix of this pose (translation in m)."""

@@ -18,6 +18,7 @@ References
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -79,17 +80,28 @@ def validate_inertia(inertia: npt.ArrayLike, *, what: str = "inertia tensor", rt
     m = np.array(inertia, dtype=float)
     if m.shape != (3, 3):
         raise InertiaError(f"{what}: must be 3x3, got shape {m.shape}")
-    if not np.all(np.isfinite(m)):
+    # scalar checks on the nine floats (this runs for every component, where numpy's per-call cost dominates)
+    (a, b, c), (d, e, f), (g, h, k) = m.tolist()
+    entries = (a, b, c, d, e, f, g, h, k)
+    if not all(math.isfinite(x) for x in entries):
         raise InertiaError(f"{what}: contains a non-finite value")
-    scale = float(np.max(np.abs(m)))
+    scale = max(abs(x) for x in entries)
     if scale == 0.0:
         return m
     tol = rtol * scale
-    asym = float(np.max(np.abs(m - m.T)))
+    asym = max(abs(b - d), abs(c - g), abs(f - h))
     if asym > max(tol, 1e-6 * scale):
         raise InertiaError(f"{what}: not symmetric (largest |I_ij - I_ji| = {asym:.6g} kg*m^2)")
-    m = 0.5 * (m + m.T)
-    eig = np.linalg.eigvalsh(m)
+    if b == 0.0 and c == 0.0 and f == 0.0 and d == 0.0 and g == 0.0 and h == 0.0:
+        # diagonal (most closed forms): the moments are the diagonal, checked on floats
+        lo = min(a, e, k)
+        total = a + e + k
+        if lo >= -max(tol, 1e-9 * scale) and max(a, e, k) - (total - max(a, e, k)) <= max(tol, 1e-9 * scale):
+            return m
+        eig = np.array(sorted((a, e, k)))
+    else:
+        m = 0.5 * (m + m.T)
+        eig = np.linalg.eigvalsh(m)
     if eig[0] < -max(tol, 1e-9 * scale):
         raise InertiaError(
             f"{what}: not positive semi-definite (principal moments {np.array2string(eig, precision=6)} kg*m^2)"
@@ -137,10 +149,10 @@ class MassProperties:
 
     def __post_init__(self) -> None:
         mass = float(self.mass)
-        if not np.isfinite(mass) or mass < 0.0:
+        if not math.isfinite(mass) or mass < 0.0:
             raise InertiaError(f"mass must be finite and >= 0 kg, got {mass!r}")
         center = np.array(self.center, dtype=float).reshape(3)
-        if not np.all(np.isfinite(center)):
+        if not all(math.isfinite(x) for x in center.tolist()):
             raise InertiaError("centre of mass must be finite")
         object.__setattr__(self, "mass", mass)
         object.__setattr__(self, "center", _frozen(center, (3,)))
@@ -150,6 +162,42 @@ class MassProperties:
     def point(cls, mass: float, center: npt.ArrayLike) -> MassProperties:
         """A point mass (kg) at ``center`` (m)."""
         return cls(mass, np.asarray(center, dtype=float), np.zeros((3, 3)))
+
+    @classmethod
+    def _valid_tensor(cls, mass: float, center: npt.ArrayLike, inertia: FloatArray) -> MassProperties:
+        """Like the constructor, for a tensor already known to be physical (a closed form of a valid primitive, or
+        one validated by the caller): mass and centre are checked, the tensor is not checked again."""
+        mass = float(mass)
+        if not math.isfinite(mass) or mass < 0.0:
+            raise InertiaError(f"mass must be finite and >= 0 kg, got {mass!r}")
+        c = np.array(center, dtype=float).reshape(3)
+        if not all(math.isfinite(x) for x in c.tolist()):
+            raise InertiaError("centre of mass must be finite")
+        out = object.__new__(cls)
+        c.setflags(write=False)
+        object.__setattr__(out, "mass", mass)
+        object.__setattr__(out, "center", c)
+        object.__setattr__(out, "inertia", _frozen(inertia, (3, 3)))
+        return out
+
+    @classmethod
+    def _moved(cls, mp: MassProperties, linear: FloatArray, translation: FloatArray) -> MassProperties:
+        """``mp`` moved actively by an orthogonal ``linear`` (checked by the caller) and ``translation``.
+
+        The moved tensor ``R I Rᵀ`` has the eigenvalues of a tensor already validated, so it is not validated again
+        (this runs for every component of a model).
+        """
+        out = object.__new__(cls)
+        inertia = linear @ mp.inertia @ linear.T
+        inertia += inertia.T
+        inertia *= 0.5
+        center = linear @ mp.center + translation
+        center.setflags(write=False)
+        inertia.setflags(write=False)
+        object.__setattr__(out, "mass", mp.mass)
+        object.__setattr__(out, "center", center)
+        object.__setattr__(out, "inertia", inertia)
+        return out
 
     @classmethod
     def zero(cls) -> MassProperties:
@@ -211,8 +259,9 @@ def combine_arrays(
         kg.
     centers : (N, 3) float
         Each body's CG, m, common reference frame.
-    inertias : (N, 3, 3) float
-        Each body's tensor about its own CG, kg·m², axes parallel to the reference frame.
+    inertias : (K, 3, 3) float
+        The bodies' tensors about their own CGs, kg·m², axes parallel to the reference frame. Only their sum enters,
+        so K may differ from N (e.g. K = 1: the tensors already summed, as :func:`massmodel.batch.aggregate` does).
 
     Returns
     -------

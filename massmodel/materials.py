@@ -10,14 +10,18 @@ import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import lru_cache
-from importlib import resources
+from pathlib import Path
 from types import MappingProxyType
 
 __all__ = ["Material", "MaterialError", "builtin_materials", "material_from_fields"]
 
 
 class MaterialError(ValueError):
-    """A material entry that cannot be used."""
+    """A material entry that cannot be used; ``field`` names the offending field when there is one."""
+
+    def __init__(self, message: str, field: str | None = None) -> None:
+        super().__init__(message)
+        self.field = field
 
 
 @dataclass(frozen=True, slots=True)
@@ -52,13 +56,14 @@ class Material:
         for label, value in (("density", self.density), ("density_min", self.density_min),
                              ("density_max", self.density_max)):
             if value is not None and not (value > 0.0 and value < float("inf")):
-                raise MaterialError(f"material '{self.key}': {label} must be a positive finite density")
+                raise MaterialError(f"material '{self.key}': {label} must be a positive finite density", label)
         lo = self.density_min if self.density_min is not None else self.density
         hi = self.density_max if self.density_max is not None else self.density
         if not lo <= self.density <= hi:
             raise MaterialError(
                 f"material '{self.key}': density {self.density:g} kg/m^3 lies outside its band "
-                f"[{lo:g}, {hi:g}] kg/m^3"
+                f"[{lo:g}, {hi:g}] kg/m^3",
+                "density",
             )
 
     @property
@@ -86,9 +91,11 @@ def material_from_fields(key: str, fields: Mapping[str, object], parse_density: 
     known = {"name", "density", "density_min", "density_max", "source", "flag"}
     unknown = set(fields) - known
     if unknown:
-        raise MaterialError(f"material '{key}': unknown field(s) {sorted(unknown)}; known: {sorted(known)}")
+        raise MaterialError(
+            f"material '{key}': unknown field(s) {sorted(unknown)}; known: {sorted(known)}", sorted(unknown)[0]
+        )
     if "density" not in fields:
-        raise MaterialError(f"material '{key}': field 'density' is missing")
+        raise MaterialError(f"material '{key}': field 'density' is missing", "density")
     conv = parse_density  # callable
 
     def opt(name: str) -> float | None:
@@ -111,7 +118,9 @@ def builtin_materials() -> Mapping[str, Material]:
     from .expr import evaluate
     from .units import DENSITY
 
-    text = resources.files("massmodel").joinpath("data/materials.toml").read_text(encoding="utf-8")
+    # the data file ships inside the package (package-data in pyproject.toml); a plain path read keeps
+    # importlib.resources (and zipfile) out of the start-up of every command
+    text = (Path(__file__).parent / "data" / "materials.toml").read_text(encoding="utf-8")
     data = tomllib.loads(text)
 
     def density(name: str, value: object) -> float:

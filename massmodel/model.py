@@ -170,25 +170,31 @@ class Component:
                 raise ValueError(f"{where}: a density source needs a positive density")
             if volume <= 0.0:
                 raise ValueError(f"{where}: the shape has no volume, so density cannot give a mass")
-            local = MassProperties(self.density * volume, centroid, self.density * unit)
+            local = self._local(self.density * volume, centroid, self.density * unit)
         elif self.source is MassSource.MASS:
             if self.mass is None or not self.mass > 0.0:
                 raise ValueError(f"{where}: field 'mass' must be a positive mass")
             scale = self.mass / volume if volume > 0.0 else 0.0
-            local = MassProperties(self.mass, centroid, scale * unit)
+            local = self._local(self.mass, centroid, scale * unit)
         else:
             if self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
                 raise ValueError(f"{where}: measured properties need a positive mass and a CG")
             if self.measured_inertia is not None:
                 tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
+                local = MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
             else:
                 tensor = (self.mass / volume) * unit if volume > 0.0 else np.zeros((3, 3))
-            local = MassProperties(self.mass, self.measured_cg, tensor)
+                local = self._local(self.mass, self.measured_cg, tensor)
         object.__setattr__(self, "props_local", local)
-        r = self.pose.linear
-        object.__setattr__(
-            self, "props", MassProperties(local.mass, self.pose.apply(local.center), r @ local.inertia @ r.T)
-        )
+        object.__setattr__(self, "props", MassProperties._moved(local, self.pose.linear, self.pose.translation))
+
+    def _local(self, mass: float, center: Any, tensor: FloatArray) -> MassProperties:
+        """Part-frame properties from the shape's closed form: a primitive with valid sizes has a physical tensor,
+        so it is validated only when cut-outs were subtracted (superposition is physical only for cut-outs inside
+        the parent, which the model-file loader checks but a Component built in Python may not respect)."""
+        if self.cutouts:
+            return MassProperties(mass, center, tensor)
+        return MassProperties._valid_tensor(mass, center, tensor)
 
     @property
     def group(self) -> str:
@@ -412,6 +418,7 @@ class Model:
     load_cases: tuple[LoadCase, ...] = ()
     allowed_contacts: tuple[AllowedContact, ...] = ()
     _index: Mapping[str, int] = field(init=False, repr=False)
+    _stacked: tuple[FloatArray, FloatArray, FloatArray] | None = field(init=False, repr=False, default=None)
 
     def __post_init__(self) -> None:
         index: dict[str, int] = {}
@@ -460,8 +467,13 @@ class Model:
         ]
 
     def arrays(self, components: Sequence[Component] | None = None) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """(masses (N,), centres (N, 3), tensors (N, 3, 3)) of components in the model frame."""
-        comps = self.components if components is None else components
+        """(masses (N,), centres (N, 3), tensors (N, 3, 3)) of components in the model frame.
+
+        For all components (the default) the arrays are made once and kept; callers get copies.
+        """
+        if components is None:
+            return tuple(a.copy() for a in self._all_arrays())  # type: ignore[return-value]
+        comps = components
         n = len(comps)
         masses = np.empty(n)
         centers = np.empty((n, 3))
@@ -472,9 +484,22 @@ class Model:
             inertias[i] = c.props.inertia
         return masses, centers, inertias
 
+    def _all_arrays(self) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """:meth:`arrays` of every component, made once (read-only; the model is immutable)."""
+        if self._stacked is None:
+            stacked = self.arrays(self.components)
+            for a in stacked:
+                a.setflags(write=False)
+            object.__setattr__(self, "_stacked", stacked)
+        assert self._stacked is not None
+        return self._stacked
+
     def mass_properties(self, include: Iterable[str] = ("",), exclude: Iterable[str] = ()) -> MassProperties:
         """Combined mass properties of the selected components (model frame, about their CG)."""
-        comps = self.select(include, exclude)
+        inc, exc = tuple(include), tuple(exclude)
+        if "" in inc and not exc:  # the whole model
+            return MassProperties.zero() if not self.components else MassProperties(*combine_arrays(*self._all_arrays()))
+        comps = self.select(inc, exc)
         if not comps:
             return MassProperties.zero()
         return MassProperties(*combine_arrays(*self.arrays(comps)))

@@ -7,10 +7,14 @@ the item and the field (:class:`ModelFileError`).
 from __future__ import annotations
 
 import copy
+import gc
+import math
 import re
 import tomllib
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
@@ -77,18 +81,22 @@ SLOT_FIELDS = {"name", "shape", "clearance", "note"} | PLACEMENT_FIELDS
 CONTACT_FIELDS = {"between", "note"}
 RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note", "case"}
 VEHICLE_FIELDS = {"axes", "wheelbase", "track_front", "track_rear", "front_axle_station", "ground_level"}
+MODEL_FIELDS = {"name", "description", "rulebook", "extends", "remove"}
+AXIS_NAMES = ("forward", "left", "up")
 
 # Colours given to parts with none, by top-level group (sorted), cycling. Muted, distinguishable hues.
 PALETTE = ("#5b7fa6", "#b0704f", "#6d9a62", "#a3628e", "#c2a25a", "#4f9a9a", "#8c7bb8", "#9a9a6a",
            "#c07a7a", "#6a8fbf")
+_AXES_RE = re.compile(r"[xyz]{1,3}")
 _PATH_RE = re.compile(r"^[A-Za-z0-9_.\-]+(/[A-Za-z0-9_.\-]+)*$")
 _COLOUR_RE = re.compile(r"^#[0-9a-fA-F]{6}$")
 
 
 class ModelFileError(ValueError):
-    """A problem in a model file, naming the file, the item and the field."""
+    """A problem in a model file, naming the file, the item and the field (one line of text)."""
 
     def __init__(self, file: str, item: str | None, field: str | None, message: str) -> None:
+        message = " ".join(line.strip() for line in message.splitlines() if line.strip())
         self.file = file
         self.item = item
         self.field = field
@@ -114,17 +122,34 @@ class _Reader:
     """Converts TOML values of one file to SI, raising errors with file/item/field context."""
 
     def __init__(self, file: str, defaults: Mapping[str, float], env: Mapping[str, units.Quantity],
-                 base_dir: Path | None = None) -> None:
+                 base_dir: Path | None = None, cache: dict[str | float, units.Quantity] | None = None) -> None:
         self.file = file
         self.defaults = defaults
         self.env = env
         self.base_dir = Path(file).parent if base_dir is None else base_dir  # geometry files resolve from here
+        # expression text -> value: the parameters are fixed while a file is read, so each text is evaluated once;
+        # (value, kind) -> SI float for values already accepted as that kind
+        self.cache: dict[str | float, units.Quantity] = {} if cache is None else cache
+        self.si: dict[tuple[str | float, str], float] = {}
+        self.rotations: dict[tuple[str, str, tuple[float, ...]], np.ndarray] = {}
 
     def for_table(self, table: dict[str, Any]) -> _Reader:
         """The reader for a table merged from a base file (errors then name that file, geometry paths resolve from
         its folder); pops the marker."""
         source = table.pop(SOURCE_KEY, None)
-        return self if source is None else _Reader(source, self.defaults, self.env)
+        if source is None:
+            return self
+        other = _Reader(source, self.defaults, self.env, Path(source).parent, self.cache)
+        other.si, other.rotations = self.si, self.rotations
+        return other
+
+    def evaluate(self, value: int | float | str) -> units.Quantity:
+        """The value of a number or an expression text (remembered per text or number; bools are refused
+        before this)."""
+        q = self.cache.get(value)  # type: ignore[call-overload]
+        if q is None:
+            q = self.cache[value] = expr.evaluate(value, self.env)
+        return q
 
     def error(self, item: str | None, field: str | None, message: str) -> ModelFileError:
         return ModelFileError(self.file, item, field, message)
@@ -132,18 +157,24 @@ class _Reader:
     def quantity(self, value: Any, kind: str, item: str, field: str) -> float:
         """A scalar of the given kind ('length', 'mass', 'angle', 'density', 'inertia', 'number'), SI."""
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
-            raise self.error(item, field, f"expected a {kind} such as '{KIND_EXAMPLE[kind]}', got {value!r}")
+            article = "an" if kind[0] in "aeiou" else "a"
+            raise self.error(item, field, f"expected {article} {kind} such as '{KIND_EXAMPLE[kind]}', got {value!r}")
+        known = self.si.get((value, kind))
+        if known is not None:
+            return known
         try:
-            q = expr.evaluate(value, self.env)
+            q = self.evaluate(value)
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise self.error(item, field, str(exc)) from None
+            raise self.error(item, field, _one_line(exc)) from None
         if kind == "number":
             if not q.dim == units.DIMENSIONLESS:
                 raise self.error(item, field, f"expected a plain number, got a quantity in {q.dim}")
             result = q.value
         else:
             want = UNIT_KINDS[kind]
-            if q.dim == units.DIMENSIONLESS:
+            if q.dim == units.DIMENSIONLESS and q.value == 0.0:
+                result = 0.0  # zero means the same in every unit
+            elif q.dim == units.DIMENSIONLESS:
                 if kind not in self.defaults:
                     raise self.error(
                         item, field,
@@ -154,15 +185,25 @@ class _Reader:
             elif q.dim == want:
                 result = q.value
             else:
-                raise self.error(item, field, f"expected a {kind} ({want}), got {value!r} in {q.dim}")
-        if not np.isfinite(result):
+                article = "an" if kind[0] in "aeiou" else "a"
+                raise self.error(item, field, f"expected {article} {kind} ({want}), got {value!r} in {q.dim}")
+        if not math.isfinite(result):
             raise self.error(item, field, f"{value!r} is not a finite number")
-        return float(result)
+        result = float(result)
+        self.si[(value, kind)] = result
+        return result
 
     def vector(self, value: Any, kind: str, item: str, field: str, n: int = 3) -> np.ndarray:
         if not isinstance(value, list) or len(value) != n:
             raise self.error(item, field, f"expected a list of {n} values, got {value!r}")
-        return np.array([self.quantity(v, kind, item, f"{field}[{i}]") for i, v in enumerate(value)])
+        return np.array([self.scalar(v, kind, item, field, i) for i, v in enumerate(value)])
+
+    def scalar(self, value: Any, kind: str, item: str, field: str, index: int) -> float:
+        """Entry ``index`` of a list field (the field name ``field[index]`` is made only for an error)."""
+        known = self.si.get((value, kind)) if isinstance(value, (int, float, str)) else None
+        if known is not None and not isinstance(value, bool):
+            return known
+        return self.quantity(value, kind, item, f"{field}[{index}]")
 
     def text(self, table: Mapping[str, Any], key: str, item: str, required: bool = False) -> str | None:
         if key not in table:
@@ -180,6 +221,7 @@ class _Reader:
             raise self.error(item, unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
 
     def pose(self, table: Mapping[str, Any], item: str) -> Pose:
+        # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
         at = self.vector(table["at"], "length", item, "at") if "at" in table else np.zeros(3)
         linear = np.eye(3)
         if "rotate" in table:
@@ -194,19 +236,29 @@ class _Reader:
                     "give exactly one of 'extrinsic' or 'intrinsic' (an axis sequence such as \"xyz\") and 'angles'",
                 )
             axes = rot[kinds[0]]
-            if not isinstance(axes, str) or not re.fullmatch(r"[xyz]{1,3}", axes):
+            if not isinstance(axes, str) or not _AXES_RE.fullmatch(axes):
                 raise self.error(item, f"rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
             angles = rot["angles"]
             if not isinstance(angles, list) or len(angles) != len(axes):
                 raise self.error(item, "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
-            values = tuple(self.quantity(a, "angle", item, f"rotate.angles[{i}]") for i, a in enumerate(angles))
-            linear = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
-        return Pose(linear, at)
+            values = tuple(self.scalar(a, "angle", item, "rotate.angles", i) for i, a in enumerate(angles))
+            key = (kinds[0], axes, values)
+            known = self.rotations.get(key)
+            if known is None:  # the same rotation recurs often (read-only, so poses may share it)
+                known = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
+                known.setflags(write=False)
+                self.rotations[key] = known
+            linear = known
+        return Pose._trusted(linear, at)
 
-    def shape(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
+    def shape_kind(self, table: Mapping[str, Any], item: str, prefix: str = "") -> str:
         kind = table.get("shape")
         if not isinstance(kind, str) or kind not in SHAPE_FILE_FIELDS:
             raise self.error(item, prefix + "shape", f"expected one of {', '.join(SHAPE_FILE_FIELDS)}, got {kind!r}")
+        return kind
+
+    def shape(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
+        kind = self.shape_kind(table, item, prefix)
         if kind in FILE_SHAPE_KINDS:
             return self.file_shape(kind, table, item, prefix)
         kwargs: dict[str, Any] = {}
@@ -243,6 +295,16 @@ class _Reader:
             raise self.error(item, prefix + (getattr(exc, "field", None) or "file"), str(exc)) from None
 
 
+def _one_line(exc: Exception) -> str:
+    """An expression error as one line: the message, then where in the text it is."""
+    if isinstance(exc, expr.ExpressionError):
+        where = f" (in '{exc.text}'" if exc.text else ""
+        if where and exc.position is not None:
+            where += f", at character {exc.position + 1}"
+        return exc.message + (where + ")" if where else "")
+    return str(exc)
+
+
 def _shape_keys(kind: Any) -> set[str]:
     return set(SHAPE_FILE_FIELDS.get(kind, {})) if isinstance(kind, str) else set()
 
@@ -253,11 +315,16 @@ def _swap_side(path: str) -> str | None:
     return "/".join(swapped) if swapped != segs else None
 
 
-def _read_toml(path: Path, label: str) -> dict[str, Any]:
+def _read_toml(path: Path, label: str, referrer: tuple[str, str, str] | None = None) -> dict[str, Any]:
+    """Parse a TOML file. A file that cannot be read is blamed on ``referrer`` (file, item, field) when given:
+    the mistake is then the reference (e.g. ``rulebook = "..."``), not the missing file."""
     try:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
-        raise ModelFileError(label, None, None, f"cannot read the file ({exc.strerror or exc})") from None
+        reason = exc.strerror or str(exc)
+        if referrer is not None:
+            raise ModelFileError(*referrer, f"cannot read '{path}' ({reason})") from None
+        raise ModelFileError(label, None, None, f"cannot read the file ({reason})") from None
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -288,8 +355,23 @@ def load_model(path: str | Path, overrides: Mapping[str, str] | None = None, cas
         Naming the file, the item and the field.
     """
     p = Path(path)
-    data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
-    return _build_case(data, label=str(path), base_dir=p.parent, overrides=overrides, case=case)
+    with _collector_paused():
+        data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
+        return _build_case(data, label=str(path), base_dir=p.parent, overrides=overrides, case=case)
+
+
+@contextmanager
+def _collector_paused() -> Iterator[None]:
+    """Pause Python's cyclic garbage collector while a model is built: tens of thousands of new objects (none of
+    them in reference cycles) would otherwise trigger repeated full collections (about a fifth of the load time of
+    a 10,000-part file). Reference counting still frees everything; the collector is restored afterwards."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def loads_model(
@@ -305,8 +387,9 @@ def loads_model(
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
-    data = _resolve_extends(data, label, Path(base_dir), chain=())
-    return _build_case(data, label=label, base_dir=Path(base_dir), overrides=overrides, case=case)
+    with _collector_paused():
+        data = _resolve_extends(data, label, Path(base_dir), chain=())
+        return _build_case(data, label=label, base_dir=Path(base_dir), overrides=overrides, case=case)
 
 
 def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = None) -> dict[str, Model]:
@@ -351,17 +434,21 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
     by path (a group path removes everything in it). [units] must agree, so that bare numbers keep their meaning.
     """
     head = data.get("model", {})
-    if not isinstance(head, dict) or "extends" not in head:
+    if not isinstance(head, dict):
         return data
     item = "[model]"
+    if "extends" not in head:
+        if "remove" in head:
+            raise ModelFileError(label, item, "remove", "only a model that 'extends' a base file can remove parts")
+        return data
     ref = head["extends"]
     if not isinstance(ref, str):
         raise ModelFileError(label, item, "extends", "expected the path of the base model file")
     base_path = base_dir / ref
     if base_path.resolve() in chain or len(chain) > 8:
         raise ModelFileError(label, item, "extends", f"'{ref}' extends itself (directly or through other files)")
-    base = _resolve_extends(_read_toml(base_path, str(base_path)), str(base_path), base_path.parent,
-                            chain + (base_path.resolve(),))
+    base = _resolve_extends(_read_toml(base_path, str(base_path), (label, item, "extends")), str(base_path),
+                            base_path.parent, chain + (base_path.resolve(),))
     for key in LIST_SECTIONS:
         for table in base.get(key, []):
             if isinstance(table, dict):
@@ -373,6 +460,7 @@ def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tu
         raise ModelFileError(label, item, "remove", "expected a list of part or group paths of the base model")
     merged: dict[str, Any] = {k: v for k, v in base.items() if k not in ("model",)}
     base_head = dict(base.get("model", {}))
+    merged_rulebook: str | None
     if "rulebook" in base_head and "rulebook" not in head:
         merged_rulebook = str((base_path.parent / str(base_head["rulebook"])).resolve())
     else:
@@ -410,10 +498,21 @@ def _build(
 ) -> Model:
     unknown = sorted(set(data) - TOP_LEVEL_KEYS)
     if unknown:
-        raise ModelFileError(label, None, None, f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
+        raise ModelFileError(label, f"[{unknown[0]}]", None,
+                             f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
     head = data.get("model", {})
-    if not isinstance(head, dict) or not isinstance(head.get("name"), str) or not head["name"].strip():
+    if not isinstance(head, dict):
+        raise ModelFileError(label, "[model]", None, "must be a table with at least a 'name'")
+    if not isinstance(head.get("name"), str) or not head["name"].strip():
         raise ModelFileError(label, "[model]", "name", "is missing (every model needs a name)")
+    for key in sorted(set(head) - MODEL_FIELDS):
+        raise ModelFileError(label, "[model]", key, f"unknown field; allowed: {', '.join(sorted(MODEL_FIELDS))}")
+    for key in ("description", "rulebook"):
+        if key in head and not isinstance(head[key], str):
+            raise ModelFileError(label, "[model]", key, f"expected text, got {head[key]!r}")
+    for key in ("units", "materials"):
+        if not isinstance(data.get(key, {}), dict):
+            raise ModelFileError(label, f"[{key}]", None, "must be a table")
 
     defaults: dict[str, float] = {}
     for kind, text in data.get("units", {}).items():
@@ -437,8 +536,11 @@ def _build(
         env = expr.evaluate_parameters(params, overrides={**(active.override_map if active else {}), **(overrides or {})})
     except expr.ParameterError as exc:
         if active is not None and exc.name in active.override_map:
-            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", str(exc)) from None
-        raise ModelFileError(label, f"parameter '{exc.name}'", "value", str(exc)) from None
+            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", exc.message) from None
+        if exc.name is not None and exc.name in (overrides or {}):
+            raise ModelFileError(label, f"--set {exc.name}", None, exc.message) from None
+        message = _one_line(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
+        raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
     rd = _Reader(label, defaults, env, base_dir)
 
@@ -458,28 +560,33 @@ def _build(
                 key, table, lambda f, v, it=item: rd.quantity(v, "density", it, f), flag="user"
             )
         except MaterialError as exc:
-            raise rd.error(item, None, str(exc)) from None
+            raise rd.error(item, exc.field, str(exc).removeprefix(f"material '{key}': ")) from None
 
     groups = _groups(rd, data.get("group", []))
     components: list[Component] = []
     optional: set[str] = set()
+    seen: dict[str, str] = {}
+    frames: dict[str, Pose] = {}
+
+    def add(made: list[Component], reader: _Reader, item: str) -> None:
+        for c in made:
+            if c.path in seen:
+                raise reader.error(item, "path", f"duplicate path '{c.path}' (also made by {seen[c.path]})")
+            seen[c.path] = c.origin
+            components.append(c)
+
     for i, table in enumerate(_table_list(rd, data, "part")):
         prd = rd.for_table(table)
-        made = _parts(prd, table, i, groups, materials, mirror)
-        components.extend(made)
+        made = _parts(prd, table, i, groups, materials, mirror, frames)
+        add(made, prd, f"part '{table['path']}'")
         if _optional(prd, table, f"part '{table.get('path')}'", _enclosing(str(table.get("path")), groups)):
             optional.update(c.path for c in made)
     for i, table in enumerate(_table_list(rd, data, "driver")):
         drd = rd.for_table(table)
         made = modelfile_driver.driver_components(drd, table, i, groups, vehicle)
-        components.extend(made)
+        add(made, drd, f"driver '{table.get('path')}'")
         if _optional(drd, table, f"driver '{table.get('path')}'", _enclosing(made[0].path, groups)):
             optional.update(c.path for c in made)
-    seen: dict[str, str] = {}
-    for c in components:
-        if c.path in seen:
-            raise rd.error(c.origin.split(": ", 1)[-1], "path", f"duplicate path '{c.path}' (also {seen[c.path]})")
-        seen[c.path] = c.origin
 
     slots = []
     for i, table in enumerate(_table_list(rd, data, "slot")):
@@ -499,10 +606,11 @@ def _build(
     book = head.get("rulebook")
     if book is not None:
         book_path = base_dir / str(book)
-        book_data = _read_toml(book_path, str(book_path))
+        book_data = _read_toml(book_path, str(book_path), (label, "[model]", "rulebook"))
         extra = sorted(set(book_data) - {"rule", "rulebook"})
         if extra:
-            raise ModelFileError(str(book_path), None, None, f"unknown section '{extra[0]}'; a rulebook holds [[rule]] tables")
+            raise ModelFileError(str(book_path), f"[{extra[0]}]", None,
+                                 f"unknown section '{extra[0]}'; a rulebook holds [[rule]] tables")
         brd = _Reader(str(book_path), defaults, env)
         rule_tables.extend((brd, t, i) for i, t in enumerate(_table_list(brd, book_data, "rule")))
     rule_tables.extend((rd.for_table(t), t, i) for i, t in enumerate(_table_list(rd, data, "rule")))
@@ -569,9 +677,11 @@ def _vehicle(rd: _Reader, table: Any) -> Vehicle | None:
         raise rd.error(item, None, "must be a table")
     rd.check_fields(table, VEHICLE_FIELDS, item)
     axes = table.get("axes", {"forward": "+x", "left": "+y", "up": "+z"})
+    if not isinstance(axes, dict) or set(axes) != set(AXIS_NAMES):
+        raise rd.error(item, "axes", "expected { forward = \"+x\", left = \"+y\", up = \"+z\" } (signed model axes)")
     vecs = {}
-    for name in ("forward", "left", "up"):
-        spec = axes.get(name) if isinstance(axes, dict) else None
+    for name in AXIS_NAMES:
+        spec = axes[name] if isinstance(axes[name], str) else None
         m = re.fullmatch(r"([+-])([xyz])", spec or "")
         if not m:
             raise rd.error(item, f"axes.{name}", f"expected a signed model axis such as '+x' or '-z', got {spec!r}")
@@ -655,9 +765,13 @@ def _parts(
     groups: Mapping[str, _Group],
     materials: Mapping[str, Material],
     mirror: Pose,
+    frames: dict[str, Pose],
 ) -> list[Component]:
+    """The components one [[part]] table makes (its mirror and pattern copies included); ``frames`` remembers the
+    model-frame pose of each group path."""
     path = _path(rd, table, "part", index)
     item = f"part '{path}'"
+    rd.shape_kind(table, item)
     rd.check_fields(table, PART_FIELDS | _shape_keys(table.get("shape")), item)
     shape = rd.shape(table, item)
     local_pose = rd.pose(table, item)
@@ -691,8 +805,11 @@ def _parts(
             raise rd.error(item, "mass", "must be positive")
     else:
         meas = table["measured"]
-        if not isinstance(meas, dict) or "mass" not in meas or "cg" not in meas:
+        if not isinstance(meas, dict):
             raise rd.error(item, "measured", "expected a table with 'mass', 'cg' and optionally 'inertia'")
+        for key in ("mass", "cg"):
+            if key not in meas:
+                raise rd.error(item, f"measured.{key}", "is missing (measured properties need 'mass' and 'cg')")
         extra = sorted(set(meas) - {"mass", "cg", "inertia"})
         if extra:
             raise rd.error(item, f"measured.{extra[0]}", "unknown field; allowed: mass, cg, inertia")
@@ -730,9 +847,13 @@ def _parts(
         colour = next((g.colour for g in reversed(enclosing) if g.colour is not None), None) or PALETTE[
             sum(map(ord, path.split("/")[0])) % len(PALETTE)
         ]
-    group_pose = Pose.identity()
-    for g in enclosing:
-        group_pose = group_pose * g.pose
+    parent = path.rpartition("/")[0]
+    group_pose = frames.get(parent)
+    if group_pose is None:
+        group_pose = Pose.identity()
+        for g in enclosing:
+            group_pose = group_pose * g.pose
+        frames[parent] = group_pose
 
     copies: list[tuple[str, Pose]] = []
     if "pattern" in table:
@@ -746,7 +867,7 @@ def _parts(
         for k in range(count):
             copies.append((f"{path}-{k + 1}", group_pose * Pose.from_translation(k * step) * local_pose))
     else:
-        copies.append((path, group_pose * local_pose))
+        copies.append((path, group_pose * local_pose if enclosing else local_pose))
     if _flag(rd, table, "mirror", item) or any(g.mirror for g in enclosing):
         mirrored = []
         for p, pose in copies:
@@ -763,7 +884,8 @@ def _parts(
         try:
             out.append(Component(
                 path=p, shape=shape, pose=pose, source=source, maturity=maturity, colour=colour,
-                cutouts=cutouts, slot=slot, note=note, origin=f"{rd.file}: part '{p}'", **kw,
+                cutouts=cutouts, slot=slot, note=note,
+                origin=f"{rd.file}: {item}" + (f" (copy '{p}')" if p != path else ""), **kw,
             ))
         except InertiaError as exc:
             raise rd.error(item, "measured.inertia", str(exc).split(": ", 2)[-1]) from None
@@ -776,11 +898,14 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
     raw = table.get("cut", [])
     if not isinstance(raw, list) or not all(isinstance(t, dict) for t in raw):
         raise rd.error(item, "cut", "expected a list of tables like { shape = \"cylinder\", radius = ..., at = [...] }")
+    if not raw:
+        return ()
     cuts: list[Cutout] = []
     boxes: list[np.ndarray] = []
     scale = float(np.max(np.abs(parent.bounds()))) or 1.0
     for i, ct in enumerate(raw):
         prefix = f"cut[{i}]."
+        rd.shape_kind(ct, item, prefix)
         allowed = {"shape"} | PLACEMENT_FIELDS | _shape_keys(ct.get("shape"))
         unknown = sorted(set(ct) - allowed)
         if unknown:
@@ -791,7 +916,7 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
         if shape.volume() <= 0.0:
             raise rd.error(item, prefix + "shape", "a cut-out needs a volume")
         pose = rd.pose(ct, item)
-        pts = pose.apply(shape.surface_points(400))
+        pts = pose.apply(_surface_samples(shape))
         inside = parent.contains(pts, tol=1e-9 * scale)
         if not np.all(inside):
             worst = pts[~inside][0] * 1000.0
@@ -806,14 +931,29 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
     return tuple(cuts)
 
 
+@lru_cache(maxsize=512)
+def _surface_samples(shape: Any) -> np.ndarray:
+    """About 400 points on a cut-out's surface (shapes are immutable and hashable; the same hole recurs)."""
+    points = shape.surface_points(400)
+    points.setflags(write=False)
+    return points
+
+
+@lru_cache(maxsize=1)
+def _overlap_grid(n: int = 24) -> np.ndarray:
+    """(n³, 3) sample points in the unit cube, offset so that they miss the faces."""
+    offsets = (np.arange(n) + 0.5 + 0.1234567) / (n + 1)
+    return np.stack(np.meshgrid(offsets, offsets, offsets, indexing="ij"), axis=-1).reshape(-1, 3)
+
+
 def _check_cutouts_disjoint(rd: _Reader, item: str, cuts: Sequence[Cutout], boxes: Sequence[np.ndarray]) -> None:
     """Overlapping cut-outs would be subtracted twice. For each pair whose bounding boxes (part frame) overlap, test a
     sampling grid over the common box (offset so that it misses shared faces); an overlap thinner than about 1/24 of
     that box may escape this test.
     """
-    n = 24
-    offsets = (np.arange(n) + 0.5 + 0.1234567) / (n + 1)
-    unit = np.stack(np.meshgrid(offsets, offsets, offsets, indexing="ij"), axis=-1).reshape(-1, 3)
+    if len(cuts) < 2:
+        return
+    unit = _overlap_grid()
     for i in range(len(cuts)):
         for j in range(i + 1, len(cuts)):
             lo = np.maximum(boxes[i][0], boxes[j][0])
@@ -833,6 +973,7 @@ def _slot(rd: _Reader, table: dict[str, Any], index: int) -> Slot:
     if not isinstance(name, str) or not name.strip():
         raise rd.error(f"slot #{index + 1}", "name", "is missing")
     item = f"slot '{name}'"
+    rd.shape_kind(table, item)
     rd.check_fields(table, SLOT_FIELDS | _shape_keys(table.get("shape")), item)
     shape = rd.shape(table, item)
     if not shape.volume() > 0.0:
@@ -847,7 +988,9 @@ def _slot(rd: _Reader, table: dict[str, Any], index: int) -> Slot:
 
 
 def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> Rule:
-    name = table.get("name") or f"rule #{index + 1}"
+    name = table.get("name", f"rule #{index + 1}")
+    if not isinstance(name, str) or not name.strip():
+        raise rd.error(f"rule #{index + 1}", "name", f"expected non-empty text, got {name!r}")
     item = f"rule '{name}'"
     rd.check_fields(table, RULE_FIELDS, item)
     try:

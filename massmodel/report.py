@@ -9,19 +9,38 @@ from __future__ import annotations
 import enum
 import json
 import os
-import tempfile
 from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
+import numpy.typing as npt
 
 from . import cautions
-from .massprops import MassProperties, principal_axes, radii_of_gyration
+from .frames import is_orthogonal
+from .massprops import (
+    MassProperties,
+    combine_arrays,
+    inertia_about_point,
+    inertia_in_axes,
+    principal_axes,
+    radii_of_gyration,
+)
 from .model import Maturity, Model
 from .vehicle import ASSUMPTIONS, Balance, RuleResult, check_rules, static_balance
 
-__all__ = ["DisplayUnits", "build_report", "format_report", "write_json_atomic", "CONVENTIONS", "REPORT_FORMAT"]
+__all__ = [
+    "DisplayUnits",
+    "InertiaRequest",
+    "build_report",
+    "format_report",
+    "inertia_about_entry",
+    "json_text",
+    "write_json_atomic",
+    "CONVENTIONS",
+    "REPORT_FORMAT",
+]
 
 REPORT_FORMAT = "massmodel-report/1"
 CONVENTIONS = {
@@ -32,7 +51,57 @@ CONVENTIONS = {
     "principal_axes": "rows are unit vectors in model axes, in the order of principal_moments_kg_m2 (ascending), "
     "right-handed",
     "loads": "axle and corner loads as mass-equivalent kg (load / 9.80665 m/s^2)",
+    "inertia_about_points": "tensor of the whole model about point_m (model coordinates), components in the axes "
+    "whose unit vectors (model axes) are the rows of 'axes'; tensor convention",
 }
+
+
+@dataclass(frozen=True, slots=True)
+class InertiaRequest:
+    """A request for the model's inertia tensor about a point, optionally in other axes.
+
+    Parameters
+    ----------
+    point : (3,) float or None
+        m, model coordinates; None means the model's CG.
+    axes : (3, 3) float or None
+        Rows are the unit axes (model axes) to express the tensor in; None means the model axes.
+    label : str
+        How the user wrote it, for the report.
+    axes_label : str
+        How the user named the axes.
+    """
+
+    point: npt.NDArray[np.float64] | None
+    axes: npt.NDArray[np.float64] | None = None
+    label: str = ""
+    axes_label: str = "model"
+
+
+def inertia_about_entry(mp: MassProperties, request: InertiaRequest) -> dict[str, Any]:
+    """The tensor of ``mp`` about a point and in given axes, as report data.
+
+    Parallel-axis theorem to the point (``I_P = I_G + m(|d|² E − d dᵀ)``, d = G − P), then a passive change of
+    axes ``A I Aᵀ`` (rows of A = the new axes); Goldstein, Poole & Safko, *Classical Mechanics* (2002) §5.3.
+
+    Raises
+    ------
+    ValueError
+        When the axes are not orthonormal and right-handed.
+    """
+    point = mp.center if request.point is None else np.asarray(request.point, dtype=float).reshape(3)
+    tensor = inertia_about_point(mp, point)
+    axes = np.eye(3) if request.axes is None else np.asarray(request.axes, dtype=float)
+    if not is_orthogonal(axes) or np.linalg.det(axes) < 0.0:
+        raise ValueError(f"axes {request.axes_label!r} must be orthonormal and right-handed")
+    tensor = inertia_in_axes(tensor, axes)
+    return {
+        "label": request.label or ("cg" if request.point is None else ""),
+        "point_m": point.tolist(),
+        "axes_label": request.axes_label,
+        "axes": axes.tolist(),
+        "inertia_kg_m2": (0.5 * (tensor + tensor.T)).tolist(),
+    }
 
 
 class DisplayUnits(enum.Enum):
@@ -54,8 +123,11 @@ def _props_dict(mp: MassProperties) -> dict[str, Any]:
     return {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
 
 
-def build_report(model: Model) -> dict[str, Any]:
-    """The full report of a model as plain data (JSON-ready, SI)."""
+def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) -> dict[str, Any]:
+    """The full report of a model as plain data (JSON-ready, SI).
+
+    ``inertia_requests`` add the whole model's tensor about user points (key ``inertia_about_points``).
+    """
     total = model.mass_properties()
     out: dict[str, Any] = {
         "format": REPORT_FORMAT,
@@ -83,20 +155,22 @@ def build_report(model: Model) -> dict[str, Any]:
             "pitch": float(model.vehicle.left @ total.inertia @ model.vehicle.left),
             "yaw": float(model.vehicle.up @ total.inertia @ model.vehicle.up),
         }
+    out["inertia_about_points"] = [inertia_about_entry(total, r) for r in inertia_requests]
     out["rules"] = [_rule_dict(r) for r in check_rules(model)]
     out["rules_passed"] = all(r["passed"] for r in out["rules"])
-    out["groups"] = []
-    for g in model.groups():
-        members = model.select([g])
-        mp = model.mass_properties([g])
-        out["groups"].append({"path": g, "parts": len(members), **_props_dict(mp)})
+    out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in _group_rollups(model)]
     out["maturity_kg"] = {
         m.value: float(sum(c.props.mass for c in model.components if c.maturity is m)) for m in Maturity
     }
+    masses, centers, inertias = model._all_arrays()
+    # one conversion of the stacked arrays to lists instead of three small ones per component
+    rows = zip(masses.tolist(), centers.tolist(), inertias.tolist(), strict=True)
     out["components"] = [
         {
             "path": c.path,
-            **_props_dict(c.props),
+            "mass_kg": mass,
+            "cg_m": cg,
+            "inertia_cg_kg_m2": tensor,
             "volume_m3": c.volume if c.volume > 0 else None,
             "mass_source": c.source.value,
             "material": c.material,
@@ -106,10 +180,31 @@ def build_report(model: Model) -> dict[str, Any]:
             "slot": c.slot,
             "colour": c.colour,
         }
-        for c in model.components
+        for c, (mass, cg, tensor) in zip(model.components, rows, strict=True)
     ]
     out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
     out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
+    return out
+
+
+def _group_rollups(model: Model) -> list[tuple[str, int, MassProperties]]:
+    """(group path, number of parts, combined properties) of every group, sorted by path.
+
+    One pass over the paths builds each group's member list (a part lies in every proper prefix of its path), so
+    the cost grows with the number of parts times their depth, not with parts times groups.
+    """
+    members: dict[str, list[int]] = {}
+    for i, c in enumerate(model.components):
+        segs = c.path.split("/")
+        for k in range(1, len(segs)):
+            members.setdefault("/".join(segs[:k]), []).append(i)
+    if not members:
+        return []
+    masses, centers, inertias = model._all_arrays()
+    out = []
+    for g in sorted(members):
+        idx = np.array(members[g])
+        out.append((g, len(idx), MassProperties(*combine_arrays(masses[idx], centers[idx], inertias[idx]))))
     return out
 
 
@@ -144,18 +239,42 @@ def _rule_dict(r: RuleResult) -> dict[str, Any]:
     }
 
 
+def json_text(data: Any) -> str:
+    """JSON text laid out for people and written fast.
+
+    The members of the top-level object and of the objects in it go one per line, a list of objects (components,
+    groups, rules) one element per line, and everything deeper is compact. Only the standard library's C encoder
+    is used (indented output would take the slow pure-Python one: seconds for a model of 10,000 components). NaN
+    and infinities are refused (ValueError).
+    """
+    return _layout(data, 0)
+
+
+def _layout(value: Any, depth: int) -> str:
+    pad, inner = "  " * depth, "  " * (depth + 1)
+    if isinstance(value, dict) and value and depth < 2:
+        members = (f"{inner}{json.dumps(str(k))}: {_layout(v, depth + 1)}" for k, v in value.items())
+        return "{\n" + ",\n".join(members) + "\n" + pad + "}"
+    if isinstance(value, list) and value and depth < 2 and all(isinstance(v, dict) for v in value):
+        return "[\n" + ",\n".join(inner + json.dumps(v, allow_nan=False) for v in value) + "\n" + pad + "]"
+    return json.dumps(value, allow_nan=False)
+
+
 def write_json_atomic(data: Any, path: str | Path) -> None:
-    """Write JSON to ``path`` through a temporary file in the same folder and a rename (never half-written)."""
+    """Write JSON (:func:`json_text`) to ``path`` through a temporary file in the same folder and a rename (never
+    half-written)."""
     target = Path(path)
+    text = json_text(data) + "\n"
     target.parent.mkdir(parents=True, exist_ok=True)
+    import tempfile  # only when writing (keeps the start-up of `massmodel report` light)
+
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
     mask = os.umask(0o022)
     os.umask(mask)
     os.chmod(tmp, 0o666 & ~mask)  # mkstemp makes 0600 files: give the report the user's usual mode
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            json.dump(data, fh, indent=2, allow_nan=False)
-            fh.write("\n")
+            fh.write(text)
         os.replace(tmp, target)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -175,8 +294,20 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | No
     return "\n".join([line(headers), "  ".join("─" * w for w in widths), *(line(r) for r in rows)])
 
 
+def _num(x: float, spec: str) -> str:
+    """``format(x, spec)``, except that a value that rounds to zero shows no minus sign ("0.0000", not "-0.0000")."""
+    text = format(x, spec)
+    if "-" in text and float(text) == 0.0:
+        text = format(0.0, spec)
+    return text
+
+
 def _vec(v: Sequence[float], scale: float, digits: int) -> str:
-    return "(" + ", ".join(f"{x * scale:.{digits}f}" for x in v) + ")"
+    return "(" + ", ".join(_num(x * scale, f".{digits}f") for x in v) + ")"
+
+
+def _tensor_lines(tensor: Any, scale: float, digits: int) -> list[str]:
+    return ["    [" + "  ".join(_num(x, f">14.{digits}f") for x in row) + " ]" for row in np.asarray(tensor) * scale]
 
 
 def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI, components: bool = True) -> str:
@@ -192,7 +323,7 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append("")
     if components:
         rows = [
-            [c["path"], f"{c['mass_kg']:.3f}", c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
+            [c["path"], _num(c["mass_kg"], ".3f"), c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
             for c in report["components"]
         ]
         out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
@@ -212,32 +343,39 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append(f"  mass            {report['mass_kg']:.3f} kg")
     out.append(f"  CG              {_vec(report['cg_m'], ls, ld)} {lu}")
     if "inertia_cg_kg_m2" in report:
-        t = np.asarray(report["inertia_cg_kg_m2"]) * isc
         out.append(f"  inertia about CG ({iu}, model axes, tensor convention):")
-        for row in t:
-            out.append("    [" + "  ".join(f"{x:>14.{idg}f}" for x in row) + " ]")
+        out.extend(_tensor_lines(report["inertia_cg_kg_m2"], isc, idg))
     if "principal_moments_kg_m2" in report:
         out.append(f"  principal moments {_vec(report['principal_moments_kg_m2'], isc, idg)} {iu} (ascending)")
         for i, ax in enumerate(report["principal_axes"]):
             out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
         out.append(f"  radii of gyration {_vec(report['radii_of_gyration_m'], ls, ld)} {lu} (about CG, model axes)")
+    for entry in report.get("inertia_about_points", []):
+        what = "the CG" if entry["label"] == "cg" else "point"
+        given = f", given as '{entry['label']}'" if entry["label"] not in ("", "cg") else ""
+        out.append(f"  inertia about {what} {_vec(entry['point_m'], ls, ld)} {lu} (model coordinates{given}), {iu}, "
+                   f"{entry['axes_label']} axes, tensor convention:")
+        if entry["axes_label"] != "model":
+            for i, ax in enumerate(entry["axes"]):
+                out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
+        out.extend(_tensor_lines(entry["inertia_kg_m2"], isc, idg))
     if "axle_loads_kg" in report:
         out.append("")
         out.append("VEHICLE BALANCE (static)")
         v = report["inertia_vehicle_axes_kg_m2"]
-        out.append(f"  CG height above ground     {report['cg_height_m'] * ls:.{ld}f} {lu}")
-        out.append(f"  CG behind front axle       {report['cg_behind_front_axle_m'] * ls:.{ld}f} {lu}")
-        out.append(f"  CG left of centre plane    {report['cg_left_of_centre_m'] * ls:.{ld}f} {lu}")
-        out.append(f"  front fraction {report['front_fraction']:.4f}   left fraction {report['left_fraction']:.4f}   "
-                   f"cross (FR+RL) {report['cross_fraction']:.4f}")
-        out.append(f"  roll / pitch / yaw inertia about CG  {v['roll'] * isc:.{idg}f} / {v['pitch'] * isc:.{idg}f} / "
-                   f"{v['yaw'] * isc:.{idg}f} {iu}")
+        out.append(f"  CG height above ground     {_num(report['cg_height_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  CG behind front axle       {_num(report['cg_behind_front_axle_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  CG left of centre plane    {_num(report['cg_left_of_centre_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  front fraction {_num(report['front_fraction'], '.4f')}   left fraction "
+                   f"{_num(report['left_fraction'], '.4f')}   cross (FR+RL) {_num(report['cross_fraction'], '.4f')}")
+        out.append(f"  roll / pitch / yaw inertia about CG  {_num(v['roll'] * isc, f'.{idg}f')} / "
+                   f"{_num(v['pitch'] * isc, f'.{idg}f')} / {_num(v['yaw'] * isc, f'.{idg}f')} {iu}")
         a = report["axle_loads_kg"]
         c = report["corner_loads_kg"]
         out.append(table(
             ["kg", "left", "right", "axle"],
-            [["front", f"{c['front_left']:.2f}", f"{c['front_right']:.2f}", f"{a['front']:.2f}"],
-             ["rear", f"{c['rear_left']:.2f}", f"{c['rear_right']:.2f}", f"{a['rear']:.2f}"]],
+            [["front", _num(c["front_left"], ".2f"), _num(c["front_right"], ".2f"), _num(a["front"], ".2f")],
+             ["rear", _num(c["rear_left"], ".2f"), _num(c["rear_right"], ".2f"), _num(a["rear"], ".2f")]],
         ))
         out.append(f"  assumptions: {report['load_assumptions']}")
     if report["rules"]:
@@ -249,7 +387,10 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
             mar = r["margin"]["value"]
             unit = r["value"]["unit"]
             fmt = ".4f" if unit in ("fraction", "m") else ".2f"
-            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{val:{fmt}} {unit}", r["limit"], f"{mar:+{fmt}} {unit}"])
+            # a failing rule keeps its minus sign even when the margin rounds to zero
+            margin = _num(mar, "+" + fmt) if r["passed"] else format(mar, "+" + fmt)
+            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{_num(val, fmt)} {unit}", r["limit"],
+                         f"{margin} {unit}"])
         out.append(table(["", "rule", "value", "limit", "margin"], rows, "llrrr"))
         out.append("  " + ("all rules pass" if report["rules_passed"] else "SOME RULES FAIL"))
     out.append("")

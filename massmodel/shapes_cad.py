@@ -684,6 +684,8 @@ def cad_solid_mm(shape: Shape) -> Any:
     if s.kind == "cone":
         return cq.Solid.makeCone(mm * s.radius, 0.0, mm * s.height)
     if s.kind == "frustum":
+        if s.base_radius == s.top_radius:  # the kernel refuses a cone with two equal radii: it is a cylinder
+            return cq.Solid.makeCylinder(mm * s.base_radius, mm * s.height)
         return cq.Solid.makeCone(mm * s.base_radius, mm * s.top_radius, mm * s.height)
     if s.kind == "torus":
         return cq.Solid.makeTorus(mm * s.ring_radius, mm * s.tube_radius)

@@ -126,15 +126,24 @@ class Dimension:
 
     __slots__ = ("_exp",)
     _exp: tuple[Fraction, Fraction, Fraction, Fraction]
+    # One instance per dimension (they are immutable), so that comparisons are mostly identity checks: a model
+    # file compares dimensions tens of thousands of times.
+    _interned: dict[tuple[Fraction, ...], Dimension] = {}
 
-    def __init__(
-        self,
+    def __new__(
+        cls,
         length: int | Fraction = 0,
         mass: int | Fraction = 0,
         time: int | Fraction = 0,
         angle: int | Fraction = 0,
-    ) -> None:
-        object.__setattr__(self, "_exp", tuple(_fraction(e) for e in (length, mass, time, angle)))
+    ) -> Dimension:
+        exp = tuple(_fraction(e) for e in (length, mass, time, angle))
+        found = Dimension._interned.get(exp)
+        if found is None:
+            found = object.__new__(cls)
+            object.__setattr__(found, "_exp", exp)
+            Dimension._interned[exp] = found
+        return found
 
     def __setattr__(self, name: str, value: object) -> None:
         raise AttributeError("Dimension is immutable")
@@ -165,7 +174,7 @@ class Dimension:
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, Dimension):
             return NotImplemented
-        return self._exp == other._exp
+        return self is other  # instances are interned: one object per dimension
 
     def __hash__(self) -> int:
         return hash(("Dimension", self._exp))
@@ -193,6 +202,10 @@ class Dimension:
     def __mul__(self, other: Dimension) -> Dimension:
         if not isinstance(other, Dimension):
             return NotImplemented
+        if not any(other._exp):  # fast paths: "250 mm" is 250 (no dimension) times mm
+            return self
+        if not any(self._exp):
+            return other
         return Dimension(*(a + b for a, b in zip(self._exponents(), other._exponents(), strict=True)))
 
     def __truediv__(self, other: Dimension) -> Dimension:

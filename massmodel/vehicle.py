@@ -24,7 +24,7 @@ import numpy.typing as npt
 from .massprops import MassProperties
 from .model import Model, Rule, RuleCheck, Vehicle, in_group
 
-__all__ = ["Balance", "RuleResult", "static_balance", "check_rules", "ASSUMPTIONS"]
+__all__ = ["Balance", "RuleResult", "static_balance", "check_rules", "ASSUMPTIONS", "AT_LIMIT_RTOL"]
 
 ASSUMPTIONS = (
     "level flat ground; rigid chassis; no diagonal (cross) preload in the suspension, so each axle's load is split "
@@ -32,6 +32,18 @@ ASSUMPTIONS = (
 )
 
 FloatArray = npt.NDArray[np.float64]
+
+#: A value within this fraction of its limit counts as at the limit (passes): a car built exactly to a limit must
+#: not fail on the round-off of the sums (0.1 kg + 0.7 kg is 0.7999999999999999 kg in binary floating point).
+AT_LIMIT_RTOL = 1e-9
+
+
+def _at_least(value: float, limit: float) -> bool:
+    return value >= limit - AT_LIMIT_RTOL * abs(limit)
+
+
+def _at_most(value: float, limit: float) -> bool:
+    return value <= limit + AT_LIMIT_RTOL * abs(limit)
 
 
 @dataclass(frozen=True, slots=True)
@@ -121,7 +133,7 @@ class RuleResult:
     """Outcome of one rule check.
 
     ``value`` and ``limit`` are in ``unit``; ``margin`` is how far inside the limit the value lies (negative when
-    the rule fails), also in ``unit``.
+    the rule fails), also in ``unit``. A value within :data:`AT_LIMIT_RTOL` of its limit passes.
     """
 
     name: str
@@ -151,19 +163,22 @@ def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
         value = _mass_of(model, exclude=rule.exclude)
         limit = float(rule.limit or 0.0)
         detail = "whole model" + (f" without {', '.join(rule.exclude)}" if rule.exclude else "")
-        return RuleResult(rule.name, kind.value, value >= limit, value, f">= {limit:.2f}", value - limit, "kg", detail)
+        return RuleResult(rule.name, kind.value, _at_least(value, limit), value, f">= {limit:.2f}", value - limit, "kg",
+                          detail)
     if kind is RuleCheck.MIN_GROUP_MASS:
         value = _mass_of(model, include=rule.groups)
         limit = float(rule.limit or 0.0)
         detail = " + ".join(rule.groups)
-        return RuleResult(rule.name, kind.value, value >= limit, value, f">= {limit:.2f}", value - limit, "kg", detail)
+        return RuleResult(rule.name, kind.value, _at_least(value, limit), value, f">= {limit:.2f}", value - limit, "kg",
+                          detail)
     if balance is None:
         raise ValueError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
     if kind is RuleCheck.MIN_AXLE_LOAD:
         value = balance.front if rule.axle == "front" else balance.rear
         limit = float(rule.limit or 0.0)
         return RuleResult(
-            rule.name, kind.value, value >= limit, value, f">= {limit:.2f}", value - limit, "kg", f"{rule.axle} axle"
+            rule.name, kind.value, _at_least(value, limit), value, f">= {limit:.2f}", value - limit, "kg",
+            f"{rule.axle} axle",
         )
     if kind is RuleCheck.FRONT_FRACTION:
         value = balance.front_fraction
@@ -171,13 +186,14 @@ def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
         hi = rule.maximum if rule.maximum is not None else 1.0
         margin = min(value - lo, hi - value)
         return RuleResult(
-            rule.name, kind.value, lo <= value <= hi, value, f"{lo:.4f} .. {hi:.4f}", margin, "fraction", "front/total"
+            rule.name, kind.value, _at_least(value, lo) and _at_most(value, hi), value, f"{lo:.4f} .. {hi:.4f}", margin,
+            "fraction", "front/total",
         )
     if kind is RuleCheck.MAX_CG_HEIGHT:
         value = balance.cg_height
         limit = float(rule.limit or 0.0)
         return RuleResult(
-            rule.name, kind.value, value <= limit, value, f"<= {limit:.4f}", limit - value, "m", "above ground"
+            rule.name, kind.value, _at_most(value, limit), value, f"<= {limit:.4f}", limit - value, "m", "above ground"
         )
     raise ValueError(f"unknown rule check {kind!r}")
 

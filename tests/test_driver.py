@@ -273,7 +273,7 @@ def test_points_are_in_the_group_frame_and_the_posture_in_vehicle_directions():
         (("wrist_point = [-900, 150, 200]", "wrist_point = [-300, 150, 200]"), "wrist_point", "out of reach"),
         (("ankle_point = [-130, 100, -130]", "ankle_point = [-130, -100, -130]"), "ankle_point", "LEFT-side"),
         (("seat_back_angle = 55", "seat_back_angle = 95"), "seat_back_angle", "to 80 deg"),
-        (("seat_back_angle = 55", 'seat_back_angle = "55 mm"'), "seat_back_angle", "expected a angle"),
+        (("seat_back_angle = 55", 'seat_back_angle = "55 mm"'), "seat_back_angle", "expected an angle"),
         (("mass = \"driver_mass\"", 'mass = "-5 kg"'), "mass", "positive"),
         (("measured = true", 'measured = "yes"'), "measured", "true or false"),
         (("hip_point = [-950, 0, -90]", "hip_point = [-950, 0]"), "hip_point", "list of 3 values"),
