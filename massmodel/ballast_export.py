@@ -13,45 +13,24 @@ millimetres too.
 from __future__ import annotations
 
 import os
-import tempfile
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from . import cautions
+from .atomic import write_atomic, write_text_atomic
 from .ballast import BlockSizing, PlacedPiece
 from .ballast_parts import BALLAST_COLOUR, part_table, toml_table, toml_value
 from .frames import Pose
 from .materials import Material
 from .model import Model, group_of
 
-__all__ = ["write_atomic", "group_frames", "ballasted_model_text", "write_step", "write_stl", "Block",
+__all__ = ["write_atomic", "write_text_atomic", "group_frames", "ballasted_model_text", "write_step", "write_stl", "Block",
            "blocks_of_sizing"]
 
 
-def write_atomic(path: str | Path, write: Callable[[Path], object], suffix: str = "") -> Path:
-    """Call ``write(tmp)`` on a temporary file in the target's folder, then rename it to ``path``."""
-    target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix or target.suffix, dir=target.parent)
-    os.close(fd)
-    try:
-        write(Path(tmp))
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return target
-
-
-def write_text_atomic(path: str | Path, text: str) -> Path:
-    """Write UTF-8 text atomically."""
-    return write_atomic(path, lambda p: p.write_text(text, encoding="utf-8"))
-
-
-__all__ += ["write_text_atomic"]
 
 
 class Block:

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import json
 import os
-import tempfile
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -26,6 +25,7 @@ from pathlib import Path
 import numpy as np
 import numpy.typing as npt
 
+from .atomic import write_text_atomic
 from .model import Model, Vehicle
 from .scales import CornerWeights, Geometry, ScalesBalance, balance_from_corners, lateral_coefficients
 from .uncertainty import Estimate
@@ -305,12 +305,5 @@ def write_reconciled_model(
             raise ReconcileError(f"{output}: refusing to write over the input file {p}; choose another name")
     target.parent.mkdir(parents=True, exist_ok=True)
     new_model = loads_model(text, label=str(output), base_dir=target.resolve().parent)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    write_text_atomic(target, text)
     return new_model

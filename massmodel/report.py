@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import enum
 import json
-import os
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -18,6 +17,7 @@ import numpy as np
 import numpy.typing as npt
 
 from . import cautions
+from .atomic import write_text_atomic
 from .frames import is_orthogonal
 from .massprops import (
     MassProperties,
@@ -261,24 +261,8 @@ def _layout(value: Any, depth: int) -> str:
 
 
 def write_json_atomic(data: Any, path: str | Path) -> None:
-    """Write JSON (:func:`json_text`) to ``path`` through a temporary file in the same folder and a rename (never
-    half-written)."""
-    target = Path(path)
-    text = json_text(data) + "\n"
-    target.parent.mkdir(parents=True, exist_ok=True)
-    import tempfile  # only when writing (keeps the start-up of `massmodel report` light)
-
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
-    mask = os.umask(0o022)
-    os.umask(mask)
-    os.chmod(tmp, 0o666 & ~mask)  # mkstemp makes 0600 files: give the report the user's usual mode
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    """Write JSON (:func:`json_text`) to ``path`` through a temporary file and a rename (never half-written)."""
+    write_text_atomic(path, json_text(data) + "\n")
 
 
 # --- terminal text -------------------------------------------------------------------------------------------

@@ -11,8 +11,6 @@ The numbers of the title block come from :func:`massmodel.report.build_report` (
 
 from __future__ import annotations
 
-import os
-import tempfile
 import textwrap
 import time
 from dataclasses import dataclass, field
@@ -22,6 +20,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from .atomic import write_atomic
 from .scene import BALLAST_COLOUR, CG_COLOUR, INK, SLOT_COLOUR, Scene
 from .viewer import (
     TRIAD_COLOURS,
@@ -256,14 +255,8 @@ def write_png_atomic(fig: Any, path: Path, software: str = "massmodel render",
     info = PngImagePlugin.PngInfo()
     info.add_text("Software", software)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".png", dir=path.parent)
-    os.close(fd)
-    try:
-        Image.fromarray(out).save(tmp, format="PNG", pnginfo=info, compress_level=2)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    write_atomic(path, lambda tmp: Image.fromarray(out).save(tmp, format="PNG", pnginfo=info, compress_level=2),
+                 suffix=".png")
 
 
 def render_sheet(scene: Scene, path: str | Path, size: tuple[int, int] = (2000, 1400), view: str = "sheet") -> SheetResult:

@@ -1,0 +1,54 @@
+"""Atomic file writes: everything is written to a temporary file in the target's folder, then renamed over the
+target (``os.replace``), so a failure never leaves half a file and never destroys an earlier good one."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from pathlib import Path
+
+__all__ = ["write_atomic", "write_text_atomic"]
+
+
+def _umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
+def write_atomic(path: str | Path, write: Callable[[Path], object], suffix: str = "") -> Path:
+    """Call ``write(tmp)`` on a temporary file beside ``path``, then rename it to ``path``.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file to produce; its folder is created when missing.
+    write : callable
+        Writes the whole content to the temporary path it is given (may raise: the temporary file is removed).
+    suffix : str
+        Ending of the temporary file (writers that choose the format by the name need it); default the target's.
+
+    Returns
+    -------
+    Path
+        The target.
+    """
+    import tempfile  # only when writing: keeps the start-up of the report command light
+
+    target = Path(path)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix or target.suffix or ".tmp", dir=target.parent)
+    os.close(fd)
+    try:
+        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600 files: give the output the user's usual mode
+        write(Path(tmp))
+        os.replace(tmp, target)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return target
+
+
+def write_text_atomic(path: str | Path, text: str) -> Path:
+    """Write UTF-8 text atomically (see :func:`write_atomic`)."""
+    return write_atomic(path, lambda p: p.write_text(text, encoding="utf-8"))
