@@ -30,7 +30,7 @@ def test_tungsten_heavy_alloy_bands_are_astm_b777_table_1(cls: int) -> None:
 @pytest.mark.parametrize(
     ("key", "g_cm3"),
     [
-        ("tungsten", 19.3),  # CRC Handbook via a transcription (R2)
+        ("tungsten", 19.3),  # CRC Handbook, as quoted by a secondary source (R2)
         ("lead", 11.34),  # handbook value via secondary pages (R2)
         ("structural_steel", 7.85),  # EN 1993-1-1 §3.2.6, 7850 kg/m^3 (R2)
         ("aluminium_6061_t6", 2.70),  # Aluminum Association typical, ASM data sheet (R)
