@@ -75,9 +75,9 @@ BAD_INPUT = {
     "missing model name": (HEAD.replace('name = "test"\n', "") + PLATE, "[model]", "name", "is missing"),
     "missing maturity": (HEAD + PLATE_WITH('maturity = "estimated"\n', ""), "part 'body/plate'", "maturity",
                          "is missing"),
-    "zero size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 0, 20]"), "part 'body/plate'", "size_y",
+    "zero size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 0, 20]"), "part 'body/plate'", "size[1]",
                   "must be greater than zero"),
-    "negative size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 50, -20]"), "part 'body/plate'", "size_z",
+    "negative size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 50, -20]"), "part 'body/plate'", "size[2]",
                       "must be greater than zero"),
     "negative radius": (HEAD + PLATE_WITH('shape = "box"\nsize = [100, 50, 20]', 'shape = "cylinder"\n'
                                           'radius = "-4 mm"\nlength = 10'),
