@@ -45,6 +45,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = parser.parse_args(argv)
     try:
         return int(args.run(args) or 0)
+    except BrokenPipeError:  # the reader went away (e.g. `| head`): stop quietly
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
     except (ValueError, OSError, KeyError) as exc:
         if os.environ.get("MASSMODEL_DEBUG"):
             raise
