@@ -38,6 +38,7 @@ from .model import (
     Vehicle,
     in_group,
 )
+from .modelfile_base import SOURCE_KEY, ModelFileError, read_toml, resolve_extends
 from .shapes import SHAPE_KINDS, ShapeError
 
 __all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
@@ -90,23 +91,6 @@ PALETTE = ("#5b7fa6", "#b0704f", "#6d9a62", "#a3628e", "#c2a25a", "#4f9a9a", "#8
 _AXES_RE = re.compile(r"[xyz]{1,3}")
 _PATH_RE = re.compile(r"^[A-Za-z0-9_.\-]+(/[A-Za-z0-9_.\-]+)*$")
 _COLOUR_RE = re.compile(r"^#[0-9a-fA-F]{6}$")
-
-
-class ModelFileError(ValueError):
-    """A problem in a model file, naming the file, the item and the field (one line of text)."""
-
-    def __init__(self, file: str, item: str | None, field: str | None, message: str) -> None:
-        message = " ".join(line.strip() for line in message.splitlines() if line.strip())
-        self.file = file
-        self.item = item
-        self.field = field
-        self.message = message
-        where = file
-        if item:
-            where += f": {item}"
-        if field:
-            where += f", field '{field}'"
-        super().__init__(f"{where}: {message}")
 
 
 @dataclass
@@ -317,22 +301,6 @@ def _swap_side(path: str) -> str | None:
     return "/".join(swapped) if swapped != segs else None
 
 
-def _read_toml(path: Path, label: str, referrer: tuple[str, str, str] | None = None) -> dict[str, Any]:
-    """Parse a TOML file. A file that cannot be read is blamed on ``referrer`` (file, item, field) when given:
-    the mistake is then the reference (e.g. ``rulebook = "..."``), not the missing file."""
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        reason = exc.strerror or str(exc)
-        if referrer is not None:
-            raise ModelFileError(*referrer, f"cannot read '{path}' ({reason})") from None
-        raise ModelFileError(label, None, None, f"cannot read the file ({reason})") from None
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
-
-
 def load_model(path: str | Path, overrides: Mapping[str, str] | None = None, case: str | None = None) -> Model:
     """Read a model file.
 
@@ -358,7 +326,7 @@ def load_model(path: str | Path, overrides: Mapping[str, str] | None = None, cas
     """
     p = Path(path)
     with _collector_paused():
-        data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
+        data = resolve_extends(read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
         return _build_case(data, label=str(path), base_dir=p.parent, overrides=overrides, case=case)
 
 
@@ -390,7 +358,7 @@ def loads_model(
     except tomllib.TOMLDecodeError as exc:
         raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
     with _collector_paused():
-        data = _resolve_extends(data, label, Path(base_dir), chain=())
+        data = resolve_extends(data, label, Path(base_dir), chain=())
         return _build_case(data, label=label, base_dir=Path(base_dir), overrides=overrides, case=case)
 
 
@@ -403,7 +371,7 @@ def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = Non
         ``"base"`` first, then the cases in file order.
     """
     p = Path(path)
-    data = _resolve_extends(_read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
+    data = resolve_extends(read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
     base = _build_case(copy.deepcopy(data), label=str(path), base_dir=p.parent, overrides=overrides, case=None)
     out = {BASE_CASE: base}
     for c in base.load_cases:
@@ -422,77 +390,6 @@ def _build_case(
         if case is None or case == BASE_CASE or exc.item == f"case '{case}'":
             raise
         raise ModelFileError(exc.file, exc.item, exc.field, f"{exc.message} (in load case '{case}')") from None
-
-
-LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver", "allowed_contact")
-SOURCE_KEY = "__file__"  # which file a merged table came from (set by _resolve_extends, removed before use)
-
-
-def _resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tuple[Path, ...]) -> dict[str, Any]:
-    """Merge a model that ``extends`` another file into one data tree.
-
-    The child's parameters override the base's; its [vehicle] replaces the base's; materials must not clash; its
-    groups, parts, slots and rules are added after the base's; ``remove`` (in [model]) drops base parts and groups
-    by path (a group path removes everything in it). [units] must agree, so that bare numbers keep their meaning.
-    """
-    head = data.get("model", {})
-    if not isinstance(head, dict):
-        return data
-    item = "[model]"
-    if "extends" not in head:
-        if "remove" in head:
-            raise ModelFileError(label, item, "remove", "only a model that 'extends' a base file can remove parts")
-        return data
-    ref = head["extends"]
-    if not isinstance(ref, str):
-        raise ModelFileError(label, item, "extends", "expected the path of the base model file")
-    base_path = base_dir / ref
-    if base_path.resolve() in chain or len(chain) > 8:
-        raise ModelFileError(label, item, "extends", f"'{ref}' extends itself (directly or through other files)")
-    base = _resolve_extends(_read_toml(base_path, str(base_path), (label, item, "extends")), str(base_path),
-                            base_path.parent, chain + (base_path.resolve(),))
-    for key in LIST_SECTIONS:
-        for table in base.get(key, []):
-            if isinstance(table, dict):
-                table.setdefault(SOURCE_KEY, str(base_path))
-    if data.get("units", base.get("units", {})) != base.get("units", {}):
-        raise ModelFileError(label, "[units]", None, f"must be the same as in the base file {base_path} (or absent)")
-    remove = head.get("remove", [])
-    if not isinstance(remove, list) or not all(isinstance(r, str) for r in remove):
-        raise ModelFileError(label, item, "remove", "expected a list of part or group paths of the base model")
-    merged: dict[str, Any] = {k: v for k, v in base.items() if k not in ("model",)}
-    base_head = dict(base.get("model", {}))
-    merged_rulebook: str | None
-    if "rulebook" in base_head and "rulebook" not in head:
-        merged_rulebook = str((base_path.parent / str(base_head["rulebook"])).resolve())
-    else:
-        merged_rulebook = head.get("rulebook")
-    merged["model"] = {k: v for k, v in head.items() if k not in ("extends", "remove", "rulebook")}
-    if merged_rulebook is not None:
-        merged["model"]["rulebook"] = merged_rulebook
-    merged["parameters"] = {**base.get("parameters", {}), **data.get("parameters", {})}
-    if "vehicle" in data:
-        merged["vehicle"] = data["vehicle"]
-    mats = dict(base.get("materials", {}))
-    for key, value in data.get("materials", {}).items():
-        if key in mats:
-            raise ModelFileError(label, f"material '{key}'", None, f"already defined in the base file {base_path}")
-        mats[key] = value
-    merged["materials"] = mats
-    for key in LIST_SECTIONS:
-        merged[key] = list(base.get(key, [])) + list(data.get(key, []))
-    for path in remove:
-        before = len(merged["part"]) + len(merged["group"]) + len(merged["driver"])
-        for key in ("part", "group", "driver"):
-            merged[key] = [t for t in merged[key]
-                           if not (isinstance(t, dict) and isinstance(t.get("path"), str)
-                                   and (t["path"] == path or t["path"].startswith(path + "/")))]
-        if len(merged["part"]) + len(merged["group"]) + len(merged["driver"]) == before:
-            raise ModelFileError(label, item, "remove", f"the base model has no part or group '{path}'")
-    for key in data:
-        if key not in merged:
-            merged[key] = data[key]
-    return merged
 
 
 def _build(
@@ -608,7 +505,7 @@ def _build(
     book = head.get("rulebook")
     if book is not None:
         book_path = base_dir / str(book)
-        book_data = _read_toml(book_path, str(book_path), (label, "[model]", "rulebook"))
+        book_data = read_toml(book_path, str(book_path), (label, "[model]", "rulebook"))
         extra = sorted(set(book_data) - {"rule", "rulebook"})
         if extra:
             raise ModelFileError(str(book_path), f"[{extra[0]}]", None,

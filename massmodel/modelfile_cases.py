@@ -92,7 +92,7 @@ def find_case(cases: Sequence[LoadCase], name: str | None, label: str) -> LoadCa
     for case in cases:
         if case.name == name:
             return case
-    from .modelfile import ModelFileError
+    from .modelfile_base import ModelFileError
 
     known = ", ".join([BASE_CASE, *(c.name for c in cases)])
     raise ModelFileError(label, f"case '{name}'", None, f"no such load case; the file defines: {known}")
@@ -102,7 +102,7 @@ def check_case_parameters(
     cases: Sequence[LoadCase], definitions: Mapping[str, Any], overrides: Mapping[str, str], skip: LoadCase | None
 ) -> None:
     """Evaluate the parameters of every case once, so that a bad value is reported whichever case is loaded."""
-    from .modelfile import ModelFileError
+    from .modelfile_base import ModelFileError
 
     for case in cases:
         if case is skip:
@@ -132,7 +132,7 @@ def select_case(
     rules: Sequence[Rule],
 ) -> tuple[list[Component], tuple[Rule, ...]]:
     """Check every case's part selection, then keep the parts and rules of ``active`` (None: the base model)."""
-    from .modelfile import ModelFileError
+    from .modelfile_base import ModelFileError
 
     for case, field, message in check_cases(cases, (c.path for c in components), optional):
         raise ModelFileError(case.file, f"case '{case.name}'", field, message)
