@@ -10,7 +10,6 @@ import copy
 import gc
 import math
 import re
-import tomllib
 from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -38,7 +37,7 @@ from .model import (
     Vehicle,
     in_group,
 )
-from .modelfile_base import SOURCE_KEY, ModelFileError, read_toml, resolve_extends
+from .modelfile_base import SOURCE_KEY, ModelFileError, parse_toml, read_toml, resolve_extends
 from .shapes import SHAPE_KINDS, ShapeError
 
 __all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
@@ -353,10 +352,7 @@ def loads_model(
     case: str | None = None,
 ) -> Model:
     """Like :func:`load_model`, from a string (for tests and tools)."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ModelFileError(label, None, None, f"not valid TOML: {exc}") from None
+    data = parse_toml(text, label)
     with _collector_paused():
         data = resolve_extends(data, label, Path(base_dir), chain=())
         return _build_case(data, label=label, base_dir=Path(base_dir), overrides=overrides, case=case)
