@@ -102,6 +102,11 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
     Returns
     -------
     FitResult
+
+    Raises
+    ------
+    RuntimeError
+        The boolean failed (rather than reporting a false fit).
     """
     from OCP.BRepAlgoAPI import BRepAlgoAPI_Cut
     from OCP.BRepExtrema import BRepExtrema_DistShapeShape
@@ -111,6 +116,8 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
     from .cad import volume_props
 
     cut = BRepAlgoAPI_Cut(block.wrapped, envelope.wrapped)
+    if not cut.IsDone():  # a failed boolean has an empty result: it must not read as "nothing outside"
+        raise RuntimeError("the OpenCascade boolean (block minus slot envelope) failed")
     outside_mm3 = max(float(volume_props(cut.Shape()).Mass()), 0.0)
     outside = 0.0 if outside_mm3 < SLIVER_MM3 else outside_mm3 * 1e-9
 

@@ -46,6 +46,7 @@ def test_axle_band_edges_give_exactly_the_minimum_loads(car):
 
 def test_front_share_band_edges_give_the_share_limits(car):
     share = next(b for b in station_bands(car) if b.name.startswith("front share"))
+    # 0.428 .. 0.460: the invented rulebook's front_fraction rule (parts_demo/marrowfield_rules.toml)
     assert _balance_at_station(car, share.low).front_fraction == pytest.approx(0.428, rel=1e-12)
     assert _balance_at_station(car, share.high).front_fraction == pytest.approx(0.460, rel=1e-12)
     station = float(car.vehicle.forward @ car.mass_properties().center)
@@ -54,14 +55,16 @@ def test_front_share_band_edges_give_the_share_limits(car):
     assert share.shift_needed(share.low) == 0.0
 
 
-def test_height_limit_and_no_bands_without_vehicle_rules(car):
+def test_height_limit_and_no_bands_without_vehicle_rules(car, tmp_path):
+    # 310 mm: the invented rulebook's max_cg_height rule (parts_demo/marrowfield_rules.toml)
     assert height_limit(car) == pytest.approx(0.310, rel=1e-12)
     bare = loads_model(
         '[model]\nname = "b"\n[[part]]\npath = "a/b"\nshape = "box"\nsize = ["1 m", "1 m", "1 m"]\n'
         'mass = "1 kg"\nmaturity = "measured"\ncolour = "#808080"\n', label="bare.toml")
     assert station_bands(bare) == [] and height_limit(bare) is None
     with pytest.raises(ValueError, match="has no \\[vehicle\\] section"):
-        render_cg_chart(bare, "unused.png")
+        render_cg_chart(bare, tmp_path / "unused.png")
+    assert not (tmp_path / "unused.png").exists()
 
 
 def test_chart_png_and_command(car, tmp_path, capsys):

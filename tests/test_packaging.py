@@ -141,6 +141,21 @@ def test_block_straddling_the_pipe_with_every_vertex_inside_does_not_fit(envelop
     assert_close(fit.outside_volume, math.pi * 20**2 * 80 * 1e-9, 1e-9, "pipe passage inside the block")
 
 
+
+def test_a_failed_boolean_is_an_error_not_a_fit(envelope_with_pipe, monkeypatch):
+    import OCP.BRepAlgoAPI
+
+    class FailedCut:  # what OpenCascade returns when the boolean fails: not done, an empty result
+        def __init__(self, *args):
+            pass
+
+        def IsDone(self):
+            return False
+
+    monkeypatch.setattr(OCP.BRepAlgoAPI, "BRepAlgoAPI_Cut", FailedCut)
+    with pytest.raises(RuntimeError, match="boolean \\(block minus slot envelope\\) failed"):
+        fit_in_slot(box(100, 80, 40, at=(-60, 0, 0)), envelope_with_pipe, 0.002)
+
 PIPE_MODEL = HEAD + """
 [[slot]]
 name = "tray"
