@@ -342,7 +342,12 @@ def load_step(path: Path, unit: str, metres_per_unit: float) -> StepShape:
         for j in range(i + 1, len(solids)):
             if np.any(boxes[i][0] > boxes[j][1]) or np.any(boxes[j][0] > boxes[i][1]):
                 continue
-            common = volume_props(BRepAlgoAPI_Common(solids[i], solids[j]).Shape()).Mass()
+            op = BRepAlgoAPI_Common(solids[i], solids[j])
+            if not op.IsDone():  # a failed boolean has an empty result: it must not pass as "no overlap"
+                raise GeometryFileError(
+                    f"could not check whether solids #{i + 1} and #{j + 1} of '{name}' overlap (the OpenCascade "
+                    "boolean failed); fuse them in the CAD tool or repair the file", "file", "step")
+            common = volume_props(op.Shape()).Mass()
             if common > OVERLAP_MM3:
                 raise GeometryFileError(
                     f"solids #{i + 1} and #{j + 1} of '{name}' overlap by {common:.4g} mm^3 (the volume would be "

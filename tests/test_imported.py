@@ -176,6 +176,21 @@ maturity = "calculated"
     assert words in e.message
 
 
+
+def test_failed_overlap_boolean_is_refused_not_passed(step_files, monkeypatch):
+    import OCP.BRepAlgoAPI
+
+    class FailedCommon:  # what OpenCascade returns when the boolean fails: not done, an empty result
+        def __init__(self, *args):
+            pass
+
+        def IsDone(self):
+            return False
+
+    monkeypatch.setattr(OCP.BRepAlgoAPI, "BRepAlgoAPI_Common", FailedCommon)
+    with pytest.raises(GeometryFileError, match="could not check whether solids #1 and #2 of .* overlap"):
+        load_step(step_files["overlap"], "mm", 1e-3)
+
 def test_step_file_shape_needs_a_declared_unit(step_files):
     text = HEAD + f"""
 [[part]]
