@@ -572,16 +572,19 @@ def _inertia_field(file: str, item: str, value: Any) -> FloatArray:
                         "expected {\"xx\": .., \"yy\": .., \"zz\": .., \"xy\": .., \"xz\": .., \"yz\": ..} or a 3x3 matrix")
 
 
-def _check_written(file: str, item: str, mass: float, tensor: FloatArray) -> FloatArray:
+def _check_written(file: str, item: str, mass: float, tensor: FloatArray, conv: Conventions) -> FloatArray:
+    """The written tensor made exactly symmetric, after checking the mass and the symmetry (numbers as written, in
+    the declared units ``conv``)."""
     if not mass > 0.0:
-        raise EstimateError(file, item, "mass", f"must be a positive mass, got {mass:g}")
+        raise EstimateError(file, item, "mass", f"must be a positive mass, got {mass:g} {conv.mass_unit}")
     scale = float(np.max(np.abs(tensor)))
     asym = float(np.max(np.abs(tensor - tensor.T)))
     if scale > 0.0 and asym > 1e-6 * scale:
         i, j = np.unravel_index(int(np.argmax(np.abs(tensor - tensor.T))), (3, 3))
         a, b = _AXES[i] + _AXES[j], _AXES[j] + _AXES[i]
         raise EstimateError(file, item, "inertia",
-                            f"not symmetric: {a} = {tensor[i, j]:.10g} but {b} = {tensor[j, i]:.10g} "
+                            f"not symmetric: {a} = {tensor[i, j]:.10g} {conv.inertia_unit} but {b} = {tensor[j, i]:.10g} "
+                            f"{conv.inertia_unit} "
                             "(an inertia tensor is symmetric)")
     return 0.5 * (tensor + tensor.T)
 
@@ -720,7 +723,7 @@ def _load_json(text: str, file: str, vehicle: Any) -> Estimate:
             raise EstimateError(file, label, "group", f"expected '*' or a group path, got {group!r}")
         mass = _number(file, label, "mass", row["mass"])
         cg = _vector(file, label, "cg", row["cg"])
-        tensor = _check_written(file, label, mass, _inertia_field(file, label, row["inertia"]))
+        tensor = _check_written(file, label, mass, _inertia_field(file, label, row["inertia"]), conv)
         items.append(EstimateItem(group.strip(), mass, cg, tensor, label))
     description = data.get("description", "")
     if not isinstance(description, str):
@@ -799,7 +802,7 @@ def _load_csv(text: str, file: str, vehicle: Any) -> Estimate:
         xx, yy, zz, xy, xz, yz = (num(f"i_{t}") for t in _TERMS)
         yx, zx, zy = (num("i_yx"), num("i_zx"), num("i_zy")) if all(full) else (xy, xz, yz)
         tensor = np.array([[xx, xy, xz], [yx, yy, yz], [zx, zy, zz]])
-        items.append(EstimateItem(group, mass, cg, _check_written(file, label, mass, tensor), label))
+        items.append(EstimateItem(group, mass, cg, _check_written(file, label, mass, tensor, conv), label))
     est = Estimate(file, "csv", conv, tuple(items), decl.get("description", ("", 0))[0])
     normalise(est)
     return est
