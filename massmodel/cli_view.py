@@ -136,7 +136,8 @@ def _cg_chart(args: argparse.Namespace) -> int:
     model = load_from_args(args)
     chart = render_cg_chart(model, args.output, size=size)
     print(f"{args.output}: CG chart of '{model.name}', {size[0]}x{size[1]} px")
-    print(f"  CG station {chart.station:+.4f} m (forward), {chart.height:.4f} m above ground")
+    print(f"  CG station {chart.station:+.4f} m (along forward from the model origin), {chart.height:.4f} m "
+          "above ground")
     for b in chart.bands:
         lo = f"{b.low:+.4f}" if b.low is not None else "open"
         hi = f"{b.high:+.4f}" if b.high is not None else "open"

@@ -85,7 +85,7 @@ def title_block_rows(scene: Scene) -> list[tuple[str, str]]:
         ("model", str(rep["model"])),
         ("file", src),
         ("total mass", f"{rep['mass_kg']:.2f} kg · {len(rep['components'])} parts"),
-        ("CG x / y / z", f"{_m(cg[0])} / {_m(cg[1])} / {_m(cg[2])} m"),
+        ("CG x / y / z", f"{_m(cg[0])} / {_m(cg[1])} / {_m(cg[2])} m, model axes"),
     ]
     if "cg_height_m" in rep:
         rows.append(("CG height", f"{_m(rep['cg_height_m'])} m above ground"))

@@ -245,7 +245,7 @@ def test_title_block_numbers_match_the_model(car):
     # front share = a2 / L with a2 the CG's distance ahead of the rear axle (Jazar 2008, §2.1, eq. 2.1)
     front_fraction = (cg @ v.forward - v.rear_axle_station) / v.wheelbase
     assert rows["total mass"] == f"{m:.2f} kg · {len(car.components)} parts"
-    assert rows["CG x / y / z"] == f"{cg[0]:.4f} / {cg[1]:.4f} / {cg[2]:.4f} m"
+    assert rows["CG x / y / z"] == f"{cg[0]:.4f} / {cg[1]:.4f} / {cg[2]:.4f} m, model axes"
     assert rows["CG height"] == f"{cg @ v.up - v.ground_level:.4f} m above ground"
     assert rows["front mass fraction"] == f"{front_fraction:.4f} ({100 * front_fraction:.2f} %)"
     results = check_rules(car)
