@@ -26,8 +26,8 @@ shown beside the comparison as declared.
 
 References
 ----------
-.. [1] Zimmerman & Nakai, "Are You Sure? Uncertainty in Mass Properties Engineering", SAWE Paper 3360 (2005)
-   (the two product-of-inertia conventions in use).
+.. [1] The two product-of-inertia conventions in use (I_xy = −∫xy dm and P_xy = +∫xy dm): common practice, no
+   source.
 .. [2] A. Thompson and B. N. Taylor, NIST Special Publication 811 (2008), Appendix B (exact unit factors).
 """
 

@@ -24,8 +24,8 @@ References
 ----------
 .. [1] Goldstein, Poole & Safko, *Classical Mechanics*, 3rd ed. (2002), §5.3 (parallel-axis theorem in tensor
    form) and §5.4 (transformation of the tensor under a change of axes).
-.. [2] Zimmerman & Nakai, "Are You Sure? Uncertainty in Mass Properties Engineering", SAWE Paper 3360 (2005)
-   (the positive and negative product-of-inertia conventions).
+.. [2] The positive and negative product-of-inertia conventions are both in use (mass-properties reports often
+   give P_xy = +∫xy dm): common practice, no source.
 """
 
 from __future__ import annotations
