@@ -95,7 +95,9 @@ def test_a_step_file_in_cad_axes_is_placed_by_the_given_axes_and_origin(cad_step
     wrong = estimate_from_step(cad_step_file, origin=CAD_ORIGIN_MM * 1e-3, **args)
     result = check_estimate(model, wrong)
     diag = result.diagnosis
-    assert not result.passed and diag.tested["single"] == 47
+    # only the placement is open to doubt: the 24 signed permutations of det +1 and the 24 of det -1, less the
+    # declared one (identity)
+    assert not result.passed and diag.tested["single"] == 24 + 24 - 1
     assert diag.explanation.conventions.axes.text == "x=-x, y=-y, z=+z" and diag.explanation.roundoff
 
 
