@@ -299,7 +299,7 @@ def export_model(
     KeyError
         A selected path matches nothing.
     ValueError
-        The selection holds no solid.
+        The selection holds no solid, or ``stem`` is not a plain file name (empty, dots only, or with a folder).
     ExportError
         A file cannot be written; earlier files are left as they were.
     """
@@ -310,6 +310,9 @@ def export_model(
     selected = select_components(model, opts.selection)
     if stem is None:
         stem = slug(model.name) + ("_" + "+".join(slug(s) for s in opts.selection) if opts.selection else "")
+    elif not stem.strip() or stem.strip(".") == "" or any(sep in stem for sep in ("/", "\\", os.sep)):
+        raise ValueError(f"file name stem (--name) {stem!r}: expected a plain file name, without folders "
+                         "(use --out for the folder)")
     tick = progress or (lambda stage, done, total: None)
     from .cad import component_local_mesh, component_local_solid, has_solid
 

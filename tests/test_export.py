@@ -387,6 +387,10 @@ def test_cli_export_and_its_errors(tmp_path, capsys):
     assert cli.main(["export", str(car), "--out", str(tmp_path / "f")]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "is not a folder" in err
+    for stem in ("sub/tiny", "", ".."):  # a stem with a folder (or none at all) would write outside --out
+        assert cli.main(["export", str(car), "--out", str(tmp_path / "y"), "--name", stem]) == 2
+        assert f"file name stem (--name) {stem!r}: expected a plain file name" in capsys.readouterr().err
+    assert not (tmp_path / "y").exists()
 
 
 def test_demo_car_export(tmp_path):
