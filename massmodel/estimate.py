@@ -675,6 +675,10 @@ def load_estimate(path: str | Path, vehicle: Any = None) -> Estimate:
         text = p.read_text(encoding="utf-8")
     except UnicodeDecodeError as exc:
         raise EstimateError(str(p), None, None, f"not UTF-8 text ({exc.reason})") from None
+    except FileNotFoundError:
+        raise EstimateError(str(p), None, None, "no such file") from None
+    except OSError as exc:
+        raise EstimateError(str(p), None, None, f"cannot be read ({exc.strerror or exc})") from None
     return loads_estimate(text, str(p), kind, vehicle)
 
 

@@ -237,6 +237,11 @@ def test_invalid_json_and_wrong_suffix(tmp_path):
     p.write_text("{}")
     with pytest.raises(EstimateError, match="must end in .json or .csv"):
         load_estimate(p)
+    with pytest.raises(EstimateError, match=r"nothere.json: no such file"):
+        load_estimate(tmp_path / "nothere.json")
+    (tmp_path / "folder.json").mkdir()
+    with pytest.raises(EstimateError, match=r"folder.json: cannot be read \(Is a directory\)"):
+        load_estimate(tmp_path / "folder.json")
 
 
 CSV_HEAD = """#: format = massmodel-estimate/1
