@@ -41,9 +41,9 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="density of one solid, chosen by name, assembly path or '#k' (file order); repeatable")
     s.add_argument("--solid-group", action="append", default=[], metavar="SOLID=PATH",
                    help="compare this solid (or several with the same PATH) with that model group or part")
-    s.add_argument("--step-axes", default="x=+x, y=+y, z=+z", metavar="AXES",
+    s.add_argument("--step-axes", metavar="AXES",
                    help="the STEP file's axes as model axes, e.g. 'x=-x, y=-y, z=+z' (default: the model's)")
-    s.add_argument("--step-origin", default="0, 0, 0 mm", metavar="X,Y,Z UNIT",
+    s.add_argument("--step-origin", metavar="X,Y,Z UNIT",
                    help="the STEP file's origin in model coordinates, e.g. '0, 0, -265 mm' (default: the model's)")
     t = p.add_argument_group("tolerances (defaults: common practice, no source)")
     t.add_argument("--mass-tol", default="1 %", metavar="F", help="mass difference (default 1 %%)")
@@ -159,14 +159,15 @@ def _load_estimate(args: argparse.Namespace, model: Any) -> Any:
         per_solid = {k: _density(f"--solid-density {k}", v, materials)
                      for k, v in _pairs("--solid-density", args.solid_density).items()}
         try:
-            axes = AxisMap.parse(args.step_axes, model.vehicle)
+            axes = AxisMap.parse(args.step_axes or "x=+x, y=+y, z=+z", model.vehicle)
         except ValueError as exc:
             raise ValueError(f"--step-axes: {exc}") from None
         return estimate_from_step(path, default_density=default, densities=per_solid,
                                   groups=_pairs("--solid-group", args.solid_group), axes=axes,
-                                  origin=_point("--step-origin", args.step_origin))
+                                  origin=_point("--step-origin", args.step_origin or "0, 0, 0 mm"))
     used = [o for o, v in (("--density", args.density), ("--solid-density", args.solid_density),
-                           ("--solid-group", args.solid_group)) if v]
+                           ("--solid-group", args.solid_group), ("--step-axes", args.step_axes),
+                           ("--step-origin", args.step_origin)) if v]
     if used:
         raise ValueError(f"{used[0]} applies to STEP estimates only; a JSON or CSV estimate declares its own numbers")
     from .estimate import load_estimate

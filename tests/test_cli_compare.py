@@ -53,6 +53,8 @@ def test_mixup_exits_1_with_the_diagnosis_in_text_and_json(files, capsys):
         (["--cg-tol", "5 kg"], "--cg-tol: expected length (m) such as '5 mm', got '5 kg'"),
         (["--axis-tol", "-2 deg"], "tolerance 'axis' must be a positive number"),
         (["--density", "7850 kg/m^3"], "--density applies to STEP estimates only"),
+        (["--step-axes", "x=-x, y=-y, z=+z"], "--step-axes applies to STEP estimates only"),
+        (["--step-origin", "0, 0, -265 mm"], "--step-origin applies to STEP estimates only"),
         (["--group", "c"], "--group: no group or part 'c' in model 'test bodies'"),
     ],
 )
