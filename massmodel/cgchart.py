@@ -292,7 +292,7 @@ def _notes(model: Model, station: float, height: float, bands: list[StationBand]
         lines.append(f"• max CG height {hmax:.4f} m · margin {(hmax - height) * 1e3:+.1f} mm")
     for r in check_rules(model):
         if r.check in ("min_mass", "min_group_mass"):
-            lines.append(f"• {r.name}: {r.value:.2f} kg ({'pass' if r.passed else 'FAIL'}, limit {r.limit} kg)")
+            lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {r.limit} {r.unit})")
     lines.append("")
     wrapped: list[str] = []
     for line in lines:
