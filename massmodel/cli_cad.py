@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import contextlib
+import math
 import sys
 from collections.abc import Iterator
 from pathlib import Path
@@ -84,7 +85,7 @@ def _formats(text: str) -> frozenset[Any]:
 def _export(args: argparse.Namespace) -> int:
     from .export import ExportOptions, StlLayout, export_model, slug
 
-    if not args.chord > 0.0:
+    if not (args.chord > 0.0 and math.isfinite(args.chord)):
         raise ValueError(f"--chord: the chord tolerance must be a positive length in mm, got {args.chord}")
     model = load_from_args(args)
     options = ExportOptions(formats=_formats(args.formats), stl_layout=StlLayout(args.stl),

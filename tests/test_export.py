@@ -379,6 +379,10 @@ def test_cli_export_and_its_errors(tmp_path, capsys):
     assert cli.main(["export", str(car), "--out", str(tmp_path / "x"), "--formats", "stl", "--chord", "0.2"]) == 0
     assert sorted(p.name for p in (tmp_path / "x").iterdir()) == ["tiny.massprops.json", "tiny.stl"]
     assert "1 solids exported" in capsys.readouterr().out
+    for chord in ("0", "inf", "nan"):  # in mm, as the option is given
+        assert cli.main(["export", str(car), "--out", str(tmp_path / "y"), "--chord", chord]) == 2
+        assert f"--chord: the chord tolerance must be a positive length in mm, got {float(chord)}" in \
+            capsys.readouterr().err
     assert cli.main(["export", str(car), "--formats", "iges"]) == 2
     assert "--formats: expected a comma-separated list of step, stl, glb" in capsys.readouterr().err
     assert cli.main(["export", str(car), "--only", "c"]) == 2
