@@ -171,6 +171,13 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
                 raise ValueError(f"--fix {item!r}: expected AXIS=LENGTH, e.g. x=180mm")
             fixed[axis] = _quantity(value, "--fix", "length")
         changes["fixed"] = fixed
+    hole_options = {"--hole-diameter": args.hole_diameter, "--hole-pattern": args.hole_pattern,
+                    "--hole-pitch": args.hole_pitch, "--hole-columns": args.hole_columns, "--hole-pcd": args.hole_pcd,
+                    "--hole-axis": args.hole_axis, "--counterbore": args.counterbore}
+    stray = [name for name, value in hole_options.items() if value is not None]
+    if args.holes is None and stray:
+        raise ValueError(f"{', '.join(stray)} describe holes given here and need --holes N (they would otherwise be "
+                         "ignored; --holes replaces a plan's holes as a whole)")
     if args.holes is not None:
         if not args.hole_diameter:
             raise ValueError("--holes needs --hole-diameter")

@@ -113,6 +113,17 @@ def test_size_block_in_a_model_slot(tmp_path, capsys):
          "unknown material"),
         (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5"],
          "expected a length with its unit"),
+        # hole options without --holes were silently ignored before
+        (["--plan", str(PLAN), "--slot", "floor_front", "--counterbore", "14mm,5mm"],
+         "--counterbore describe holes given here and need --holes N"),
+        (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5mm",
+          "--hole-diameter", "8.5mm", "--hole-pitch", "100mm"], "--hole-diameter, --hole-pitch describe holes"),
+        # stacks are summed in whole micrometres: a thinner stock plate used to divide by zero
+        (["--plan", str(PLAN), "--slot", "floor_front", "--stock", "0.0001mm"],
+         "stock plate thicknesses must be at least 0.001 mm"),
+        # the slot (28 mm of room along z) is shorter than one increment
+        (["--plan", str(PLAN), "--slot", "floor_front", "--increment", "100mm"],
+         "28.00 mm available along the fill axis z is less than one increment 100.00 mm"),
     ],
 )
 def test_size_block_bad_input(extra, words, capsys):
