@@ -313,7 +313,7 @@ def _size_block(args: argparse.Namespace) -> int:
 # --- place-ballast ---------------------------------------------------------------------------------------------
 
 def _place(args: argparse.Namespace) -> int:
-    from .ballast import check_fit
+    from .ballast import SizingError, check_fit
     from .ballast_export import (
         Block,
         ballasted_model_text,
@@ -360,7 +360,11 @@ def _place(args: argparse.Namespace) -> int:
             plan = plan.with_candidate(c.name, spec=replace(c.spec, increment=inc))
     if not plan.candidates:
         raise ValueError("no candidate slot is left in the plan")
-    result = place_ballast(model, plan)
+    try:
+        result = place_ballast(model, plan)
+    except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
+        field = f" (plan field '{exc.field}')" if exc.field else ""
+        raise ValueError(f"{args.plan}: {exc}{field}") from None
     print(format_placement(result))
     if not result.feasible:
         if args.json:

@@ -171,6 +171,13 @@ def test_plan_errors_name_file_item_and_field(tmp_path, capsys):
     assert main(["place-ballast", str(CAR), str(plan)]) == EXIT_USAGE
     err = capsys.readouterr().err
     assert "field 'replace_existing'" in err and "already holds ballast/seat_block" in err
+    # a block setting that only fails when sized in its slot still names the plan file and the field
+    plan.write_text(PLAN.read_text(encoding="utf-8").replace('chamfer = { size = "1 mm"', 'chamfer = { size = "20 mm"'),
+                    encoding="utf-8")
+    assert main(["place-ballast", str(CAR), str(plan), "--no-fit"]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert f"{plan}: slot 'floor_front': chamfer 20.000 mm is too big" in err and "(plan field 'chamfer.size')" in err
+    assert err.count("\n") == 1 and "Traceback" not in err
 
 
 def test_place_ballast_never_overwrites_the_input(tmp_path, capsys):
