@@ -399,14 +399,14 @@ def _place(args: argparse.Namespace) -> int:
         text = ballasted_model_text(model=model, model_path=args.model, out_path=args.out_model,
                                     name=f"{model.name} (ballasted)", remove=removed, blocks=blocks,
                                     new_slots=new_slots, overrides=overrides, header=header)
-        write_text_atomic(args.out_model, text)
         assert result.ballasted is not None
-        diff = check_written_model(args.out_model, result.ballasted)
+        diff = check_written_model(args.out_model, result.ballasted, text)  # checked before anything is written
+        if diff > 1e-9:
+            raise RuntimeError(f"the model for {args.out_model} does not reload to the placed ballast "
+                               f"(difference {diff:.3e}); nothing written")
+        write_text_atomic(args.out_model, text)
         print(f"\nballasted model written to {args.out_model} (extends {args.model}); reloaded: mass properties agree "
               f"to {diff:.1e} (relative)")
-        if diff > 1e-9:
-            raise RuntimeError(f"the written model {args.out_model} does not reload to the placed ballast "
-                               f"(difference {diff:.3e})")
     if args.step and blocks:
         write_step(blocks, args.step, name="ballast")
         print(f"STEP of all blocks (mm, model frame) written to {args.step}")

@@ -270,3 +270,25 @@ def test_seat_group_ballast_placed_in_a_lowered_car(tmp_path, capsys):
     slot_floor = -0.265 + 0.040 + 0.003 - 0.010
     lowest = min(c.pose.translation[2] - c.shape.size_z / 2 for c in seat)
     assert lowest == pytest.approx(slot_floor + 0.001, abs=1e-12)  # on the floor, at the 1 mm clearance
+
+
+def test_ballasted_model_text_survives_names_with_newlines_and_quotes(tmp_path):
+    # A plan or model name spanning lines (a TOML multi-line string) once broke the written file: the header comment
+    # ran onto an uncommented line and the name was not escaped. TOML v1.0.0 (toml.io): basic strings escape
+    # newlines, quotes and backslashes; a comment runs to the end of its line.
+    import tomllib
+
+    from massmodel.ballast_export import ballasted_model_text
+    from massmodel.ballast_parts import toml_value
+    from massmodel.modelfile import loads_model
+
+    for text in ['a "quoted" name', "back\\slash", "two\nlines", "tab\there", "ümlaut"]:
+        assert tomllib.loads("k = " + toml_value(text))["k"] == text
+    model = load_model(CAR)
+    out = tmp_path / "ballasted.toml"
+    text = ballasted_model_text(model=model, model_path=CAR, out_path=out, name='BL-3\n"ballasted"', remove=[],
+                                blocks=[], header=["plan 'first line\nsecond line'", "", "last"])
+    assert text.splitlines()[:4] == ["# plan 'first line", "# second line'", "#", "# last"]
+    reloaded = loads_model(text, label=str(out), base_dir=tmp_path)
+    assert reloaded.name == 'BL-3\n"ballasted"'
+    assert reloaded.mass_properties().mass == pytest.approx(model.mass_properties().mass, rel=1e-15)
