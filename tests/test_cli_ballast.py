@@ -292,3 +292,17 @@ def test_ballasted_model_text_survives_names_with_newlines_and_quotes(tmp_path):
     reloaded = loads_model(text, label=str(out), base_dir=tmp_path)
     assert reloaded.name == 'BL-3\n"ballasted"'
     assert reloaded.mass_properties().mass == pytest.approx(model.mass_properties().mass, rel=1e-15)
+
+
+def test_seat_ballast_heights_below_the_ground_or_outside_the_seat(capsys):
+    argv = ["seat-ballast", str(CAR), "--set", "driver_mass=70 kg", "--material", "tungsten_b777_class3",
+            "--margin", "0.5kg"]
+    assert main([*argv, "--heights=-100mm,50mm"]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert "ballast heights must be heights above the ground (> 0 mm), got -100.0, 50.0 mm" in err
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert main([*argv, "--heights", "100mm,5000mm"]) == 0
+    out = capsys.readouterr().out
+    # the demo seat structure spans 75.0 .. 358.7 mm above the ground (the study's own first line says so)
+    assert "NOTE: 5000.0 mm lie outside the seat structure (75.0 .. 358.7 mm above the ground)" in out
+    assert "NOTE: 100.0" not in out
