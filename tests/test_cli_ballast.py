@@ -306,3 +306,22 @@ def test_seat_ballast_heights_below_the_ground_or_outside_the_seat(capsys):
     # the demo seat structure spans 75.0 .. 358.7 mm above the ground (the study's own first line says so)
     assert "NOTE: 5000.0 mm lie outside the seat structure (75.0 .. 358.7 mm above the ground)" in out
     assert "NOTE: 100.0" not in out
+
+
+def test_placement_picture_names_axes_by_the_models_vehicle_directions():
+    # The view titles once said "x forward" for every model; a car whose forward is -x must read "x rearward".
+    from types import SimpleNamespace
+
+    from massmodel.ballast_plot import _axis_name
+
+    def names(forward, left, up):
+        vehicle = None if forward is None else SimpleNamespace(forward=np.array(forward, dtype=float),
+                                                               left=np.array(left, dtype=float),
+                                                               up=np.array(up, dtype=float))
+        result = SimpleNamespace(model=SimpleNamespace(vehicle=vehicle))
+        return [_axis_name(result, k) for k in range(3)]
+
+    assert names([1, 0, 0], [0, 1, 0], [0, 0, 1]) == ["x forward", "y left", "z up"]
+    assert names([-1, 0, 0], [0, -1, 0], [0, 0, 1]) == ["x rearward", "y right", "z up"]
+    assert names([0.6, 0.8, 0], [-0.8, 0.6, 0], [0, 0, 1]) == ["x", "y", "z up"]  # yawed: no vehicle name
+    assert names(None, None, None) == ["x", "y", "z"]
