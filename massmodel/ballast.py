@@ -208,6 +208,8 @@ class BlockSpec:
                                   f"fixed.{axis}")
         if any(not (math.isfinite(t) and t > 0.0) for t in self.stock):
             raise SizingError("stock plate thicknesses must be positive lengths", "stock")
+        if any(round(t * 1e6) < 1 for t in self.stock):  # stacks are summed in whole micrometres
+            raise SizingError("stock plate thicknesses must be at least 0.001 mm", "stock")
         if self.max_segment_mass is not None and not (math.isfinite(self.max_segment_mass)
                                                       and self.max_segment_mass > 0.0):
             raise SizingError("max_segment_mass must be a positive mass", "max_segment_mass")
@@ -519,6 +521,9 @@ def size_block(env: Envelope, spec: BlockSpec, target: float | None) -> BlockSiz
     n_max = math.floor(avail / inc + _EPS)
     n_min = max(1, math.ceil(spec.thinnest / inc - _EPS))
     if n_max < n_min:
+        if n_max < 1:
+            raise SizingError(f"slot '{env.name}': {_mm(avail)} available along the fill axis {AXES[k]} is less than "
+                              f"one increment {_mm(inc)}", "increment")
         raise SizingError(f"slot '{env.name}': {_mm(avail)} available along the fill axis {AXES[k]} is less than the "
                           f"thinnest block {_mm(spec.thinnest)}", "min_thickness")
     full = stack_for_units(env, spec, cross, n_max)

@@ -31,8 +31,6 @@ __all__ = ["write_atomic", "write_text_atomic", "group_frames", "ballasted_model
            "blocks_of_sizing"]
 
 
-
-
 class Block:
     """A named piece of ballast for export: path, material, slot, geometry and pose."""
 
@@ -136,7 +134,7 @@ def ballasted_model_text(
     out_dir = Path(out_path).resolve().parent
     rel = os.path.relpath(model_path.resolve(), out_dir)
     frames = group_frames(model_path, [b.path for b in blocks], overrides)
-    lines = [f"# {h}" if h else "#" for h in header]
+    lines = [f"# {h}" if h else "#" for h in "\n".join(header).splitlines()]  # a name may span lines
     lines += ["#", "# Cautions:"] + [f"#   {c}" for c in cautions.for_report("ballast", "machining", "handling")]
     lines += ["", "[model]", f"name = {toml_value(name)}", f"extends = {toml_value(rel.replace(os.sep, '/'))}"]
     if remove:
@@ -180,11 +178,17 @@ def write_stl(blocks: Sequence[Block], path: str | Path, tolerance_mm: float = 0
                                                             angularTolerance=0.05), suffix=".stl")
 
 
-def check_written_model(path: str | Path, expected: Model) -> float:
-    """Reload a written model and compare its total mass properties; returns the largest relative difference."""
-    from .modelfile import load_model
+def check_written_model(path: str | Path, expected: Model, text: str | None = None) -> float:
+    """Reload a written model and compare its total mass properties; returns the largest relative difference.
 
-    got = load_model(path).mass_properties()
+    With ``text`` the model is loaded from that text as if it were written at ``path`` (check before writing).
+    """
+    from .modelfile import load_model, loads_model
+
+    if text is None:
+        got = load_model(path).mass_properties()
+    else:
+        got = loads_model(text, label=str(path), base_dir=Path(path).resolve().parent).mass_properties()
     want = expected.mass_properties()
     scale_i = float(np.max(np.abs(want.inertia)))
     return max(abs(got.mass - want.mass) / want.mass, float(np.max(np.abs(got.center - want.center))) / 1.0,

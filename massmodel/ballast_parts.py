@@ -11,6 +11,7 @@ and a note saying so.
 from __future__ import annotations
 
 import itertools
+import json
 import warnings
 from collections.abc import Sequence
 from typing import Any
@@ -170,7 +171,7 @@ def toml_value(value: Any) -> str:
     if isinstance(value, bool):
         return "true" if value else "false"
     if isinstance(value, str):
-        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
+        return json.dumps(value, ensure_ascii=False)  # a JSON string is a TOML basic string (newlines escaped too)
     if isinstance(value, (int, float)):
         return repr(value)
     if isinstance(value, dict):

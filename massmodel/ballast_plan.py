@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from . import expr, units
-from .ballast import BlockSpec, Envelope, SizingError, spec_from_parts
+from .ballast import BlockSpec, Envelope, Fill, SizingError, spec_from_parts
 from .block import BlockError
 from .frames import Pose, RotationKind, rotation_from_sequence
 from .materials import Material
@@ -412,7 +412,10 @@ def _spec(rd: _Reader, table: Mapping[str, Any], item: str, model: Model) -> Blo
         if not isinstance(edges, str):
             raise rd.error(item, "chamfer.edges", "expected axis letters such as \"xyz\"")
         kw["chamfer"] = (rd.length(ch["size"], item, "chamfer.size"), edges)
-    fill_letter = fill.strip().lstrip("+-")
+    try:
+        fill_letter = str(Fill.parse(fill))[-1]  # a bad fill is reported as the fill, not as the holes' axis
+    except SizingError as exc:
+        raise rd.error(item, "fill", str(exc)) from None
     if "holes" in table:
         kw["holes"] = _holes(rd, table["holes"], item, fill_letter)
     if "stock" in table:

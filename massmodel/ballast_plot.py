@@ -118,12 +118,24 @@ def _view(ax: Any, result: Any, axes_idx: tuple[int, int], title: str) -> None:
     ax.grid(True, lw=0.3, color="#e6e6e6")
 
 
+def _axis_name(result: Any, k: int) -> str:
+    """'x forward' when model axis k is a vehicle direction ('x rearward' when opposite), else just 'x'."""
+    v = result.model.vehicle
+    name = "xyz"[k]
+    if v is None:
+        return name
+    for ahead, back, d in (("forward", "rearward", v.forward), ("left", "right", v.left), ("up", "down", v.up)):
+        if abs(abs(float(d[k])) - 1.0) < 1e-9:
+            return f"{name} {ahead if d[k] > 0 else back}"
+    return name
+
+
 def plot_placement(result: Any, path: str | Path) -> Path:
     """The placement picture (PNG): views, mass per slot, margins. See the module notes."""
     fig = _figure((13.0, 10.5))
     grid = fig.add_gridspec(3, 2, height_ratios=[1.0, 1.15, 0.95], hspace=0.35, wspace=0.18)
     side = fig.add_subplot(grid[0, :])
-    _view(side, result, (0, 2), "side elevation: x forward (mm, model frame) vs z up (mm)")
+    _view(side, result, (0, 2), f"side elevation: {_axis_name(result, 0)} vs {_axis_name(result, 2)} (mm, model frame)")
     side.legend(loc="upper left", fontsize=7, frameon=False)
     used = [p for al in result.allocations if al.sizing is not None for p in al.sizing.pieces]
     if used:  # the blocks are thin: a zoomed section of the side view around them
@@ -138,7 +150,7 @@ def plot_placement(result: Any, path: str | Path) -> Path:
         inset.tick_params(labelsize=6)
         side.indicate_inset_zoom(inset, edgecolor="#555555")
     plan = fig.add_subplot(grid[1, 0])
-    _view(plan, result, (0, 1), "plan view: x forward vs y left (mm)")
+    _view(plan, result, (0, 1), f"plan view: {_axis_name(result, 0)} vs {_axis_name(result, 1)} (mm, model frame)")
     bars = fig.add_subplot(grid[1, 1])
     names = [al.candidate.name for al in result.allocations]
     x = np.arange(len(names))

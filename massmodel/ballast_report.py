@@ -368,7 +368,13 @@ def format_seat(study: Any) -> str:
     out.append("")
     rows = [[f"{h * 1e3:.1f}", f"{z * 1e3:.2f}", f"{(z - study.base_cg_height) * 1e3:+.2f}", f"{f:.4f}"]
             for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)]
-    out.append(table(["ballast height mm", "car CG height mm", "change mm", "front fraction"], rows, "rrrr"))
+    out.append(table(["ballast CG above ground mm", "car CG above ground mm", "car CG change mm", "front fraction"],
+                     rows, "rrrr"))
+    outside = [h for h in study.heights if not study.seat_range[0] <= h <= study.seat_range[1]]
+    if outside:
+        out.append(f"  NOTE: {', '.join(f'{h * 1e3:.1f}' for h in outside)} mm lie outside the seat structure "
+                   f"({study.seat_range[0] * 1e3:.1f} .. {study.seat_range[1] * 1e3:.1f} mm above the ground): the "
+                   "plate cannot be fixed there")
     out.append(f"  without the seat ballast the car's CG is {study.base_cg_height * 1e3:.2f} mm above the ground; "
                f"each 10 mm higher in the seat raises it {study.slope * 10:.3f} mm")
     if study.cg_limit is not None:

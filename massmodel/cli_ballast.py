@@ -171,6 +171,13 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
                 raise ValueError(f"--fix {item!r}: expected AXIS=LENGTH, e.g. x=180mm")
             fixed[axis] = _quantity(value, "--fix", "length")
         changes["fixed"] = fixed
+    hole_options = {"--hole-diameter": args.hole_diameter, "--hole-pattern": args.hole_pattern,
+                    "--hole-pitch": args.hole_pitch, "--hole-columns": args.hole_columns, "--hole-pcd": args.hole_pcd,
+                    "--hole-axis": args.hole_axis, "--counterbore": args.counterbore}
+    stray = [name for name, value in hole_options.items() if value is not None]
+    if args.holes is None and stray:
+        raise ValueError(f"{', '.join(stray)} describe holes given here and need --holes N (they would otherwise be "
+                         "ignored; --holes replaces a plan's holes as a whole)")
     if args.holes is not None:
         if not args.hole_diameter:
             raise ValueError("--holes needs --hole-diameter")
@@ -306,7 +313,7 @@ def _size_block(args: argparse.Namespace) -> int:
 # --- place-ballast ---------------------------------------------------------------------------------------------
 
 def _place(args: argparse.Namespace) -> int:
-    from .ballast import check_fit
+    from .ballast import SizingError, check_fit
     from .ballast_export import (
         Block,
         ballasted_model_text,
@@ -353,7 +360,11 @@ def _place(args: argparse.Namespace) -> int:
             plan = plan.with_candidate(c.name, spec=replace(c.spec, increment=inc))
     if not plan.candidates:
         raise ValueError("no candidate slot is left in the plan")
-    result = place_ballast(model, plan)
+    try:
+        result = place_ballast(model, plan)
+    except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
+        field = f" (plan field '{exc.field}')" if exc.field else ""
+        raise ValueError(f"{args.plan}: {exc}{field}") from None
     print(format_placement(result))
     if not result.feasible:
         if args.json:
@@ -388,14 +399,14 @@ def _place(args: argparse.Namespace) -> int:
         text = ballasted_model_text(model=model, model_path=args.model, out_path=args.out_model,
                                     name=f"{model.name} (ballasted)", remove=removed, blocks=blocks,
                                     new_slots=new_slots, overrides=overrides, header=header)
-        write_text_atomic(args.out_model, text)
         assert result.ballasted is not None
-        diff = check_written_model(args.out_model, result.ballasted)
+        diff = check_written_model(args.out_model, result.ballasted, text)  # checked before anything is written
+        if diff > 1e-9:
+            raise RuntimeError(f"the model for {args.out_model} does not reload to the placed ballast "
+                               f"(difference {diff:.3e}); nothing written")
+        write_text_atomic(args.out_model, text)
         print(f"\nballasted model written to {args.out_model} (extends {args.model}); reloaded: mass properties agree "
               f"to {diff:.1e} (relative)")
-        if diff > 1e-9:
-            raise RuntimeError(f"the written model {args.out_model} does not reload to the placed ballast "
-                               f"(difference {diff:.3e})")
     if args.step and blocks:
         write_step(blocks, args.step, name="ballast")
         print(f"STEP of all blocks (mm, model frame) written to {args.step}")

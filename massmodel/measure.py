@@ -185,7 +185,7 @@ def weighing_report(a: WeighingAnalysis) -> dict[str, Any]:
         "notes": _weighing_notes(a),
         "reconciliation": _reconciliation_dict(a.reconciliation) if a.reconciliation is not None else None,
         "updated_model": None,
-        "cautions": cautions.for_report("scales"),
+        "cautions": cautions.for_report("lifting", "scales"),  # cars go onto the pads on jacks or ramps
     }
     return out
 

@@ -249,7 +249,7 @@ def reconciled_model_text(
         "# Written by massmodel: the model it extends plus one UNACCOUNTED item, the mass and CG that the scales show",
         "# beyond the model. Replace the item by real parts as they are found. Edit freely; massmodel never writes",
         "# over the model it extends.",
-        f"# Session: {session_label}",
+        f"# Session: {' '.join(session_label.splitlines())}",  # a comment ends at the line end
         "",
         "[model]",
         f"name = {_toml_string(model.name + ' + unaccounted (scales)')}",

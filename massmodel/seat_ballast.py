@@ -186,6 +186,9 @@ def seat_ballast_study(
         half = 0.5 * sizing.fill_length if sizing is not None else 0.0
         heights = np.linspace(seat_lo + half, max(seat_hi - half, seat_lo + half), max(2, int(steps)))
     heights = np.asarray(heights, dtype=float)
+    if heights.ndim != 1 or heights.size < 1 or not np.all(np.isfinite(heights)) or np.any(heights <= 0.0):
+        got = ", ".join(f"{h * 1e3:.1f}" for h in np.ravel(heights))
+        raise ValueError(f"ballast heights must be heights above the ground (> 0 mm), got {got} mm")
     m = sizing.masses()[0] if sizing is not None else 0.0
     cg_h, ff = [], []
     for h in heights:

@@ -83,6 +83,9 @@ CAND = '[[candidate]]\nslot = "floor_front"\nfill = "+z"\nmaterial = "tungsten_b
         (HEAD + "[extras]\n" + CAND, None, None, "unknown section 'extras'"),
         (HEAD + CAND + "colour = \"#ffffff\"\n", "candidate 'floor_front'", "colour", "unknown field"),
         (HEAD + CAND.replace('"+z"', '"up"'), "candidate 'floor_front'", "fill", "fill must be one of"),
+        # with holes (whose axis defaults to the fill's), a bad fill is still reported as the fill
+        (HEAD + CAND.replace('"+z"', '"up"') + "[candidate.holes]\npattern = \"line\"\ncount = 1\ndiameter = \"8 mm\"\n",
+         "candidate 'floor_front'", "fill", "fill must be one of"),
         (HEAD + CAND.replace("tungsten_b777_class1", "tungsten_b777_klass1"), "candidate 'floor_front'", "material",
          "did you mean tungsten_b777_class1"),
         (HEAD + CAND.replace('"0.5 mm"', "0.5"), "candidate 'floor_front'", "increment", "no default units"),

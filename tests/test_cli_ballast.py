@@ -113,6 +113,17 @@ def test_size_block_in_a_model_slot(tmp_path, capsys):
          "unknown material"),
         (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5"],
          "expected a length with its unit"),
+        # hole options without --holes were silently ignored before
+        (["--plan", str(PLAN), "--slot", "floor_front", "--counterbore", "14mm,5mm"],
+         "--counterbore describe holes given here and need --holes N"),
+        (["--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z", "--increment", "0.5mm",
+          "--hole-diameter", "8.5mm", "--hole-pitch", "100mm"], "--hole-diameter, --hole-pitch describe holes"),
+        # stacks are summed in whole micrometres: a thinner stock plate used to divide by zero
+        (["--plan", str(PLAN), "--slot", "floor_front", "--stock", "0.0001mm"],
+         "stock plate thicknesses must be at least 0.001 mm"),
+        # the slot (28 mm of room along z) is shorter than one increment
+        (["--plan", str(PLAN), "--slot", "floor_front", "--increment", "100mm"],
+         "28.00 mm available along the fill axis z is less than one increment 100.00 mm"),
     ],
 )
 def test_size_block_bad_input(extra, words, capsys):
@@ -160,6 +171,13 @@ def test_plan_errors_name_file_item_and_field(tmp_path, capsys):
     assert main(["place-ballast", str(CAR), str(plan)]) == EXIT_USAGE
     err = capsys.readouterr().err
     assert "field 'replace_existing'" in err and "already holds ballast/seat_block" in err
+    # a block setting that only fails when sized in its slot still names the plan file and the field
+    plan.write_text(PLAN.read_text(encoding="utf-8").replace('chamfer = { size = "1 mm"', 'chamfer = { size = "20 mm"'),
+                    encoding="utf-8")
+    assert main(["place-ballast", str(CAR), str(plan), "--no-fit"]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert f"{plan}: slot 'floor_front': chamfer 20.000 mm is too big" in err and "(plan field 'chamfer.size')" in err
+    assert err.count("\n") == 1 and "Traceback" not in err
 
 
 def test_place_ballast_never_overwrites_the_input(tmp_path, capsys):
@@ -252,3 +270,58 @@ def test_seat_group_ballast_placed_in_a_lowered_car(tmp_path, capsys):
     slot_floor = -0.265 + 0.040 + 0.003 - 0.010
     lowest = min(c.pose.translation[2] - c.shape.size_z / 2 for c in seat)
     assert lowest == pytest.approx(slot_floor + 0.001, abs=1e-12)  # on the floor, at the 1 mm clearance
+
+
+def test_ballasted_model_text_survives_names_with_newlines_and_quotes(tmp_path):
+    # A plan or model name spanning lines (a TOML multi-line string) once broke the written file: the header comment
+    # ran onto an uncommented line and the name was not escaped. TOML v1.0.0 (toml.io): basic strings escape
+    # newlines, quotes and backslashes; a comment runs to the end of its line.
+    import tomllib
+
+    from massmodel.ballast_export import ballasted_model_text
+    from massmodel.ballast_parts import toml_value
+    from massmodel.modelfile import loads_model
+
+    for text in ['a "quoted" name', "back\\slash", "two\nlines", "tab\there", "ümlaut"]:
+        assert tomllib.loads("k = " + toml_value(text))["k"] == text
+    model = load_model(CAR)
+    out = tmp_path / "ballasted.toml"
+    text = ballasted_model_text(model=model, model_path=CAR, out_path=out, name='BL-3\n"ballasted"', remove=[],
+                                blocks=[], header=["plan 'first line\nsecond line'", "", "last"])
+    assert text.splitlines()[:4] == ["# plan 'first line", "# second line'", "#", "# last"]
+    reloaded = loads_model(text, label=str(out), base_dir=tmp_path)
+    assert reloaded.name == 'BL-3\n"ballasted"'
+    assert reloaded.mass_properties().mass == pytest.approx(model.mass_properties().mass, rel=1e-15)
+
+
+def test_seat_ballast_heights_below_the_ground_or_outside_the_seat(capsys):
+    argv = ["seat-ballast", str(CAR), "--set", "driver_mass=70 kg", "--material", "tungsten_b777_class3",
+            "--margin", "0.5kg"]
+    assert main([*argv, "--heights=-100mm,50mm"]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert "ballast heights must be heights above the ground (> 0 mm), got -100.0, 50.0 mm" in err
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert main([*argv, "--heights", "100mm,5000mm"]) == 0
+    out = capsys.readouterr().out
+    # the demo seat structure spans 75.0 .. 358.7 mm above the ground (the study's own first line says so)
+    assert "NOTE: 5000.0 mm lie outside the seat structure (75.0 .. 358.7 mm above the ground)" in out
+    assert "NOTE: 100.0" not in out
+
+
+def test_placement_picture_names_axes_by_the_models_vehicle_directions():
+    # The view titles once said "x forward" for every model; a car whose forward is -x must read "x rearward".
+    from types import SimpleNamespace
+
+    from massmodel.ballast_plot import _axis_name
+
+    def names(forward, left, up):
+        vehicle = None if forward is None else SimpleNamespace(forward=np.array(forward, dtype=float),
+                                                               left=np.array(left, dtype=float),
+                                                               up=np.array(up, dtype=float))
+        result = SimpleNamespace(model=SimpleNamespace(vehicle=vehicle))
+        return [_axis_name(result, k) for k in range(3)]
+
+    assert names([1, 0, 0], [0, 1, 0], [0, 0, 1]) == ["x forward", "y left", "z up"]
+    assert names([-1, 0, 0], [0, -1, 0], [0, 0, 1]) == ["x rearward", "y right", "z up"]
+    assert names([0.6, 0.8, 0], [-0.8, 0.6, 0], [0, 0, 1]) == ["x", "y", "z up"]  # yawed: no vehicle name
+    assert names(None, None, None) == ["x", "y", "z"]

@@ -57,6 +57,7 @@ def test_weigh_json_and_updated_model(files, tmp_path, capsys):
     assert main(["weigh", str(session), "--json", str(out), "--write-model", str(new), "--item-height", "400 mm"]) == 0
     text = capsys.readouterr().out
     assert "MODEL VERSUS SCALES" in text and "UNACCOUNTED ITEM" in text and cautions.SCALES in text
+    assert cautions.LIFTING in text  # the lifting caution names corner-weight work itself
     data = json.loads(out.read_text(encoding="utf-8"))
     assert data["format"] == "massmodel-weighing/1"
     assert data["total_mass"]["value"] == pytest.approx(car.mass, rel=1e-12)

@@ -7,7 +7,7 @@ import pytest
 
 from massmodel.massprops import MassProperties, combine
 from massmodel.measurefile import Weighing
-from massmodel.modelfile import load_model
+from massmodel.modelfile import load_model, loads_model
 from massmodel.reconcile import ReconcileError, reconcile, reconciled_model_text, write_reconciled_model
 from massmodel.scales import Geometry, reduce_weighings
 from massmodel.uncertainty import Estimate
@@ -120,6 +120,13 @@ def test_updated_model_extends_and_agrees_with_the_scales(model_file, tmp_path):
         assert item.maturity.value == "measured" and item.source.value == "measured"
         assert item.note.startswith("UNACCOUNTED")
     assert list(out.parent.iterdir()) == [out]  # no temporary file left behind
+    # a session name spanning lines (TOML multi-line string) stays inside the comment (TOML v1.0.0: a comment ends
+    # at the end of its line) and in the escaped note
+    two = reconciled_model_text(rec, model, model_file, out, rec.unaccounted.height.value, "from the lift",
+                                "session 'first\nsecond'", {"ballast": "21 kg"})
+    assert "# Session: session 'first second'" in two
+    assert "session 'first\nsecond'" in loads_model(two, label=str(out), base_dir=out.parent).component(
+        "unaccounted/from_scales").note
 
 
 def test_refuses_to_overwrite_input_and_a_heavier_model(model_file, tmp_path):
