@@ -378,6 +378,7 @@ def _place(args: argparse.Namespace) -> int:
         for path, piece in zip(al.paths, al.sizing.pieces, strict=True):
             blocks.append(Block(path, al.candidate.spec.material, al.candidate.name, piece))
     fit_ok = True
+    cases_ok = True  # set by the load-case check once the ballasted model is written
     if not args.no_fit:
         print("\nPACKAGING (OpenCascade: block inside its slot with the slot's clearance)")
         for al in result.allocations:
@@ -407,6 +408,7 @@ def _place(args: argparse.Namespace) -> int:
         write_text_atomic(args.out_model, text)
         print(f"\nballasted model written to {args.out_model} (extends {args.model}); reloaded: mass properties agree "
               f"to {diff:.1e} (relative)")
+        cases_ok = _check_load_cases(args.out_model, overrides)
     if args.step and blocks:
         write_step(blocks, args.step, name="ballast")
         print(f"STEP of all blocks (mm, model frame) written to {args.step}")
@@ -422,7 +424,26 @@ def _place(args: argparse.Namespace) -> int:
         plot_placement(result, args.picture)
         print(f"picture written to {args.picture}")
     rules_ok = all(r.passed for r in result.rules) and all(a.passed for a in result.assessments)
-    return 0 if (rules_ok and fit_ok) else EXIT_FAIL
+    return 0 if (rules_ok and fit_ok and (not args.out_model or cases_ok)) else EXIT_FAIL
+
+
+def _check_load_cases(path: Path, overrides: dict[str, str]) -> bool:
+    """The placement works on the model as loaded; the rules may also apply in other load cases (less fuel, ...).
+    Check the ballasted model in every case its rules apply in (nominal densities) and say which fail."""
+    from .loadcases import check_rules_in_cases
+    from .modelfile import load_case_models
+
+    models = load_case_models(path, overrides=overrides)
+    if len(models) < 2:
+        return True
+    results = check_rules_in_cases(models)
+    failing = [(case, r) for case, r in results if not r.passed]
+    print(f"rules of the ballasted model in every load case ({', '.join(models)}; nominal densities): "
+          + ("all pass" if not failing else f"{len(failing)} FAIL"))
+    for case, r in failing:
+        print(f"  FAIL in '{case}': {r.name}: {r.value:.4g} {r.unit}, limit {r.limit} {r.unit}, "
+              f"margin {r.margin:+.4g} {r.unit}")
+    return not failing
 
 
 # --- seat-ballast ----------------------------------------------------------------------------------------------

@@ -325,3 +325,43 @@ def test_placement_picture_names_axes_by_the_models_vehicle_directions():
     assert names([-1, 0, 0], [0, -1, 0], [0, 0, 1]) == ["x rearward", "y right", "z up"]
     assert names([0.6, 0.8, 0], [-0.8, 0.6, 0], [0, 0, 1]) == ["x", "y", "z up"]  # yawed: no vehicle name
     assert names(None, None, None) == ["x", "y", "z"]
+
+
+def test_ballasted_demo_passes_its_rules_in_every_load_case(placed):
+    # The placement works on the model as loaded; the rules also apply in the demo's load cases (e.g. qualifying
+    # with 10 kg of fuel, where the rear axle minimum is tightest). Checked independently of the command here.
+    from massmodel.loadcases import check_rules_in_cases
+    from massmodel.modelfile import load_case_models
+
+    out, code = placed
+    models = load_case_models(out / "bl3_ballasted.toml")
+    assert {"base", "qualifying", "race_start"} <= set(models)
+    assert all(r.passed for _, r in check_rules_in_cases(models))
+    assert code == 0
+
+
+def test_a_rule_failing_in_another_load_case_is_named(tmp_path, capsys):
+    from massmodel.cli_ballast import _check_load_cases
+
+    car = tmp_path / "car.toml"
+    car.write_text('''
+[model]
+name = "two cases"
+[parameters]
+body_mass = "100 kg"
+[[part]]
+path = "body"
+shape = "point"
+mass = "body_mass"
+maturity = "measured"
+[[case]]
+name = "light"
+set = { body_mass = "80 kg" }
+[[rule]]
+name = "minimum mass"
+check = "min_mass"
+limit = "90 kg"
+''')
+    assert _check_load_cases(car, {}) is False
+    text = capsys.readouterr().out
+    assert "FAIL in 'light': minimum mass: 80 kg" in text
