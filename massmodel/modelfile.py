@@ -38,7 +38,7 @@ from .model import (
     in_group,
 )
 from .modelfile_base import SOURCE_KEY, ModelFileError, parse_toml, read_toml, resolve_extends
-from .shapes import SHAPE_KINDS, ShapeError
+from .shapes import MAX_LENGTH_M, SHAPE_KINDS, ShapeError
 
 __all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
 
@@ -206,6 +206,9 @@ class _Reader:
     def pose(self, table: Mapping[str, Any], item: str) -> Pose:
         # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
         at = self.vector(table["at"], "length", item, "at") if "at" in table else np.zeros(3)
+        for i, x in enumerate(at.tolist()):
+            if abs(x) > MAX_LENGTH_M:  # its square (parallel-axis term) would overflow to a non-finite tensor
+                raise self.error(item, f"at[{i}]", f"{x:g} m is farther than {MAX_LENGTH_M:g} m from the origin")
         linear = np.eye(3)
         if "rotate" in table:
             rot = table["rotate"]
