@@ -911,6 +911,8 @@ def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> 
                 kw[attr] = rd.quantity(table[key], "number", item, key)
                 if not 0.0 <= kw[attr] <= 1.0:
                     raise rd.error(item, key, "a fraction lies between 0 and 1")
+        if kw.get("minimum", 0.0) > kw.get("maximum", 1.0):
+            raise rd.error(item, "max", f"max ({kw['maximum']:g}) is below min ({kw['minimum']:g}): no car can pass")
     else:
         if "limit" not in table:
             raise rd.error(item, "limit", "is missing")

@@ -168,6 +168,8 @@ BAD_INPUT = {
     "rule excludes a missing group": (HEAD + PLATE + '[[rule]]\nname = "dry"\ncheck = "min_mass"\n'
                                       'exclude = ["fuel"]\nlimit = "80 kg"\n', "rule 'dry'", "exclude",
                                       "no part lies in group 'fuel'"),
+    "front fraction band upside down": (HEAD + VEHICLE + PLATE + '[[rule]]\nname = "balance"\ncheck = "front_fraction"\n'
+                                        'min = 0.6\nmax = 0.4\n', "rule 'balance'", "max", "is below min (0.6)"),
     "rule needs a vehicle": (HEAD + PLATE + '[[rule]]\nname = "front"\ncheck = "min_axle_load"\naxle = "front"\n'
                              'limit = "80 kg"\n', "rule 'front'", "check", "needs a [vehicle] section"),
     "rule limit unit": (HEAD + PLATE + '[[rule]]\nname = "dry"\ncheck = "min_mass"\nlimit = "80 mm"\n',
