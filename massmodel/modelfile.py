@@ -54,6 +54,12 @@ UNIT_KINDS: dict[str, units.Dimension] = {
 KIND_EXAMPLE = {"length": "250 mm", "mass": "2.1 kg", "angle": "5 deg", "density": "7850 kg/m^3",
                 "inertia": "0.35 kg*m^2", "number": "0.42"}
 
+#: Largest magnitude accepted per kind (SI value, unit): far beyond any car, and small enough that squares and
+#: products of them (parallel-axis terms, inertia sums) stay finite instead of overflowing without a field's name.
+MAGNITUDE_LIMITS: dict[str, tuple[float, str]] = {
+    "length": (MAX_LENGTH_M, "m"), "mass": (1.0e9, "kg"), "density": (1.0e6, "kg/m^3"), "inertia": (1.0e12, "kg*m^2"),
+}
+
 # File fields of each shape kind: name → "length" | "vector3" (split into *_x/_y/_z) | "polygon".
 SHAPE_FILE_FIELDS: dict[str, dict[str, str]] = {
     "box": {"size": "vector3"},
@@ -172,6 +178,10 @@ class _Reader:
                 raise self.error(item, field, f"expected {article} {kind} ({want}), got {value!r} in {q.dim}")
         if not math.isfinite(result):
             raise self.error(item, field, f"{value!r} is not a finite number")
+        limit = MAGNITUDE_LIMITS.get(kind)
+        if limit is not None and abs(result) > limit[0]:
+            raise self.error(item, field, f"{value!r} is {abs(result):g} {limit[1]}; no part of a car comes near "
+                                          f"that (the limit is {limit[0]:g} {limit[1]})")
         result = float(result)
         self.si[(value, kind)] = result
         return result
@@ -203,17 +213,15 @@ class _Reader:
         if unknown:
             raise self.error(item, unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
 
-    def pose(self, table: Mapping[str, Any], item: str) -> Pose:
+    def pose(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Pose:
+        """``at`` and ``rotate`` of a table (field names in errors start with ``prefix``, e.g. ``cut[0].``)."""
         # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
-        at = self.vector(table["at"], "length", item, "at") if "at" in table else np.zeros(3)
-        for i, x in enumerate(at.tolist()):
-            if abs(x) > MAX_LENGTH_M:  # its square (parallel-axis term) would overflow to a non-finite tensor
-                raise self.error(item, f"at[{i}]", f"{x:g} m is farther than {MAX_LENGTH_M:g} m from the origin")
+        at = self.vector(table["at"], "length", item, prefix + "at") if "at" in table else np.zeros(3)
         linear = np.eye(3)
         if "rotate" in table:
             rot = table["rotate"]
             if not isinstance(rot, dict):
-                raise self.error(item, "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
+                raise self.error(item, prefix + "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
             kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
             extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
             if len(kinds) != 1 or extra or "angles" not in rot:
@@ -223,11 +231,11 @@ class _Reader:
                 )
             axes = rot[kinds[0]]
             if not isinstance(axes, str) or not _AXES_RE.fullmatch(axes):
-                raise self.error(item, f"rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
+                raise self.error(item, f"{prefix}rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
             angles = rot["angles"]
             if not isinstance(angles, list) or len(angles) != len(axes):
-                raise self.error(item, "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
-            values = tuple(self.scalar(a, "angle", item, "rotate.angles", i) for i, a in enumerate(angles))
+                raise self.error(item, prefix + "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
+            values = tuple(self.scalar(a, "angle", item, prefix + "rotate.angles", i) for i, a in enumerate(angles))
             key = (kinds[0], axes, values)
             known = self.rotations.get(key)
             if known is None:  # the same rotation recurs often (read-only, so poses may share it)
@@ -813,7 +821,7 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
         shape = rd.shape(ct, item, prefix)
         if shape.volume() <= 0.0:
             raise rd.error(item, prefix + "shape", "a cut-out needs a volume")
-        pose = rd.pose(ct, item)
+        pose = rd.pose(ct, item, prefix)
         pts = pose.apply(_surface_samples(shape))
         inside = parent.contains(pts, tol=1e-9 * scale)
         if not np.all(inside):
