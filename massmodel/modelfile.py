@@ -409,8 +409,10 @@ def _build(
     head = data.get("model", {})
     if not isinstance(head, dict):
         raise ModelFileError(label, "[model]", None, "must be a table with at least a 'name'")
-    if not isinstance(head.get("name"), str) or not head["name"].strip():
+    if "name" not in head:
         raise ModelFileError(label, "[model]", "name", "is missing (every model needs a name)")
+    if not isinstance(head["name"], str) or not head["name"].strip():
+        raise ModelFileError(label, "[model]", "name", f"expected non-empty text, got {head['name']!r}")
     for key in sorted(set(head) - MODEL_FIELDS):
         raise ModelFileError(label, "[model]", key, f"unknown field; allowed: {', '.join(sorted(MODEL_FIELDS))}")
     for key in ("description", "rulebook"):

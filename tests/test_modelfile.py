@@ -614,6 +614,29 @@ def test_extends_errors(tmp_path: Path, child: str, file: str, item: str, field:
     assert fragment in err.message
 
 
+@pytest.mark.parametrize(
+    ("top", "item", "fragment"),
+    [
+        ("parameters = 3", "[parameters]", "must be a table of name = value"),
+        ("materials = [1]", "[materials]", "must be a table"),
+        ("part = 3", "[[part]]", "write each entry as a [[part]] table"),
+        ("case = 3", "[[case]]", "write each entry as a [[case]] table"),
+    ],
+)
+def test_extends_with_a_section_of_the_wrong_type(tmp_path: Path, top: str, item: str, fragment: str) -> None:
+    # the merge of a variant with its base reads these sections: a wrong TOML type is an error, not a traceback
+    write_base(tmp_path)
+    path = write(tmp_path, top + '\n[model]\nname = "variant"\nextends = "base/base.toml"\n')
+    err = error_of(path)
+    assert (err.file, err.item, err.field) == (str(path), item, None), err
+    assert fragment in err.message
+
+
+def test_model_name_not_text(tmp_path: Path) -> None:
+    err = error_of(write(tmp_path, "[model]\nname = 3\n" + PLATE))
+    assert (err.item, err.field) == ("[model]", "name") and "expected non-empty text, got 3" in err.message
+
+
 def test_extends_itself_and_a_missing_base(tmp_path: Path) -> None:
     a = write(tmp_path, '[model]\nname = "a"\nextends = "b.toml"\n', "a.toml")
     write(tmp_path, '[model]\nname = "b"\nextends = "a.toml"\n', "b.toml")
