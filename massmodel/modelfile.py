@@ -534,6 +534,9 @@ def _build(
                 raise ModelFileError(*where, "case", f"the model defines no load case '{name}'; cases: "
                                      f"{', '.join(sorted(case_names))}")
     components, rules = modelfile_cases.select_case(cases, active, components, optional, rules)
+    if not components:  # nothing to weigh: the fractions and the CG of no mass are undefined
+        where = f"case '{active.name}'" if active else "[[part]]"
+        raise rd.error(where, None, "the model has no parts (none defined, or every one optional or switched off)")
 
     return Model(
         name=head["name"].strip(),

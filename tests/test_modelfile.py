@@ -107,6 +107,8 @@ BAD_INPUT = {
                                      'mass = "70 kg"\nstature = 1700\nseat_back_angle = 30\nhip_point = [0, 0, 0]\n'
                                      'ankle_point = [800, 0, 0]\nwrist_point = [300, 0, 300]\n', "driver 'driver'",
                                      "segment_data", "expected one of"),
+    "no parts": (HEAD + VEHICLE, "[[part]]", None, "the model has no parts"),
+    "only optional parts": (HEAD + PLATE + "optional = true\n", "[[part]]", None, "the model has no parts"),
     "nan number": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, nan, 20]"), "part 'body/plate'", "size[1]",
                    "must be finite"),
     "infinite number": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 50, -inf]"), "part 'body/plate'", "size[2]",
@@ -630,6 +632,14 @@ def test_extends_with_a_section_of_the_wrong_type(tmp_path: Path, top: str, item
     err = error_of(path)
     assert (err.file, err.item, err.field) == (str(path), item, None), err
     assert fragment in err.message
+
+
+def test_a_case_that_switches_every_part_off(tmp_path: Path) -> None:
+    path = write(tmp_path, HEAD + PLATE + '[[case]]\nname = "bare"\nswitch_off = ["body"]\n')
+    with pytest.raises(ModelFileError) as info:
+        load_model(path, case="bare")
+    assert (info.value.item, info.value.field) == ("case 'bare'", None)
+    assert "the model has no parts" in info.value.message
 
 
 def test_model_name_not_text(tmp_path: Path) -> None:
