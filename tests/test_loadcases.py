@@ -213,8 +213,8 @@ def test_rules_are_checked_in_their_cases(car):
         ("test_day", "minimum mass", True),
     ]
     values = {(case, r.name): r.value for case, r in check_rules_in_cases(models)}
-    assert values[("driver_out", "empty car")] == pytest.approx(282.0, abs=1e-12)
-    assert values[("test_day", "minimum mass")] == pytest.approx(353.5, abs=1e-12)
+    assert values[("driver_out", "empty car")] == pytest.approx(250 + 12 + 20, abs=1e-12)  # tub, one pod, fuel
+    assert values[("test_day", "minimum mass")] == pytest.approx(250 + 2 * 12 + 75 + 4 + 0.5, abs=1e-12)  # no fuel
 
 
 # --- bad input: one clear error naming the file, the item and the field ------------------------------------------
