@@ -292,6 +292,16 @@ def test_a_variant_inherits_the_cases_and_errors_name_the_base_file(car, tmp_pat
     assert (info.value.file, info.value.item, info.value.field) == (str(car), "case 'driver_out'", "switch_off")
 
 
+def test_case_table_shows_no_negative_zero(car):
+    # a coordinate that is zero up to round-off prints as 0.0000, as in the single-case report
+    from massmodel.casereport import build_case_table, format_case_table
+
+    data = build_case_table(load_case_models(car))
+    data["cases"][0]["cg_m"][1] = -1e-12
+    row = next(line for line in format_case_table(data).splitlines() if line.startswith("CG y m"))
+    assert row.split()[5] == "0.0000" and "-0.0000" not in row  # after the label "CG y m (model axes)"
+
+
 # --- command line -------------------------------------------------------------------------------------------------
 
 def test_report_all_cases_writes_the_side_by_side_json(car, tmp_path, capsys):
