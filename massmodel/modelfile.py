@@ -443,11 +443,12 @@ def _build(
     try:
         env = expr.evaluate_parameters(params, overrides={**(active.override_map if active else {}), **(overrides or {})})
     except expr.ParameterError as exc:
-        if active is not None and exc.name in active.override_map:
-            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", exc.message) from None
-        if exc.name is not None and exc.name in (overrides or {}):
-            raise ModelFileError(label, f"--set {exc.name}", None, exc.message) from None
+        # an expression error as one line: the message, then where in the text (not the text and a caret line)
         message = _one_line(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
+        if active is not None and exc.name in active.override_map:
+            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", message) from None
+        if exc.name is not None and exc.name in (overrides or {}):
+            raise ModelFileError(label, f"--set {exc.name}", None, message) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
     rd = _Reader(label, defaults, env, base_dir)

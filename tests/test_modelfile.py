@@ -254,6 +254,9 @@ def test_override_errors_name_the_option(tmp_path: Path) -> None:
     err = error_of(path, {"thick": "10 kg"})
     assert (err.item, err.field) == ("part 'body/plate'", "size[2]")
     assert "expected a length" in err.message
+    err = error_of(path, {"thick": "10 mm +"})  # the expression error as one line with its position, no caret
+    assert (err.item, err.field) == ("--set thick", None)
+    assert err.message.endswith("(in '10 mm +', at character 8)") and "^" not in err.message
 
 
 # --------------------------------------------------------------------------------------------------------------
