@@ -276,9 +276,12 @@ class _Reader:
             return SHAPE_KINDS[kind](**kwargs)
         except ShapeError as exc:
             field = getattr(exc, "field", None)
+            message = str(exc)
             if field and field[-2:] in ("_x", "_y", "_z") and SHAPE_FILE_FIELDS[kind].get(field[:-2]) == "vector3":
+                own = field
                 field = f"{field[:-2]}[{'xyz'.index(field[-1])}]"  # name the file's field: size_y -> size[1]
-            raise self.error(item, prefix + (field or "shape"), str(exc)) from None
+                message = message.replace(own, field)
+            raise self.error(item, prefix + (field or "shape"), message) from None
 
 
     def file_shape(self, kind: str, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:

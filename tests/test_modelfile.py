@@ -76,7 +76,7 @@ BAD_INPUT = {
     "missing maturity": (HEAD + PLATE_WITH('maturity = "estimated"\n', ""), "part 'body/plate'", "maturity",
                          "is missing"),
     "zero size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 0, 20]"), "part 'body/plate'", "size[1]",
-                  "must be greater than zero"),
+                  "size[1] (0 m) must be greater than zero"),
     "negative size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 50, -20]"), "part 'body/plate'", "size[2]",
                       "must be greater than zero"),
     "negative radius": (HEAD + PLATE_WITH('shape = "box"\nsize = [100, 50, 20]', 'shape = "cylinder"\n'
