@@ -61,7 +61,8 @@ def validate_inertia(inertia: npt.ArrayLike, *, what: str = "inertia tensor", rt
     what : str
         Name used in the error message (e.g. ``"component 'chassis/tub'"``).
     rtol : float
-        Relative tolerance on asymmetry and on the eigenvalue tests.
+        Relative tolerance (times the largest entry) on the eigenvalue tests and on asymmetry; an asymmetry up to
+        1e-6 of the largest entry is accepted whatever ``rtol`` (measured tensors are typed with about six digits).
 
     Returns
     -------
