@@ -539,8 +539,8 @@ def _build(
                                      f"{', '.join(sorted(case_names))}")
     components, rules = modelfile_cases.select_case(cases, active, components, optional, rules)
     if not components:  # nothing to weigh: the fractions and the CG of no mass are undefined
-        where = f"case '{active.name}'" if active else "[[part]]"
-        raise rd.error(where, None, "the model has no parts (none defined, or every one optional or switched off)")
+        empty = f"case '{active.name}'" if active else "[[part]]"
+        raise rd.error(empty, None, "the model has no parts (none defined, or every one optional or switched off)")
 
     return Model(
         name=head["name"].strip(),
