@@ -13,7 +13,7 @@ try:  # tomli is the standard library's tomllib compiled (about 4x faster on a 1
     from tomli import TOMLDecodeError
     from tomli import loads as toml_loads
 except ImportError:  # pragma: no cover - tomli is a dependency, tomllib the fallback
-    from tomllib import TOMLDecodeError
+    from tomllib import TOMLDecodeError  # type: ignore[assignment]
     from tomllib import loads as toml_loads
 
 __all__ = ["ModelFileError", "read_toml", "parse_toml", "resolve_extends", "LIST_SECTIONS", "SOURCE_KEY"]
