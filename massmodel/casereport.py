@@ -11,7 +11,7 @@ from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 from .model import Model
-from .report import CONVENTIONS, DisplayUnits, build_report, table
+from .report import CONVENTIONS, DisplayUnits, _num, build_report, table
 
 __all__ = ["CASES_FORMAT", "build_case_table", "format_case_table"]
 
@@ -79,13 +79,13 @@ def format_case_table(data: dict[str, Any], units: DisplayUnits = DisplayUnits.S
         rows.append([label, *(cell(c) for c in cases)])
 
     def length(key: str, i: int | None = None) -> Callable[[dict[str, Any]], str]:
-        return lambda c: f"{(c[key] if i is None else c[key][i]) * ls:.{ld}f}"
+        return lambda c: _num((c[key] if i is None else c[key][i]) * ls, f".{ld}f")
 
     def kg(key: str, sub: str) -> Callable[[dict[str, Any]], str]:
-        return lambda c: f"{c[key][sub]:.2f}"
+        return lambda c: _num(c[key][sub], ".2f")
 
     def inertia(axis: str) -> Callable[[dict[str, Any]], str]:
-        return lambda c: f"{c['inertia_vehicle_axes_kg_m2'][axis] * isc:.{idg}f}"
+        return lambda c: _num(c["inertia_vehicle_axes_kg_m2"][axis] * isc, f".{idg}f")
 
     row("parameters set", lambda c: ", ".join(f"{k} = {v}" for k, v in c["overrides"].items()) or "-")
     row("switched off", lambda c: ", ".join(c["switched_off"]) or "-")
@@ -97,8 +97,8 @@ def format_case_table(data: dict[str, Any], units: DisplayUnits = DisplayUnits.S
     if all("front_fraction" in c for c in cases):
         row(f"CG height above ground {lu}", length("cg_height_m"))
         row(f"CG behind front axle {lu}", length("cg_behind_front_axle_m"))
-        row("front fraction", lambda c: f"{c['front_fraction']:.4f}")
-        row("left fraction", lambda c: f"{c['left_fraction']:.4f}")
+        row("front fraction", lambda c: _num(c["front_fraction"], ".4f"))
+        row("left fraction", lambda c: _num(c["left_fraction"], ".4f"))
         row("front axle kg", kg("axle_loads_kg", "front"))
         row("rear axle kg", kg("axle_loads_kg", "rear"))
         for key, label in (("front_left", "FL"), ("front_right", "FR"), ("rear_left", "RL"), ("rear_right", "RR")):

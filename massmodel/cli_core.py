@@ -81,6 +81,7 @@ def parse_point(text: str, env: Mapping[str, Any]) -> Any:
     import numpy as np
 
     from .expr import ExpressionError, evaluate
+    from .shapes import MAX_LENGTH_M
     from .units import DIMENSIONLESS, LENGTH, UnitError
 
     if text.strip().lower() == "cg":
@@ -97,6 +98,9 @@ def parse_point(text: str, env: Mapping[str, Any]) -> Any:
         if q.dim == DIMENSIONLESS and q.value == 0.0:
             out.append(0.0)
         elif q.dim == LENGTH:
+            if abs(q.value) > MAX_LENGTH_M:  # the parallel-axis term would overflow to a non-finite tensor
+                raise ValueError(f"--inertia-about {text!r}, {axis}: {q.value:g} m is farther than "
+                                 f"{MAX_LENGTH_M:g} m from the origin")
             out.append(q.value)
         else:
             raise ValueError(f"--inertia-about {text!r}, {axis}: expected a length with a unit such as '250 mm'")

@@ -65,14 +65,7 @@ def elementary_rotation(axis: str, angle: float) -> FloatArray:
     (3, 3) float
         Rotation matrix ``R`` with ``R @ v`` the rotated vector.
     """
-    c, s = np.cos(angle), np.sin(angle)
-    if axis == "x":
-        return np.array([[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]])
-    if axis == "y":
-        return np.array([[c, 0.0, s], [0.0, 1.0, 0.0], [-s, 0.0, c]])
-    if axis == "z":
-        return np.array([[c, -s, 0.0], [s, c, 0.0], [0.0, 0.0, 1.0]])
-    raise ValueError(f"rotation axis must be 'x', 'y' or 'z', not {axis!r}")
+    return np.array(_elementary(axis, float(angle)))
 
 
 def rotation_from_sequence(kind: RotationKind, axes: str, angles: tuple[float, ...]) -> FloatArray:
@@ -111,7 +104,8 @@ def rotation_from_sequence(kind: RotationKind, axes: str, angles: tuple[float, .
 
 
 def _elementary(axis: str, angle: float) -> list[list[float]]:
-    """:func:`elementary_rotation` as nested lists (the sequence is multiplied out on floats: it runs per part)."""
+    """The rotation about one axis as nested lists (:func:`rotation_from_sequence` multiplies the sequence out on
+    floats: it runs per part)."""
     c, s = math.cos(angle), math.sin(angle)
     if axis == "x":
         return [[1.0, 0.0, 0.0], [0.0, c, -s], [0.0, s, c]]

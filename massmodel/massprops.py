@@ -61,7 +61,8 @@ def validate_inertia(inertia: npt.ArrayLike, *, what: str = "inertia tensor", rt
     what : str
         Name used in the error message (e.g. ``"component 'chassis/tub'"``).
     rtol : float
-        Relative tolerance on asymmetry and on the eigenvalue tests.
+        Relative tolerance (times the largest entry) on the eigenvalue tests and on asymmetry; an asymmetry up to
+        1e-6 of the largest entry is accepted whatever ``rtol`` (measured tensors are typed with about six digits).
 
     Returns
     -------
@@ -361,9 +362,9 @@ def principal_axes(inertia: npt.ArrayLike) -> tuple[FloatArray, FloatArray]:
         Principal moments, kg·m², ascending.
     axes : (3, 3) float
         Rows are the unit principal axes, in the same order, expressed in the tensor's axes; the set is
-        right-handed (``axes[0] × axes[1] = axes[2]``) and each axis is signed so that its largest component
-        is positive (a deterministic choice; for repeated moments the axes within the repeated subspace are
-        any orthonormal set).
+        right-handed (``axes[0] × axes[1] = axes[2]``). ``axes[0]`` and ``axes[1]`` are signed so that their
+        largest component is positive and ``axes[2]`` then follows from right-handedness (a deterministic choice;
+        for repeated moments the axes within the repeated subspace are any orthonormal set).
     """
     values, vectors = np.linalg.eigh(np.asarray(inertia, dtype=float))
     axes = vectors.T.copy()

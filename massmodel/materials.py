@@ -60,10 +60,19 @@ class Material:
         lo = self.density_min if self.density_min is not None else self.density
         hi = self.density_max if self.density_max is not None else self.density
         if not lo <= self.density <= hi:
+            if self.density_min is not None and self.density_max is not None:
+                raise MaterialError(
+                    f"material '{self.key}': density {self.density:g} kg/m^3 lies outside its band "
+                    f"[{lo:g}, {hi:g}] kg/m^3",
+                    "density",
+                )
+            # one bound given: that bound is on the wrong side of the nominal density
+            name, bound, side = ("density_min", lo, "above") if self.density_min is not None else (
+                "density_max", hi, "below")
             raise MaterialError(
                 f"material '{self.key}': density {self.density:g} kg/m^3 lies outside its band "
-                f"[{lo:g}, {hi:g}] kg/m^3",
-                "density",
+                f"({name} {bound:g} kg/m^3 is {side} it)",
+                name,
             )
 
     @property

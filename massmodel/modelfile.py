@@ -38,7 +38,7 @@ from .model import (
     in_group,
 )
 from .modelfile_base import SOURCE_KEY, ModelFileError, parse_toml, read_toml, resolve_extends
-from .shapes import SHAPE_KINDS, ShapeError
+from .shapes import MAX_LENGTH_M, SHAPE_KINDS, ShapeError
 
 __all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
 
@@ -53,6 +53,12 @@ UNIT_KINDS: dict[str, units.Dimension] = {
 }
 KIND_EXAMPLE = {"length": "250 mm", "mass": "2.1 kg", "angle": "5 deg", "density": "7850 kg/m^3",
                 "inertia": "0.35 kg*m^2", "number": "0.42"}
+
+#: Largest magnitude accepted per kind (SI value, unit): far beyond any car, and small enough that squares and
+#: products of them (parallel-axis terms, inertia sums) stay finite instead of overflowing without a field's name.
+MAGNITUDE_LIMITS: dict[str, tuple[float, str]] = {
+    "length": (MAX_LENGTH_M, "m"), "mass": (1.0e9, "kg"), "density": (1.0e6, "kg/m^3"), "inertia": (1.0e12, "kg*m^2"),
+}
 
 # File fields of each shape kind: name → "length" | "vector3" (split into *_x/_y/_z) | "polygon".
 SHAPE_FILE_FIELDS: dict[str, dict[str, str]] = {
@@ -172,6 +178,10 @@ class _Reader:
                 raise self.error(item, field, f"expected {article} {kind} ({want}), got {value!r} in {q.dim}")
         if not math.isfinite(result):
             raise self.error(item, field, f"{value!r} is not a finite number")
+        limit = MAGNITUDE_LIMITS.get(kind)
+        if limit is not None and abs(result) > limit[0]:
+            raise self.error(item, field, f"{value!r} is {abs(result):g} {limit[1]}; no part of a car comes near "
+                                          f"that (the limit is {limit[0]:g} {limit[1]})")
         result = float(result)
         self.si[(value, kind)] = result
         return result
@@ -203,14 +213,15 @@ class _Reader:
         if unknown:
             raise self.error(item, unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
 
-    def pose(self, table: Mapping[str, Any], item: str) -> Pose:
+    def pose(self, table: Mapping[str, Any], item: str, prefix: str = "") -> Pose:
+        """``at`` and ``rotate`` of a table (field names in errors start with ``prefix``, e.g. ``cut[0].``)."""
         # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
-        at = self.vector(table["at"], "length", item, "at") if "at" in table else np.zeros(3)
+        at = self.vector(table["at"], "length", item, prefix + "at") if "at" in table else np.zeros(3)
         linear = np.eye(3)
         if "rotate" in table:
             rot = table["rotate"]
             if not isinstance(rot, dict):
-                raise self.error(item, "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
+                raise self.error(item, prefix + "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
             kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
             extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
             if len(kinds) != 1 or extra or "angles" not in rot:
@@ -220,11 +231,11 @@ class _Reader:
                 )
             axes = rot[kinds[0]]
             if not isinstance(axes, str) or not _AXES_RE.fullmatch(axes):
-                raise self.error(item, f"rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
+                raise self.error(item, f"{prefix}rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
             angles = rot["angles"]
             if not isinstance(angles, list) or len(angles) != len(axes):
-                raise self.error(item, "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
-            values = tuple(self.scalar(a, "angle", item, "rotate.angles", i) for i, a in enumerate(angles))
+                raise self.error(item, prefix + "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
+            values = tuple(self.scalar(a, "angle", item, prefix + "rotate.angles", i) for i, a in enumerate(angles))
             key = (kinds[0], axes, values)
             known = self.rotations.get(key)
             if known is None:  # the same rotation recurs often (read-only, so poses may share it)
@@ -265,9 +276,12 @@ class _Reader:
             return SHAPE_KINDS[kind](**kwargs)
         except ShapeError as exc:
             field = getattr(exc, "field", None)
+            message = str(exc)
             if field and field[-2:] in ("_x", "_y", "_z") and SHAPE_FILE_FIELDS[kind].get(field[:-2]) == "vector3":
+                own = field
                 field = f"{field[:-2]}[{'xyz'.index(field[-1])}]"  # name the file's field: size_y -> size[1]
-            raise self.error(item, prefix + (field or "shape"), str(exc)) from None
+                message = message.replace(own, field)
+            raise self.error(item, prefix + (field or "shape"), message) from None
 
 
     def file_shape(self, kind: str, table: Mapping[str, Any], item: str, prefix: str = "") -> Any:
@@ -398,8 +412,10 @@ def _build(
     head = data.get("model", {})
     if not isinstance(head, dict):
         raise ModelFileError(label, "[model]", None, "must be a table with at least a 'name'")
-    if not isinstance(head.get("name"), str) or not head["name"].strip():
+    if "name" not in head:
         raise ModelFileError(label, "[model]", "name", "is missing (every model needs a name)")
+    if not isinstance(head["name"], str) or not head["name"].strip():
+        raise ModelFileError(label, "[model]", "name", f"expected non-empty text, got {head['name']!r}")
     for key in sorted(set(head) - MODEL_FIELDS):
         raise ModelFileError(label, "[model]", key, f"unknown field; allowed: {', '.join(sorted(MODEL_FIELDS))}")
     for key in ("description", "rulebook"):
@@ -430,11 +446,12 @@ def _build(
     try:
         env = expr.evaluate_parameters(params, overrides={**(active.override_map if active else {}), **(overrides or {})})
     except expr.ParameterError as exc:
-        if active is not None and exc.name in active.override_map:
-            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", exc.message) from None
-        if exc.name is not None and exc.name in (overrides or {}):
-            raise ModelFileError(label, f"--set {exc.name}", None, exc.message) from None
+        # an expression error as one line: the message, then where in the text (not the text and a caret line)
         message = _one_line(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
+        if active is not None and exc.name in active.override_map:
+            raise ModelFileError(active.file, f"case '{active.name}'", f"set.{exc.name}", message) from None
+        if exc.name is not None and exc.name in (overrides or {}):
+            raise ModelFileError(label, f"--set {exc.name}", None, message) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
     rd = _Reader(label, defaults, env, base_dir)
@@ -521,6 +538,9 @@ def _build(
                 raise ModelFileError(*where, "case", f"the model defines no load case '{name}'; cases: "
                                      f"{', '.join(sorted(case_names))}")
     components, rules = modelfile_cases.select_case(cases, active, components, optional, rules)
+    if not components:  # nothing to weigh: the fractions and the CG of no mass are undefined
+        empty = f"case '{active.name}'" if active else "[[part]]"
+        raise rd.error(empty, None, "the model has no parts (none defined, or every one optional or switched off)")
 
     return Model(
         name=head["name"].strip(),
@@ -810,7 +830,7 @@ def _cutouts(rd: _Reader, table: Mapping[str, Any], item: str, parent: Any) -> t
         shape = rd.shape(ct, item, prefix)
         if shape.volume() <= 0.0:
             raise rd.error(item, prefix + "shape", "a cut-out needs a volume")
-        pose = rd.pose(ct, item)
+        pose = rd.pose(ct, item, prefix)
         pts = pose.apply(_surface_samples(shape))
         inside = parent.contains(pts, tol=1e-9 * scale)
         if not np.all(inside):
@@ -908,6 +928,8 @@ def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> 
                 kw[attr] = rd.quantity(table[key], "number", item, key)
                 if not 0.0 <= kw[attr] <= 1.0:
                     raise rd.error(item, key, "a fraction lies between 0 and 1")
+        if kw.get("minimum", 0.0) > kw.get("maximum", 1.0):
+            raise rd.error(item, "max", f"max ({kw['maximum']:g}) is below min ({kw['minimum']:g}): no car can pass")
     else:
         if "limit" not in table:
             raise rd.error(item, "limit", "is missing")

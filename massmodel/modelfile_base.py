@@ -13,7 +13,7 @@ try:  # tomli is the standard library's tomllib compiled (about 4x faster on a 1
     from tomli import TOMLDecodeError
     from tomli import loads as toml_loads
 except ImportError:  # pragma: no cover - tomli is a dependency, tomllib the fallback
-    from tomllib import TOMLDecodeError
+    from tomllib import TOMLDecodeError  # type: ignore[assignment]
     from tomllib import loads as toml_loads
 
 __all__ = ["ModelFileError", "read_toml", "parse_toml", "resolve_extends", "LIST_SECTIONS", "SOURCE_KEY"]
@@ -61,6 +61,20 @@ LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver", "allowed_con
 SOURCE_KEY = "__file__"  # which file a merged table came from (set by resolve_extends, removed before use)
 
 
+_TABLE_SECTIONS = {"parameters": "must be a table of name = value", "materials": "must be a table",
+                   "units": "must be a table", "vehicle": "must be a table"}
+
+
+def _check_section_types(data: dict[str, Any], label: str) -> None:
+    """The sections that merging reads must have the right TOML type (the same messages as the loader's)."""
+    for key, message in _TABLE_SECTIONS.items():
+        if key in data and not isinstance(data[key], dict):
+            raise ModelFileError(label, f"[{key}]", None, message)
+    for key in LIST_SECTIONS:
+        if key in data and not isinstance(data[key], list):
+            raise ModelFileError(label, f"[[{key}]]", None, f"write each entry as a [[{key}]] table")
+
+
 def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tuple[Path, ...]) -> dict[str, Any]:
     """Merge a model that ``extends`` another file into one data tree.
 
@@ -84,6 +98,8 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
         raise ModelFileError(label, item, "extends", f"'{ref}' extends itself (directly or through other files)")
     base = resolve_extends(read_toml(base_path, str(base_path), (label, item, "extends")), str(base_path),
                             base_path.parent, chain + (base_path.resolve(),))
+    _check_section_types(data, label)
+    _check_section_types(base, str(base_path))
     for key in LIST_SECTIONS:
         for table in base.get(key, []):
             if isinstance(table, dict):

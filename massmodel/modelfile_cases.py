@@ -111,8 +111,12 @@ def check_case_parameters(
         try:
             expr.evaluate_parameters(definitions, overrides={**mine, **overrides})
         except expr.ParameterError as exc:
+            from .modelfile import _one_line
+
             field = f"set.{exc.name}" if exc.name in mine else "set"
-            raise ModelFileError(case.file, f"case '{case.name}'", field, str(exc)) from None
+            # the expression error as one line with its position (not the text and a caret line run together)
+            why = _one_line(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
+            raise ModelFileError(case.file, f"case '{case.name}'", field, f"parameter '{exc.name}': {why}") from None
 
 
 def rule_case_names(rd: Any, value: Any, item: str) -> tuple[str, ...]:

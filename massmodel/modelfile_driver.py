@@ -42,7 +42,7 @@ def driver_components(
     if any(g.mirror for g in enclosing):
         raise rd.error(item, "path", "a driver cannot lie in a mirrored group (it makes both sides itself)")
     key = table["segment_data"]
-    if key not in SEGMENT_DATA:
+    if not isinstance(key, str) or key not in SEGMENT_DATA:
         raise rd.error(item, "segment_data", f"expected one of {', '.join(SEGMENT_DATA)}, got {key!r}")
     data = SEGMENT_DATA[key]
     group_pose = Pose.identity()

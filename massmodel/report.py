@@ -51,6 +51,10 @@ CONVENTIONS = {
     "principal_axes": "rows are unit vectors in model axes, in the order of principal_moments_kg_m2 (ascending), "
     "right-handed",
     "loads": "axle and corner loads as mass-equivalent kg (load / 9.80665 m/s^2)",
+    "vehicle": "cg_height_m above the ground plane along 'up'; cg_behind_front_axle_m along -'forward' from the front "
+    "axle line; cg_left_of_centre_m along 'left' from the centre plane (left . p = 0); inertia_vehicle_axes_kg_m2: "
+    "moments about axes through the CG along forward (roll), left (pitch) and up (yaw); vehicle_axes are unit "
+    "vectors in model axes",
     "inertia_about_points": "tensor of the whole model about point_m (model coordinates), components in the axes "
     "whose unit vectors (model axes) are the rows of 'axes'; tensor convention",
 }

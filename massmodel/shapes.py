@@ -38,6 +38,7 @@ import numpy as np
 from massmodel import shapes_cad as _geo
 
 __all__ = [
+    "MAX_LENGTH_M",
     "SHAPE_KINDS",
     "Box",
     "Cone",
@@ -75,8 +76,13 @@ class ShapeError(ValueError):
         self.kind = kind
 
 
+#: Largest size accepted, m: no part is 1000 km long, and the cube of a bigger number (a volume, an inertia) could
+#: overflow a float (OverflowError) instead of giving a clear message.
+MAX_LENGTH_M = 1.0e6
+
+
 def _as_length(kind: str, field: str, value: object) -> float:
-    """Validate a size: a real number, finite, > 0 (m)."""
+    """Validate a size: a real number, finite, > 0 and at most :data:`MAX_LENGTH_M` (m)."""
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         raise ShapeError(f"{field} must be a length in metres (a number), got {value!r}", field, kind)
     number = float(value)
@@ -84,6 +90,8 @@ def _as_length(kind: str, field: str, value: object) -> float:
         raise ShapeError(f"{field} ({number} m) must be a finite length", field, kind)
     if number <= 0.0:
         raise ShapeError(f"{field} ({number:g} m) must be greater than zero", field, kind)
+    if number > MAX_LENGTH_M:
+        raise ShapeError(f"{field} ({number:g} m) must be at most {MAX_LENGTH_M:g} m", field, kind)
     return number
 
 

@@ -22,7 +22,7 @@ import numpy as np
 import numpy.typing as npt
 
 from .massprops import MassProperties
-from .model import Model, Rule, RuleCheck, Vehicle, in_group
+from .model import Model, Rule, RuleCheck, Vehicle
 
 __all__ = ["Balance", "RuleResult", "static_balance", "check_rules", "ASSUMPTIONS", "AT_LIMIT_RTOL"]
 
@@ -147,13 +147,8 @@ class RuleResult:
 
 
 def _mass_of(model: Model, include: tuple[str, ...] = ("",), exclude: tuple[str, ...] = ()) -> float:
-    return float(
-        sum(
-            c.props.mass
-            for c in model.components
-            if any(in_group(c.path, g) for g in include) and not any(in_group(c.path, g) for g in exclude)
-        )
-    )
+    """Mass of the parts in any of ``include`` and in none of ``exclude``, kg (each part counted once)."""
+    return float(sum(c.props.mass for c in model.select(include, exclude)))
 
 
 def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:

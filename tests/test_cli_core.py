@@ -133,6 +133,7 @@ rotate = { extrinsic = "x", angles = ["30 deg"] }
         (["--inertia-about", "0, 0, 5 kg"], "z: expected a length"),
         (["--inertia-about", "0, 0, 5"], "z: expected a length"),
         (["--inertia-about", "0, 0, __import__('os')"], "unknown function '__import__'"),
+        (["--inertia-about", "1e300 mm, 0, 0"], "x: 1e+297 m is farther than 1e+06 m"),
         (["--inertia-about", "cg", "--inertia-axes", "sideways"], "expected 'model', 'vehicle' or a rotation"),
         (["--inertia-about", "cg", "--inertia-axes", "extrinsic xy: 5 deg"], "expected 2 angles"),
         (["--inertia-about", "cg", "--inertia-axes", "extrinsic x: 5"], "angles need a unit"),

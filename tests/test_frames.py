@@ -7,7 +7,13 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from conftest import assert_close
-from massmodel.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from massmodel.frames import (
+    Pose,
+    RotationKind,
+    elementary_rotation,
+    reflection_across_plane,
+    rotation_from_sequence,
+)
 
 
 @pytest.mark.parametrize("seq", ["xyz", "zyx", "zxz", "y", "xy"])
@@ -18,6 +24,14 @@ def test_sequences_match_scipy(seq):
                  Rotation.from_euler(seq, angles).as_matrix(), 1e-14)
     assert_close(rotation_from_sequence(RotationKind.INTRINSIC, seq, angles),
                  Rotation.from_euler(seq.upper(), angles).as_matrix(), 1e-14)
+
+
+@pytest.mark.parametrize("axis", ["x", "y", "z"])
+def test_elementary_rotation_matches_scipy(axis):
+    # scipy.spatial.transform.Rotation.from_euler (active, right-hand rule) as the independent oracle
+    assert_close(elementary_rotation(axis, 0.7), Rotation.from_euler(axis, 0.7).as_matrix(), 1e-15)
+    with pytest.raises(ValueError, match="rotation axis"):
+        elementary_rotation("w", 0.7)
 
 
 def test_extrinsic_xyz_equals_intrinsic_zyx_reversed():

@@ -74,8 +74,9 @@ def test_two_point_masses_dumbbell():
 
 
 def test_parallel_axis_about_point():
-    # Cuboid about a corner: I_x = m(b² + c²)/3 (Machinery's Handbook, 31st ed., p. 253, axis through an edge... about
-    # the corner the tensor is m/3 (b²+c²) on the diagonal and -m ab/4 off it; Goldstein §5.3 worked by hand).
+    # Cuboid about one corner, edges along the axes: moments m(b² + c²)/3 and cyclic, products -m ab/4 and cyclic
+    # (tensor convention). The moments are Machinery's Handbook 31st ed. p. 253 (axis along an edge); the products
+    # follow from I_xy = -∫xy dm = -m (a/2)(b/2) (Goldstein et al. §5.3, worked by hand).
     m, a, b, c = 3.0, 0.4, 0.2, 0.1
     mp = box_props(m, a, b, c, center=(a / 2, b / 2, c / 2))
     expected = np.array([

@@ -88,3 +88,9 @@ def test_the_library_is_read_only_and_checks_bands() -> None:
     with pytest.raises(MaterialError, match="lies outside its band") as info:
         Material("x", "x", 900.0, density_min=1000.0, density_max=1100.0)
     assert info.value.field == "density"
+    with pytest.raises(MaterialError, match=r"lies outside its band \(density_min 1000 kg/m\^3 is above it\)") as info:
+        Material("x", "x", 900.0, density_min=1000.0)
+    assert info.value.field == "density_min"
+    with pytest.raises(MaterialError, match=r"\(density_max 800 kg/m\^3 is below it\)") as info:
+        Material("x", "x", 900.0, density_max=800.0)
+    assert info.value.field == "density_max"

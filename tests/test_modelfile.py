@@ -76,7 +76,7 @@ BAD_INPUT = {
     "missing maturity": (HEAD + PLATE_WITH('maturity = "estimated"\n', ""), "part 'body/plate'", "maturity",
                          "is missing"),
     "zero size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 0, 20]"), "part 'body/plate'", "size[1]",
-                  "must be greater than zero"),
+                  "size[1] (0 m) must be greater than zero"),
     "negative size": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 50, -20]"), "part 'body/plate'", "size[2]",
                       "must be greater than zero"),
     "negative radius": (HEAD + PLATE_WITH('shape = "box"\nsize = [100, 50, 20]', 'shape = "cylinder"\n'
@@ -91,6 +91,24 @@ BAD_INPUT = {
     "material suggestion": (HEAD + PLATE_WITH("structural_steel", "structural_stel"), "part 'body/plate'",
                             "material", "did you mean structural_steel"),
     "duplicate path": (HEAD + PLATE + PLATE, "part 'body/plate'", "path", "duplicate path 'body/plate'"),
+    "absurd size (its cube would overflow)": (HEAD + PLATE_WITH("[100, 50, 20]", '[100, "1e308 * 10 mm", 20]'),
+                                              "part 'body/plate'", "size[1]", "is 1e+306 m; no part of a car"),
+    "absurd position": (HEAD + PLATE + 'at = [0, "1e300 mm", 0]\n', "part 'body/plate'", "at[1]",
+                        "(the limit is 1e+06 m)"),
+    "absurd pattern step": (HEAD + PLATE + 'pattern = { count = 2, step = [0, 0, "1e300 mm"] }\n',
+                            "part 'body/plate'", "pattern.step[2]", "(the limit is 1e+06 m)"),
+    "absurd mass": (HEAD + PLATE_WITH('material = "structural_steel"', 'mass = "1e300 kg"'), "part 'body/plate'",
+                    "mass", "(the limit is 1e+09 kg)"),
+    "cut-out rotate not a table": (HEAD + PLATE + 'cut = [{ shape = "sphere", radius = 5, rotate = [0, 0, 90] }]\n',
+                                   "part 'body/plate'", "cut[0].rotate", "expected a table"),
+    "cut-out position": (HEAD + PLATE + 'cut = [{ shape = "sphere", radius = 5, at = [0, "1 kg", 0] }]\n',
+                         "part 'body/plate'", "cut[0].at[1]", "expected a length"),
+    "driver segment data not text": (HEAD + VEHICLE + PLATE + '[[driver]]\npath = "driver"\nsegment_data = [1]\n'
+                                     'mass = "70 kg"\nstature = 1700\nseat_back_angle = 30\nhip_point = [0, 0, 0]\n'
+                                     'ankle_point = [800, 0, 0]\nwrist_point = [300, 0, 300]\n', "driver 'driver'",
+                                     "segment_data", "expected one of"),
+    "no parts": (HEAD + VEHICLE, "[[part]]", None, "the model has no parts"),
+    "only optional parts": (HEAD + PLATE + "optional = true\n", "[[part]]", None, "the model has no parts"),
     "nan number": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, nan, 20]"), "part 'body/plate'", "size[1]",
                    "must be finite"),
     "infinite number": (HEAD + PLATE_WITH("[100, 50, 20]", "[100, 50, -inf]"), "part 'body/plate'", "size[2]",
@@ -164,6 +182,8 @@ BAD_INPUT = {
     "rule excludes a missing group": (HEAD + PLATE + '[[rule]]\nname = "dry"\ncheck = "min_mass"\n'
                                       'exclude = ["fuel"]\nlimit = "80 kg"\n', "rule 'dry'", "exclude",
                                       "no part lies in group 'fuel'"),
+    "front fraction band upside down": (HEAD + VEHICLE + PLATE + '[[rule]]\nname = "balance"\ncheck = "front_fraction"\n'
+                                        'min = 0.6\nmax = 0.4\n', "rule 'balance'", "max", "is below min (0.6)"),
     "rule needs a vehicle": (HEAD + PLATE + '[[rule]]\nname = "front"\ncheck = "min_axle_load"\naxle = "front"\n'
                              'limit = "80 kg"\n', "rule 'front'", "check", "needs a [vehicle] section"),
     "rule limit unit": (HEAD + PLATE + '[[rule]]\nname = "dry"\ncheck = "min_mass"\nlimit = "80 mm"\n',
@@ -234,6 +254,9 @@ def test_override_errors_name_the_option(tmp_path: Path) -> None:
     err = error_of(path, {"thick": "10 kg"})
     assert (err.item, err.field) == ("part 'body/plate'", "size[2]")
     assert "expected a length" in err.message
+    err = error_of(path, {"thick": "10 mm +"})  # the expression error as one line with its position, no caret
+    assert (err.item, err.field) == ("--set thick", None)
+    assert err.message.endswith("(in '10 mm +', at character 8)") and "^" not in err.message
 
 
 # --------------------------------------------------------------------------------------------------------------
@@ -594,6 +617,37 @@ def test_extends_errors(tmp_path: Path, child: str, file: str, item: str, field:
     err = error_of(path)
     assert (err.file, err.item, err.field) == (str(tmp_path / file), item, field), err
     assert fragment in err.message
+
+
+@pytest.mark.parametrize(
+    ("top", "item", "fragment"),
+    [
+        ("parameters = 3", "[parameters]", "must be a table of name = value"),
+        ("materials = [1]", "[materials]", "must be a table"),
+        ("part = 3", "[[part]]", "write each entry as a [[part]] table"),
+        ("case = 3", "[[case]]", "write each entry as a [[case]] table"),
+    ],
+)
+def test_extends_with_a_section_of_the_wrong_type(tmp_path: Path, top: str, item: str, fragment: str) -> None:
+    # the merge of a variant with its base reads these sections: a wrong TOML type is an error, not a traceback
+    write_base(tmp_path)
+    path = write(tmp_path, top + '\n[model]\nname = "variant"\nextends = "base/base.toml"\n')
+    err = error_of(path)
+    assert (err.file, err.item, err.field) == (str(path), item, None), err
+    assert fragment in err.message
+
+
+def test_a_case_that_switches_every_part_off(tmp_path: Path) -> None:
+    path = write(tmp_path, HEAD + PLATE + '[[case]]\nname = "bare"\nswitch_off = ["body"]\n')
+    with pytest.raises(ModelFileError) as info:
+        load_model(path, case="bare")
+    assert (info.value.item, info.value.field) == ("case 'bare'", None)
+    assert "the model has no parts" in info.value.message
+
+
+def test_model_name_not_text(tmp_path: Path) -> None:
+    err = error_of(write(tmp_path, "[model]\nname = 3\n" + PLATE))
+    assert (err.item, err.field) == ("[model]", "name") and "expected non-empty text, got 3" in err.message
 
 
 def test_extends_itself_and_a_missing_base(tmp_path: Path) -> None:

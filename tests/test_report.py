@@ -124,6 +124,7 @@ def test_vehicle_balance(report: dict) -> None:
     assert report["cg_height_m"] == pytest.approx(cg[2] + 0.3, rel=1e-12)
     assert "no diagonal (cross) preload" in report["load_assumptions"]
     assert report["inertia_vehicle_axes_kg_m2"]["yaw"] == pytest.approx(report["inertia_cg_kg_m2"][2][2])
+    assert "axes through the CG along forward (roll)" in report["conventions"]["vehicle"]  # the frame is stated
 
 
 def test_rules(report: dict) -> None:
