@@ -12,8 +12,8 @@ Conventions
 References
 ----------
 .. [1] Goldstein, Poole & Safko, *Classical Mechanics*, 3rd ed. (2002), §5.3 (inertia tensor, parallel-axis theorem).
-.. [2] Zimmerman & Nakai, "Are You Sure? Uncertainty in Mass Properties Engineering", SAWE Paper 3360 (2005)
-   (positive vs negative product-of-inertia conventions).
+.. [2] The "positive" (+∫xy dm) and "negative" (tensor, −∫xy dm) product-of-inertia conventions of mass-properties
+   reports: common practice, no source.
 """
 
 from __future__ import annotations
