@@ -14,7 +14,7 @@ Drawn with matplotlib's Agg canvas (no display needed).
 
 References
 ----------
-.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), §2.1, eqs. 2.1–2.2 (axle loads of a
+.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), ch. 2, eqs. 2.1–2.2 from memory (axle loads of a
    parked car on level ground: F_front = m g a2 / l, F_rear = m g a1 / l).
 """
 

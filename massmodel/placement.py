@@ -34,7 +34,7 @@ rows that must give and by how much.
 
 References
 ----------
-.. [1] Jazar, Vehicle Dynamics: Theory and Application, Springer (2008), §2.1 (static axle loads).
+.. [1] Jazar, Vehicle Dynamics: Theory and Application, Springer (2008), ch. 2 (static axle loads; section from memory).
 .. [2] Dinkelbach, W. (1967). On nonlinear fractional programming. Management Science 13(7), 492–498.
 .. [3] Huangfu, Q. and Hall, J. A. J. (2018). Parallelizing the dual revised simplex method. Math. Prog. Comp. 10
    (the HiGHS solver behind scipy's ``linprog``/``milp``).

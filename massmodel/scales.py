@@ -13,7 +13,7 @@ CG's forward coordinate (forward · p) in the model frame.
 
 References
 ----------
-.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), §2.1, eqs. 2.1–2.2 and Example 40
+.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), ch. 2, eqs. 2.1–2.2 (from memory) and Example 40
    (a1 = l F_rear / (F_front + F_rear) for a parked car on level ground).
 .. [2] MIL-W-3947B, weight and balance: actual weight = mean of three independent weighings, scales unloaded
    between them.
@@ -324,7 +324,7 @@ def balance_from_corners(corners: CornerWeights, geometry: Geometry) -> ScalesBa
 
     Notes
     -----
-    Moments about the front axle line and about the centre plane (Jazar 2008, eqs. 2.1–2.2, applied per side):
+    Moments about the front axle line and about the centre plane (Jazar 2008, ch. 2, applied per side; equation numbers from memory):
     ``a1 = L (F_RL + F_RR) / W`` and ``y = [t_f (F_FL − F_FR) + t_r (F_RL − F_RR)] / (2 W)``. The preload-free loads
     split each axle by the lever rule on y (as :func:`massmodel.vehicle.static_balance`); the difference is the
     statically indeterminate diagonal share ("wedge"), which has the pattern (w, −w, −w t_f/t_r, +w t_f/t_r).

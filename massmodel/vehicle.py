@@ -9,7 +9,7 @@ Loads are given as mass-equivalent loads in kg (load / g0), as is customary for 
 
 References
 ----------
-.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), §2.1 (parked car on level ground,
+.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), ch. 2 (parked car on level ground; section and equation numbers from memory,
    eqs. 2.1–2.2: F_front = m g a2 / l, F_rear = m g a1 / l).
 .. [2] Gillespie, *Fundamentals of Vehicle Dynamics*, SAE (1992), ch. 2 (static loads on level ground).
 """
@@ -109,7 +109,7 @@ def static_balance(mp: MassProperties, vehicle: Vehicle) -> Balance:
 
     Notes
     -----
-    Moments about the axle lines give ``F_front = m a2 / L`` and ``F_rear = m a1 / L`` (Jazar 2008, eq. 2.1–2.2);
+    Moments about the axle lines give ``F_front = m a2 / L`` and ``F_rear = m a1 / L`` (Jazar 2008, ch. 2; equation numbers from memory);
     each axle load splits as ``F_left = F_axle (t/2 + y) / t`` with y the CG's lateral offset to the left and t the
     axle's track (rigid chassis, no diagonal preload; common practice, no source).
     """

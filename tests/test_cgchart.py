@@ -31,7 +31,7 @@ def _balance_at_station(model, station):
 
 
 def test_axle_band_edges_give_exactly_the_minimum_loads(car):
-    # Independent path: vehicle.static_balance (Jazar 2008, §2.1, eqs. 2.1-2.2) evaluated at the band edges.
+    # Independent path: vehicle.static_balance (Jazar 2008, ch. 2; equation numbers from memory) evaluated at the band edges.
     bands = {b.name: b for b in station_bands(car)}
     axle = bands["axle-load minimums"]
     front_min = next(r.limit for r in car.rules if r.check.value == "min_axle_load" and r.axle == "front")

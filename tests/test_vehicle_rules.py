@@ -117,7 +117,7 @@ FIXED = [(-1.6, 400.0), (-1.7, 8.0), (-2.6, 150.0), (0.0, 24.0), (-3.6, 24.0), (
 
 def ballast_x_for_front_load(front_kg: float, ballast_kg: float) -> float:
     """Ballast position (m) that puts ``front_kg`` on the front axle: moments about the rear axle line,
-    F_front L = Σ m (x + L) (Jazar 2008, eqs. 2.1-2.2)."""
+    F_front L = Σ m (x + L) (Jazar 2008, ch. 2; equation numbers from memory)."""
     moment = sum(m * (x + WHEELBASE) for x, m in FIXED)
     return (front_kg * WHEELBASE - moment) / ballast_kg - WHEELBASE
 

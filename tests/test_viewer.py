@@ -242,7 +242,7 @@ def test_title_block_numbers_match_the_model(car):
     m = masses.sum()
     cg = (masses[:, None] * centres).sum(axis=0) / m
     v = car.vehicle
-    # front share = a2 / L with a2 the CG's distance ahead of the rear axle (Jazar 2008, §2.1, eq. 2.1)
+    # front share = a2 / L with a2 the CG's distance ahead of the rear axle (Jazar 2008, ch. 2; equation number from memory)
     front_fraction = (cg @ v.forward - v.rear_axle_station) / v.wheelbase
     assert rows["total mass"] == f"{m:.2f} kg · {len(car.components)} parts"
     assert rows["CG x / y / z"] == f"{cg[0]:.4f} / {cg[1]:.4f} / {cg[2]:.4f} m, model axes"
