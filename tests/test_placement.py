@@ -1,6 +1,6 @@
 """Placing ballast across slots: lever-rule closed forms, brute-force grids, infeasibility, density bands, demo.
 
-Static axle loads by moments about the axle lines (Jazar, Vehicle Dynamics, Springer 2008, §2.1, eqs. 2.1-2.2):
+Static axle loads by moments about the axle lines (Jazar, Vehicle Dynamics, Springer 2008, ch. 2; equation numbers from memory):
 F_front = m a2 / L. The front fraction of a car plus ballast masses is then the lever rule
 f = (F0 + Σ mᵢ φᵢ) / (M0 + Σ mᵢ) with φᵢ = (xᵢ − x_rear) / L. The grids below evaluate the same physics with their
 own closed forms (block CG = floor + clearance + thickness / 2, thickness = m / (ρ A)), not the optimiser's model.

@@ -2,7 +2,7 @@
 
 Closed forms: cuboid I_xx = m(b² + c²)/12 (Machinery's Handbook 31st ed. pp.253-254); parallel-axis theorem
 I = Σ[I_i + m_i(|d_i|² E − d_i d_iᵀ)] (Goldstein, Poole & Safko, Classical Mechanics, §5.3); static axle loads
-F_front = m a2 / L (Jazar, Vehicle Dynamics, 2008, eqs. 2.1-2.2); corner split by the lever rule (rigid chassis, no
+F_front = m a2 / L (Jazar, Vehicle Dynamics, 2008, ch. 2; equation numbers from memory); corner split by the lever rule (rigid chassis, no
 diagonal preload: common practice, no source).
 """
 

@@ -49,7 +49,7 @@ def test_jazar_example_40_from_scale_readings_in_newton():
 
 
 def test_closed_forms_for_cg_and_cross_weight():
-    # Moments about the front axle line and about the centre plane (Jazar 2008, eqs. 2.1-2.2 per side):
+    # Moments about the front axle line and about the centre plane (Jazar 2008, ch. 2, per side; equation numbers from memory):
     # a1 = L (RL + RR) / W, y = [tf (FL - FR) + tr (RL - RR)] / (2 W); cross = (FR + RL) / W.
     fl, fr, rl, rr = 92.4, 94.1, 126.8, 124.2
     w = fl + fr + rl + rr
