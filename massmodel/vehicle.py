@@ -11,7 +11,7 @@ References
 ----------
 .. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), ch. 2 (parked car on level ground; section and equation numbers from memory,
    eqs. 2.1–2.2: F_front = m g a2 / l, F_rear = m g a1 / l).
-.. [2] Gillespie, *Fundamentals of Vehicle Dynamics*, SAE (1992), ch. 2 (static loads on level ground).
+.. [2] Gillespie, *Fundamentals of Vehicle Dynamics*, SAE (1992), ch. 2 (static loads on level ground; from memory).
 """
 
 from __future__ import annotations
