@@ -7,10 +7,11 @@ import os
 from collections.abc import Callable
 from pathlib import Path
 
-__all__ = ["write_atomic", "write_text_atomic"]
+__all__ = ["write_atomic", "write_text_atomic", "current_umask"]
 
 
-def _umask() -> int:
+def current_umask() -> int:
+    """The process umask (read without changing it), for giving temporary files the user's usual mode."""
     mask = os.umask(0o022)
     os.umask(mask)
     return mask
@@ -40,7 +41,7 @@ def write_atomic(path: str | Path, write: Callable[[Path], object], suffix: str 
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix or target.suffix or ".tmp", dir=target.parent)
     os.close(fd)
     try:
-        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600 files: give the output the user's usual mode
+        os.chmod(tmp, 0o666 & ~current_umask())  # mkstemp makes 0600 files: give the output the user's usual mode
         write(Path(tmp))
         os.replace(tmp, target)
     except BaseException:

@@ -37,6 +37,7 @@ from typing import Any
 
 import numpy as np
 
+from .atomic import current_umask
 from .massprops import MassProperties, combine_arrays
 from .model import Component, MassSource, Model, in_group
 
@@ -195,12 +196,6 @@ def stl_bytes(vertices: np.ndarray, faces: np.ndarray, header: str) -> bytes:
 # --------------------------------------------------------------------------------------------------
 
 
-def _umask() -> int:
-    mask = os.umask(0o022)
-    os.umask(mask)
-    return mask
-
-
 class _Stage:
     def __init__(self) -> None:
         self.pending: list[tuple[Path, Path]] = []
@@ -219,7 +214,7 @@ class _Stage:
         except OSError as exc:
             raise ExportError(f"cannot write to the folder '{folder}': {exc.strerror or exc}") from None
         os.close(fd)
-        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600 files; give the export the user's usual mode
+        os.chmod(tmp, 0o666 & ~current_umask())  # mkstemp makes 0600 files; give the export the user's usual mode
         self.made_dirs.extend(reversed(missing))
         path = Path(tmp)
         self.pending.append((path, target))

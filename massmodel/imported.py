@@ -134,8 +134,36 @@ def _readonly(a: Any) -> np.ndarray:
 # --------------------------------------------------------------------------------------------------
 
 
+class _StoredProperties:
+    """The mass-properties accessors of a shape read from a file: the values are computed once when the file is read
+    (by OpenCascade or trimesh) and stored in the fields ``_volume``, ``_centroid``, ``_inertia`` and ``_bounds``,
+    all in the file frame, SI. An open mesh stores zero volume and inertia and its bounding-box centre."""
+
+    __slots__ = ()
+    _volume: float
+    _centroid: np.ndarray
+    _inertia: np.ndarray
+    _bounds: np.ndarray
+
+    def volume(self) -> float:
+        """Volume, m³."""
+        return self._volume
+
+    def centroid(self) -> np.ndarray:
+        """Centroid, (3,) float, m, file frame."""
+        return self._centroid
+
+    def inertia_per_density(self) -> np.ndarray:
+        """Inertia at unit density about the centroid, (3, 3) float, m⁵, file axes, tensor convention."""
+        return self._inertia
+
+    def bounds(self) -> np.ndarray:
+        """Axis-aligned bounding box, (2, 3) float, m, file frame."""
+        return self._bounds
+
+
 @dataclass(frozen=True, eq=False)
-class StepShape:
+class StepShape(_StoredProperties):
     """Solid(s) read from a STEP file; shape frame = the file's frame, metres.
 
     Attributes
@@ -158,22 +186,6 @@ class StepShape:
     _bounds: np.ndarray = field(repr=False)
     kind: ClassVar[str] = "step"
     FIELDS: ClassVar[dict[str, str]] = {"file": "file", "unit": "unit"}
-
-    def volume(self) -> float:
-        """Volume of the solids, m³ (OpenCascade)."""
-        return self._volume
-
-    def centroid(self) -> np.ndarray:
-        """Centroid, (3,) float, m, file frame."""
-        return self._centroid
-
-    def inertia_per_density(self) -> np.ndarray:
-        """Inertia at unit density about the centroid, (3, 3) float, m⁵, file axes, tensor convention."""
-        return self._inertia
-
-    def bounds(self) -> np.ndarray:
-        """Tight axis-aligned bounding box, (2, 3) float, m, file frame."""
-        return self._bounds
 
     def contains(self, points: np.ndarray, tol: float = 1e-9) -> np.ndarray:
         """Closed-set membership: (N,) bool for points (N, 3) in m, file frame. A point is inside when OpenCascade's
@@ -375,7 +387,7 @@ def _origin() -> Any:
 
 
 @dataclass(frozen=True, eq=False)
-class MeshShape:
+class MeshShape(_StoredProperties):
     """A triangle mesh read from STL, OBJ or GLB; shape frame = the file's frame scaled to metres.
 
     Attributes
@@ -406,22 +418,6 @@ class MeshShape:
     @property
     def triangle_count(self) -> int:
         return int(len(self._mesh.faces))
-
-    def volume(self) -> float:
-        """Enclosed volume, m³ (0 for an open mesh: it encloses nothing)."""
-        return self._volume
-
-    def centroid(self) -> np.ndarray:
-        """Centroid of the enclosed volume, (3,) float, m (centre of the bounding box for an open mesh)."""
-        return self._centroid
-
-    def inertia_per_density(self) -> np.ndarray:
-        """Inertia at unit density about the centroid, (3, 3) float, m⁵, tensor convention (zero when open)."""
-        return self._inertia
-
-    def bounds(self) -> np.ndarray:
-        """Axis-aligned bounding box, (2, 3) float, m."""
-        return self._bounds
 
     def contains(self, points: np.ndarray, tol: float = 1e-9) -> np.ndarray:
         """Closed-set membership, (N,) bool: inside a closed mesh, or within ``tol`` (m) of its triangles."""
