@@ -1,9 +1,9 @@
-"""Aggregate N random primitives in random poses: massmodel.batch against OpenCascade and against a bare numpy pass.
+"""Aggregate N random primitives in random poses: massmodel.core.batch against OpenCascade and against a bare numpy pass.
 
 For N = 10², 10⁴, 10⁶ random primitives (all eleven batch kinds, random sizes and densities, random rotations with
 about a third of them mirrored, random positions) this prints:
 
-* time per component of ``massmodel.batch.aggregate_batches`` (validation on, the default);
+* time per component of ``massmodel.core.batch.aggregate_batches`` (validation on, the default);
 * the ratio to an OpenCascade loop over the same assembly (N ≤ 10⁴): ``BRepGProp.VolumeProperties_s`` per placed
   solid, accumulated with ``GProp_GProps.Add(props, density)``; the solids are built beforehand and that time is
   not counted, so the reference is the kernel's integration alone. The agreement of mass, CG and tensor is printed
@@ -33,8 +33,8 @@ import numpy as np  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from massmodel import batch  # noqa: E402
-from massmodel.massprops import MassProperties  # noqa: E402
+from massmodel.core import batch  # noqa: E402
+from massmodel.core.massprops import MassProperties  # noqa: E402
 
 SEED = 20261201
 
@@ -107,9 +107,9 @@ def best_time(fn, arg, repeats: int) -> float:
 
 def occ_solids(parts: list[batch.Batch]) -> list[tuple[object, float, bool]]:
     """Placed OpenCascade solids (mm) of every primitive, with densities (built once, not timed)."""
-    from massmodel.cad import place_solid
-    from massmodel.frames import Pose
-    from massmodel.shapes import SHAPE_KINDS
+    from massmodel.cad.solids import place_solid
+    from massmodel.core.frames import Pose
+    from massmodel.core.shapes import SHAPE_KINDS
 
     solids = []
     for b in parts:
@@ -158,7 +158,7 @@ def peak_extra_bytes(parts: list[batch.Batch]) -> int:
 
 def main(argv: list[str]) -> int:
     sizes = [10**2, 10**4] if "--quick" in argv else [10**2, 10**4, 10**6]
-    print("massmodel.batch: aggregate N random primitives (11 kinds, random poses, 1/3 mirrored); "
+    print("massmodel.core.batch: aggregate N random primitives (11 kinds, random poses, 1/3 mirrored); "
           "CPU time, best of k")
     print(f"{'N':>9}  {'engine s':>9}  {'per part':>9}  {'unchecked':>9}  {'floor s':>8}  {'/floor':>7}  "
           f"{'unch./floor':>11}  {'OCP s':>7}  {'OCP/engine':>10}  {'agree':>7}  {'input B/part':>12}  "

@@ -27,9 +27,9 @@ def main() -> int:
     import trimesh  # noqa: F401
 
     imports_s = time.perf_counter() - t
-    from massmodel.cad import component_solid, has_solid
-    from massmodel.export import ExportOptions, export_model
-    from massmodel.modelfile import load_model
+    from massmodel.cad.export import ExportOptions, export_model
+    from massmodel.cad.solids import component_solid, has_solid
+    from massmodel.modelfile.loader import load_model
 
     car = ROOT / "parts_demo/brindlecombe_bl3.toml"
     model = load_model(car)

@@ -123,8 +123,8 @@ def cli_wall(args: list[str], repeats: int = 3) -> float:
 def main(argv: list[str]) -> int:
     n = int(argv[0]) if argv else 10_000
     t0 = time.perf_counter()
-    from massmodel.modelfile import load_model
-    from massmodel.report import build_report, format_report, write_json_atomic
+    from massmodel.modelfile.loader import load_model
+    from massmodel.report.summary import build_report, format_report, write_json_atomic
     t_import = time.perf_counter() - t0
     with tempfile.TemporaryDirectory(prefix="massmodel-bench-") as tmp:
         path = Path(tmp) / "generated.toml"

@@ -21,11 +21,11 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from massmodel.frames import Pose, RotationKind, rotation_from_sequence  # noqa: E402
-from massmodel.model import Component, MassSource, Maturity, Model  # noqa: E402
-from massmodel.modelfile import load_model  # noqa: E402
-from massmodel.packaging import check_packaging, overlap_volume, placed_solids  # noqa: E402
-from massmodel.shapes import Box, Cylinder, Tube  # noqa: E402
+from massmodel.cad.packaging import check_packaging, overlap_volume, placed_solids  # noqa: E402
+from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence  # noqa: E402
+from massmodel.core.model import Component, MassSource, Maturity, Model  # noqa: E402
+from massmodel.core.shapes import Box, Cylinder, Tube  # noqa: E402
+from massmodel.modelfile.loader import load_model  # noqa: E402
 
 DEMO_TARGET_S = 10.0
 RATIO_TARGET = 10.0

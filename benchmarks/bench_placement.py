@@ -16,9 +16,9 @@ sys.path.insert(0, str(ROOT))
 
 import numpy as np  # noqa: E402
 
-from massmodel.ballast_plan import loads_plan  # noqa: E402
-from massmodel.modelfile import load_model  # noqa: E402
-from massmodel.placement import place_ballast  # noqa: E402
+from massmodel.ballast.placement import place_ballast  # noqa: E402
+from massmodel.ballast.plan import loads_plan  # noqa: E402
+from massmodel.modelfile.loader import load_model  # noqa: E402
 
 CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
 TARGET_S = 2.0
@@ -67,7 +67,7 @@ def main() -> int:
     plan = loads_plan(plan_text(), model, label="benchmark plan")
     assert len(plan.candidates) == 20
     place_ballast(model, plan)  # warm-up: imports
-    from massmodel import ballast
+    from massmodel.ballast import sizing as ballast
 
     runs = []
     for _ in range(3):

@@ -34,8 +34,8 @@ CHILD = r"""
 import json, sys, time, resource
 t0 = time.perf_counter()
 from massmodel import load_model
-from massmodel.scene import build_scene
-from massmodel.sheet import render_sheet
+from massmodel.pictures.scene import build_scene
+from massmodel.pictures.sheet import render_sheet
 t1 = time.perf_counter()
 model = load_model(sys.argv[1])
 t2 = time.perf_counter()
@@ -145,7 +145,7 @@ def report_case(name: str, target: float, wall: float, data: dict, reference: fl
 
 def cutout_comparison() -> None:
     from massmodel import load_model
-    from massmodel.scene import _cad_part_mesh, part_mesh
+    from massmodel.pictures.scene import _cad_part_mesh, part_mesh
 
     model = load_model(CAR)
     parts = [c for c in model.components if c.cutouts]

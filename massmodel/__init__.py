@@ -13,9 +13,9 @@ Quick use::
 
 from __future__ import annotations
 
-from .frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
-from .loadcases import LoadCase
-from .massprops import (
+from massmodel.core.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from massmodel.core.loadcases import LoadCase
+from massmodel.core.massprops import (
     InertiaError,
     MassProperties,
     combine,
@@ -29,8 +29,8 @@ from .massprops import (
     translate,
     validate_inertia,
 )
-from .materials import Material, builtin_materials
-from .model import (
+from massmodel.core.materials import Material, builtin_materials
+from massmodel.core.model import (
     AllowedContact,
     Component,
     Cutout,
@@ -42,10 +42,10 @@ from .model import (
     Slot,
     Vehicle,
 )
-from .modelfile import ModelFileError, load_case_models, load_model, loads_model
-from .report import build_report, format_report
-from .transfer import TransferredLoads, load_transfer
-from .vehicle import Balance, RuleResult, check_rules, static_balance
+from massmodel.modelfile.loader import ModelFileError, load_case_models, load_model, loads_model
+from massmodel.report.summary import build_report, format_report
+from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
+from massmodel.vehicle.transfer import TransferredLoads, load_transfer
 
 __version__ = "0.1.0"
 

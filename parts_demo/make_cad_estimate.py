@@ -22,8 +22,8 @@ from pathlib import Path
 import numpy as np
 
 import massmodel as mm
-from massmodel.massprops import MassProperties, combine
-from massmodel.report import write_json_atomic
+from massmodel.core.massprops import MassProperties, combine
+from massmodel.report.summary import write_json_atomic
 
 HERE = Path(__file__).parent
 CAR = HERE / "brindlecombe_bl3.toml"

@@ -25,7 +25,7 @@ import numpy as np
 from OCP.BRepGProp import BRepGProp
 from OCP.GProp import GProp_GProps
 
-from massmodel.modelfile import loads_model
+from massmodel.modelfile.loader import loads_model
 
 IN, FT, LB, G0 = 0.0254, 0.3048, 0.45359237, 9.80665
 MASS_SI = {"kg": 1.0, "g": 1e-3, "t": 1e3, "lb": LB, "slug": LB * G0 / FT}

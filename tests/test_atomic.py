@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from massmodel.atomic import write_atomic, write_text_atomic
+from massmodel.core.atomic import write_atomic, write_text_atomic
 
 
 def test_text_is_written_whole(tmp_path):

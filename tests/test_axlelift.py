@@ -6,7 +6,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from massmodel.axlelift import (
+from massmodel.core.model import Vehicle
+from massmodel.core.uncertainty import Estimate
+from massmodel.measure.axlelift import (
     angle_from_rise,
     cg_height_from_load_change,
     combine_heights,
@@ -15,9 +17,13 @@ from massmodel.axlelift import (
     load_change,
     reduce_series,
 )
-from massmodel.measurefile import CarGeometry, LiftDirection, LiftReading, LiftSeries, MeasurementFileError
-from massmodel.model import Vehicle
-from massmodel.uncertainty import Estimate
+from massmodel.measure.session import (
+    CarGeometry,
+    LiftDirection,
+    LiftReading,
+    LiftSeries,
+    MeasurementFileError,
+)
 
 G0 = 9.80665  # m/s², standard gravity (NIST SP 811)
 

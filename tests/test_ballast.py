@@ -2,7 +2,7 @@
 
 Reference values: ASTM B777-15 Table 1 density bands and the worked check of REFERENCES.md §2 (a 100 × 50 × 20 mm
 block of Class 1 weighs 1.685–1.730 kg, of Class 4 1.825–1.885 kg). Exact block volumes come from
-massmodel.block (checked against OpenCascade in tests/test_block.py).
+massmodel.ballast.block (checked against OpenCascade in tests/test_block.py).
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from conftest import assert_close
-from massmodel.ballast import (
+from massmodel.ballast.sizing import (
     BlockSpec,
     Envelope,
     Fill,
@@ -27,9 +27,9 @@ from massmodel.ballast import (
     size_block,
     spec_from_parts,
 )
-from massmodel.frames import Pose, RotationKind, rotation_from_sequence
-from massmodel.materials import Material, builtin_materials
-from massmodel.modelfile import load_model
+from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
+from massmodel.core.materials import Material, builtin_materials
+from massmodel.modelfile.loader import load_model
 
 LIB = builtin_materials()
 CLASS = {k: LIB[f"tungsten_b777_class{k}"] for k in (1, 2, 3, 4)}
@@ -112,7 +112,7 @@ def test_rounding_never_breaks_the_minimum_at_the_low_end_of_the_band(target, cl
     if segment is not None:  # every plate within the segment limit at the HIGH end of the band
         assert max(sizing.segment_masses()) <= segment * (1 + 1e-12)
     if n > 1:  # one increment less would miss (the rounding is the least that works)
-        from massmodel.ballast import cross_sizes, stack_for_units
+        from massmodel.ballast.sizing import cross_sizes, stack_for_units
 
         try:
             shorter = stack_for_units(env, spec, cross_sizes(env, spec), n - 1)
@@ -213,7 +213,7 @@ def test_bad_input_is_a_clear_error(make, field, words):
 def test_material_without_density_in_a_model_file(tmp_path):
     f = tmp_path / "car.toml"
     f.write_text('[model]\nname = "x"\n[materials.dense]\nname = "no density given"\n', encoding="utf-8")
-    from massmodel.modelfile import ModelFileError
+    from massmodel.modelfile.loader import ModelFileError
 
     with pytest.raises(ModelFileError, match="material 'dense'.*'density' is missing"):
         load_model(f)

@@ -8,8 +8,8 @@ import sys
 import numpy as np
 import pytest
 
-from massmodel.ballast_plan import Objective, PlanError, load_plan, loads_plan, material_override
-from massmodel.modelfile import load_model
+from massmodel.ballast.plan import Objective, PlanError, load_plan, loads_plan, material_override
+from massmodel.modelfile.loader import load_model
 
 CAR = "parts_demo/brindlecombe_bl3.toml"
 PLAN = "parts_demo/bl3_ballast_plan.toml"
@@ -112,8 +112,8 @@ def test_plan_errors(model, text, item, field, words):
 
 def test_core_ballast_modules_import_without_cad_or_plotting():
     # the sizing and placement maths need numpy (and scipy when solving), not cadquery or matplotlib
-    code = ("import sys; import massmodel.block, massmodel.ballast, massmodel.ballast_plan, massmodel.placement, "
-            "massmodel.seat_ballast, massmodel.ballast_report, massmodel.ballast_parts, massmodel.ballast_export; "
+    code = ("import sys; import massmodel.ballast.block, massmodel.ballast.sizing, massmodel.ballast.plan, massmodel.ballast.placement, "
+            "massmodel.ballast.seat, massmodel.report.ballast, massmodel.ballast.parts, massmodel.ballast.export; "
             "bad = [m for m in ('cadquery', 'OCP', 'matplotlib', 'pyvista') if m in sys.modules]; "
             "print(bad); raise SystemExit(1 if bad else 0)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)

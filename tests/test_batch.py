@@ -1,5 +1,5 @@
-"""massmodel.batch (arrays of primitives) against the per-component path (Component.props, Model.mass_properties),
-which uses the closed forms of massmodel.shapes one part at a time; both must agree to 1e-12."""
+"""massmodel.core.batch (arrays of primitives) against the per-component path (Component.props, Model.mass_properties),
+which uses the closed forms of massmodel.core.shapes one part at a time; both must agree to 1e-12."""
 
 from __future__ import annotations
 
@@ -7,10 +7,10 @@ import numpy as np
 import pytest
 
 from conftest import assert_close, assert_props_close
-from massmodel import batch
-from massmodel.frames import Pose
-from massmodel.model import Component, MassSource, Maturity, Model
-from massmodel.shapes import SHAPE_KINDS
+from massmodel.core import batch
+from massmodel.core.frames import Pose
+from massmodel.core.model import Component, MassSource, Maturity, Model
+from massmodel.core.shapes import SHAPE_KINDS
 
 
 def random_rotations(rng: np.random.Generator, n: int) -> np.ndarray:

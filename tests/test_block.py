@@ -12,7 +12,14 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
-from massmodel.block import BlockError, BlockGeometry, Chamfer, Counterbore, HolePattern, tetra_moments
+from massmodel.ballast.block import (
+    BlockError,
+    BlockGeometry,
+    Chamfer,
+    Counterbore,
+    HolePattern,
+    tetra_moments,
+)
 
 cq = pytest.importorskip("cadquery")
 
@@ -58,7 +65,7 @@ def test_unit_tetrahedron_moments():
 @pytest.mark.parametrize(
     ("edges", "formula"),
     [
-        # Inclusion-exclusion of the 45° chamfer prisms (derived in massmodel/block.py):
+        # Inclusion-exclusion of the 45° chamfer prisms (derived in massmodel/ballast/block.py):
         ("xyz", lambda a, b, c, s: a * b * c - 2 * s * s * (a + b + c) + 16 / 3 * s**3),
         ("z", lambda a, b, c, s: a * b * c - 2 * s * s * c),
         ("xy", lambda a, b, c, s: a * b * c - 2 * s * s * (a + b) + 8 / 3 * s**3),

@@ -1,7 +1,7 @@
-"""Tests for massmodel.cad: placed B-rep solids and meshes of components, mirrored poses included.
+"""Tests for massmodel.cad.solids: placed B-rep solids and meshes of components, mirrored poses included.
 
 Oracle: OpenCascade's volume integrals (BRepGProp, about the centre of mass, off-diagonals −∫xy dm) of the placed
-solids against the model's closed-form mass properties (massmodel.shapes, checked against the handbook in
+solids against the model's closed-form mass properties (massmodel.core.shapes, checked against the handbook in
 tests/test_shapes.py); trimesh's volume and centre of mass for the meshes.
 """
 
@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
-from massmodel.cad import (
+from massmodel.cad.solids import (
     component_local_mesh,
     component_solid,
     has_solid,
@@ -20,8 +20,8 @@ from massmodel.cad import (
     split_pose,
     tessellate,
 )
-from massmodel.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
-from massmodel.modelfile import loads_model
+from massmodel.core.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from massmodel.modelfile.loader import loads_model
 
 # A wedge (no mirror symmetry) with a cut-out, mirrored through a group, and rotated: the hardest placement case.
 MODEL = """

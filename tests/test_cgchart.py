@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 
 from massmodel import load_model, loads_model
-from massmodel.cgchart import height_limit, render_cg_chart, station_bands
 from massmodel.cli import main
-from massmodel.massprops import translate
-from massmodel.vehicle import static_balance
+from massmodel.core.massprops import translate
+from massmodel.pictures.cgchart import height_limit, render_cg_chart, station_bands
+from massmodel.vehicle.balance import static_balance
 
 ROOT = Path(__file__).resolve().parents[1]
 CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"

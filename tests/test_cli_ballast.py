@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 
 from massmodel.cli import EXIT_FAIL, EXIT_USAGE, main
-from massmodel.modelfile import load_model
-from massmodel.vehicle import check_rules
+from massmodel.modelfile.loader import load_model
+from massmodel.vehicle.balance import check_rules
 
 ROOT = Path(__file__).resolve().parent.parent
 CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
@@ -228,7 +228,7 @@ def test_seat_ballast_study(tmp_path, capsys):
 
 
 def test_atomic_writes_leave_nothing_behind(tmp_path):
-    from massmodel.ballast_export import write_atomic
+    from massmodel.ballast.export import write_atomic
 
     def broken(path):
         path.write_text("half")
@@ -278,9 +278,9 @@ def test_ballasted_model_text_survives_names_with_newlines_and_quotes(tmp_path):
     # newlines, quotes and backslashes; a comment runs to the end of its line.
     import tomllib
 
-    from massmodel.ballast_export import ballasted_model_text
-    from massmodel.ballast_parts import toml_value
-    from massmodel.modelfile import loads_model
+    from massmodel.ballast.export import ballasted_model_text
+    from massmodel.ballast.parts import toml_value
+    from massmodel.modelfile.loader import loads_model
 
     for text in ['a "quoted" name', "back\\slash", "two\nlines", "tab\there", "ümlaut"]:
         assert tomllib.loads("k = " + toml_value(text))["k"] == text
@@ -312,7 +312,7 @@ def test_placement_picture_names_axes_by_the_models_vehicle_directions():
     # The view titles once said "x forward" for every model; a car whose forward is -x must read "x rearward".
     from types import SimpleNamespace
 
-    from massmodel.ballast_plot import _axis_name
+    from massmodel.pictures.ballast_plot import _axis_name
 
     def names(forward, left, up):
         vehicle = None if forward is None else SimpleNamespace(forward=np.array(forward, dtype=float),
@@ -330,8 +330,8 @@ def test_placement_picture_names_axes_by_the_models_vehicle_directions():
 def test_ballasted_demo_passes_its_rules_in_every_load_case(placed):
     # The placement works on the model as loaded; the rules also apply in the demo's load cases (e.g. qualifying
     # with 10 kg of fuel, where the rear axle minimum is tightest). Checked independently of the command here.
-    from massmodel.loadcases import check_rules_in_cases
-    from massmodel.modelfile import load_case_models
+    from massmodel.core.loadcases import check_rules_in_cases
+    from massmodel.modelfile.loader import load_case_models
 
     out, code = placed
     models = load_case_models(out / "bl3_ballasted.toml")
@@ -341,7 +341,7 @@ def test_ballasted_demo_passes_its_rules_in_every_load_case(placed):
 
 
 def test_a_rule_failing_in_another_load_case_is_named(tmp_path, capsys):
-    from massmodel.cli_ballast import _check_load_cases
+    from massmodel.cli.ballast import _check_load_cases
 
     car = tmp_path / "car.toml"
     car.write_text('''

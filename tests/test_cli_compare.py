@@ -117,14 +117,14 @@ def test_demo_estimate_fails_as_declared_and_the_diagnosis_names_the_deliberate_
      ("(1, 2, 3) in", [0.0254, 0.0508, 0.0762])],  # 1 in = 0.0254 m exactly
 )
 def test_step_origin_option(text, expected):
-    from massmodel.cli_compare import _point
+    from massmodel.cli.compare import _point
 
     assert _point("--step-origin", text).tolist() == pytest.approx(expected, rel=1e-15, abs=0.0)
 
 
 @pytest.mark.parametrize("text", ["0, 0, -265", "0, 0", "0, 0, -265 kg"])
 def test_step_origin_needs_three_lengths(text):
-    from massmodel.cli_compare import _point
+    from massmodel.cli.compare import _point
 
     with pytest.raises(ValueError, match="--step-origin: expected 'x, y, z unit'"):
         _point("--step-origin", text)

@@ -8,13 +8,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from massmodel import cautions
 from massmodel.cli import main
-from massmodel.massprops import MassProperties, combine
-from massmodel.measure import lift_report, load_session_and_model, pendulum_report
-from massmodel.measure_text import format_lift, format_pendulum
-from massmodel.modelfile import load_model
-from massmodel.vehicle import static_balance
+from massmodel.core import cautions
+from massmodel.core.massprops import MassProperties, combine
+from massmodel.measure.analysis import lift_report, load_session_and_model, pendulum_report
+from massmodel.modelfile.loader import load_model
+from massmodel.report.measure import format_lift, format_pendulum
+from massmodel.vehicle.balance import static_balance
 
 DEMO = Path(__file__).resolve().parents[1] / "parts_demo"
 

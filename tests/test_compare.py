@@ -14,9 +14,9 @@ import pytest
 from cad_bodies import BASE_SPEC, load_bodies_model, occ_props, write_estimate
 
 from conftest import assert_close
-from massmodel.compare import Tolerances, check_estimate, compare, compare_item, model_side
-from massmodel.estimate import EstimateError, loads_estimate
-from massmodel.massprops import MassProperties
+from massmodel.compare.check import Tolerances, check_estimate, compare, compare_item, model_side
+from massmodel.compare.estimate import EstimateError, loads_estimate
+from massmodel.core.massprops import MassProperties
 
 
 def box(m, a, b, c, center=(0.1, -0.2, 0.3)):
@@ -122,7 +122,7 @@ def test_groups_are_matched_to_the_model_and_errors_name_the_item(tmp_path):
     model = load_bodies_model()
     props = occ_props()
     path = write_estimate(tmp_path / "e.json", {"*": props["b"], "b": props["b"]}, BASE_SPEC)
-    from massmodel.estimate import load_estimate
+    from massmodel.compare.estimate import load_estimate
 
     est = load_estimate(path)
     result = check_estimate(model, est, selection="b")
@@ -144,7 +144,7 @@ def test_json_of_a_check_carries_units_and_the_declaration(tmp_path):
     model = load_bodies_model()
     props = occ_props()
     path = write_estimate(tmp_path / "e.json", props, BASE_SPEC.with_(products="positive"), BASE_SPEC)
-    from massmodel.estimate import load_estimate
+    from massmodel.compare.estimate import load_estimate
 
     d = check_estimate(model, load_estimate(path)).to_dict()
     assert d["format"] == "massmodel-crossweigh/1" and d["passed"] is False
@@ -163,7 +163,7 @@ def test_comparison_and_diagnosis_import_without_the_cad_kernel():
     import subprocess
     import sys
 
-    code = ("import sys, massmodel.estimate, massmodel.compare, massmodel.diagnose, massmodel.cli_compare; "
+    code = ("import sys, massmodel.compare.estimate, massmodel.compare.check, massmodel.compare.diagnose, massmodel.cli.compare; "
             "print(sorted({m.split('.')[0] for m in sys.modules} & {'cadquery', 'OCP', 'trimesh', 'pyvista'}))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"

@@ -10,7 +10,10 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
-from massmodel.driver import (
+from massmodel.core.model import Maturity
+from massmodel.modelfile.loader import ModelFileError, load_model, loads_model
+from massmodel.vehicle.balance import check_rules
+from massmodel.vehicle.driver import (
     SEGMENT_DATA,
     STATURE_FRACTIONS,
     DriverError,
@@ -19,9 +22,6 @@ from massmodel.driver import (
     segment_fractions,
     segment_lengths,
 )
-from massmodel.model import Maturity
-from massmodel.modelfile import ModelFileError, load_model, loads_model
-from massmodel.vehicle import check_rules
 
 DEMO = Path(__file__).resolve().parent.parent / "parts_demo" / "brindlecombe_bl3.toml"
 FWD, LEFT, UP = np.eye(3)
@@ -195,7 +195,7 @@ def test_driver_table_expands_into_fourteen_parts():
 def test_driver_mass_properties_against_an_independent_sum():
     # Handbook closed forms (Machinery's Handbook 31st ed. pp.253-254; REFERENCES.md §1): cylinder
     # I_axis = m r^2/2, I_transverse = m(3r^2 + L^2)/12; ellipsoid I_a = m(b^2 + c^2)/5. Rotated into model axes
-    # and moved to the common CG by the parallel-axis theorem, summed here without massmodel.massprops.
+    # and moved to the common CG by the parallel-axis theorem, summed here without massmodel.core.massprops.
     model = loads_model(HEAD + DRIVER, label="car.toml")
     masses, centres, tensors = [], [], []
     for c in model.components:
@@ -227,7 +227,7 @@ def test_driver_mass_properties_against_opencascade():
     from OCP.BRepGProp import BRepGProp
     from OCP.GProp import GProp_GProps
 
-    from massmodel.cad import component_solid
+    from massmodel.cad.solids import component_solid
 
     model = loads_model(HEAD + DRIVER, label="car.toml")
     total = GProp_GProps()

@@ -19,7 +19,7 @@ from OCP.BRepGProp import BRepGProp
 from OCP.GProp import GProp_GProps
 
 from conftest import assert_close
-from massmodel.estimate import (
+from massmodel.compare.estimate import (
     AxisMap,
     EstimateError,
     Products,
@@ -29,7 +29,7 @@ from massmodel.estimate import (
     normalise,
     signed_permutations,
 )
-from massmodel.modelfile import ModelFileError
+from massmodel.modelfile.loader import ModelFileError
 
 IN, FT, LB, G0 = 0.0254, 0.3048, 0.45359237, 9.80665
 
@@ -78,7 +78,7 @@ def test_inertia_units_from_exact_definitions(unit, exact, published, rel):
 
 def test_lb_in_s2_is_386_lb_in2_and_the_diagnosis_uses_that_factor(tmp_path):
     # REFERENCES.md §9: 1 lb·in·s² = 386.0886 lb·in² (= g_n / 1 in exactly).
-    from massmodel.diagnose import candidates
+    from massmodel.compare.diagnose import candidates
 
     est = read(doc(units={"mass": "kg", "length": "mm", "inertia": "lb*in^2"}))
     labels = [c.label for c in candidates(est) if c.kind == "inertia_unit"]
@@ -115,7 +115,7 @@ def test_positive_products_about_a_corner_read_into_the_tensor_convention_about_
     (mp,) = normalise(read(d))
     expected = np.array([[ixx, m * a * b / 36, 0.0], [m * a * b / 36, iyy, 0.0], [0.0, 0.0, izz]])
     assert_close(mp.inertia, expected, 1e-12, "closed form")
-    assert mp.inertia[0, 1] > 0.0  # the tensor entry of this wedge is positive (massmodel.shapes.Wedge notes)
+    assert mp.inertia[0, 1] > 0.0  # the tensor entry of this wedge is positive (massmodel.core.shapes.Wedge notes)
     # OpenCascade oracle on an independently built solid (MatrixOfInertia: about the CG, -∫xy dm).
     props = GProp_GProps()
     BRepGProp.VolumeProperties_s(_wedge_solid(90.0, 50.0, 30.0).wrapped, props, 1e-14)

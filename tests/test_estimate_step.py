@@ -12,9 +12,9 @@ import pytest
 from cad_bodies import BODIES, cad_solid, load_bodies_model, occ_props
 
 from conftest import assert_close
-from massmodel.compare import check_estimate
-from massmodel.estimate import WHOLE, AxisMap, EstimateError, normalise
-from massmodel.estimate_step import estimate_from_step, read_step_solids
+from massmodel.compare.check import check_estimate
+from massmodel.compare.estimate import WHOLE, AxisMap, EstimateError, normalise
+from massmodel.compare.estimate_step import estimate_from_step, read_step_solids
 
 DENSITY = {b["path"]: b["density"] for b in BODIES}
 CAD_AXES = np.array([[-1.0, 0.0, 0.0], [0.0, -1.0, 0.0], [0.0, 0.0, 1.0]])  # CAD x rearward, y right, z up

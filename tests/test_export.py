@@ -1,4 +1,4 @@
-"""Tests for massmodel.export: STEP read back by OpenCascade's XCAF reader, STL and GLB read back by trimesh.
+"""Tests for massmodel.cad.export: STEP read back by OpenCascade's XCAF reader, STL and GLB read back by trimesh.
 
 Oracles: OpenCascade's STEPCAFControl_Reader (names, colours, locations, shapes) and BRepGProp volume integrals
 (about the centre of mass, off-diagonals −∫xy dm) on the solids read from the file, never massmodel's own import
@@ -31,9 +31,9 @@ from OCP.XCAFDoc import XCAFDoc_ColorType, XCAFDoc_DocumentTool
 
 from conftest import assert_close
 from massmodel import cli
-from massmodel.export import ExportError, ExportOptions, Format, StlLayout, export_model, slug
-from massmodel.modelfile import load_model, loads_model
-from massmodel.report import build_report
+from massmodel.cad.export import ExportError, ExportOptions, Format, StlLayout, export_model, slug
+from massmodel.modelfile.loader import load_model, loads_model
+from massmodel.report.summary import build_report
 
 ROOT = Path(__file__).parents[1]
 
@@ -359,7 +359,7 @@ def test_a_failure_midway_keeps_the_earlier_export(exported, tmp_path, monkeypat
     model, _, _ = exported
     export_model(model, tmp_path, ExportOptions(chord_tolerance=1e-3))
     before = {p: p.read_bytes() for p in tmp_path.rglob("*") if p.is_file()}
-    import massmodel.export as ex
+    import massmodel.cad.export as ex
 
     def broken(*args, **kwargs):
         raise ExportError("simulated failure of the GLB writer")

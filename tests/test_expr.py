@@ -1,4 +1,4 @@
-"""Tests for massmodel.expr: the safe unit-aware expression language and parameter resolution.
+"""Tests for massmodel.core.expr: the safe unit-aware expression language and parameter resolution.
 
 Unit factors are derived from the exact definitions in NIST SP 811 (2008) App. B
 (1 in = 0.0254 m, 1 lb = 0.45359237 kg, g_n = 9.80665 m/s²); operator precedence and
@@ -17,8 +17,8 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-import massmodel.expr as expr_module
-from massmodel.expr import (
+import massmodel.core.expr as expr_module
+from massmodel.core.expr import (
     MAX_DEPTH,
     MAX_LENGTH,
     RESERVED_NAMES,
@@ -29,7 +29,7 @@ from massmodel.expr import (
     parse_override,
     referenced_names,
 )
-from massmodel.units import (
+from massmodel.core.units import (
     ANGLE,
     AREA,
     DENSITY,

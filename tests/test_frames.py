@@ -7,7 +7,7 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from conftest import assert_close
-from massmodel.frames import (
+from massmodel.core.frames import (
     Pose,
     RotationKind,
     elementary_rotation,

@@ -1,4 +1,4 @@
-"""Tests for massmodel.imported: STEP and mesh files as component and slot shapes.
+"""Tests for massmodel.cad.imported: STEP and mesh files as component and slot shapes.
 
 Sources (see /work/shared/REFERENCES.md §1): closed forms of the cuboid and the solid cylinder from Machinery's
 Handbook 31st ed. pp.253-254 (R): cuboid I_xx = m(b² + c²)/12 and cyclic; cylinder of radius r and length L,
@@ -18,10 +18,10 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
-from massmodel.imported import GeometryFileError, MeshShape, StepShape, load_mesh, load_step
-from massmodel.model import MassSource
-from massmodel.modelfile import ModelFileError, loads_model
-from massmodel.shapes import Box
+from massmodel.cad.imported import GeometryFileError, MeshShape, StepShape, load_mesh, load_step
+from massmodel.core.model import MassSource
+from massmodel.core.shapes import Box
+from massmodel.modelfile.loader import ModelFileError, loads_model
 
 HEAD = """
 [model]
@@ -227,7 +227,7 @@ maturity = "calculated"
     assert_close(c.props.center, [0.005, 0.006, 0.007], 1e-12)
     assert_close(c.props.inertia, 17000 * ref.inertia_per_density(), 1e-12)
     # the mesh's B-rep rebuild (one face per triangle) has the same volume properties in OpenCascade
-    from massmodel.cad import solid_volume_properties
+    from massmodel.cad.solids import solid_volume_properties
 
     mass, center, inertia = solid_volume_properties(c.shape.to_solid(), 17000.0)
     assert_close(mass, 17000 * ref.volume(), 1e-12)
@@ -319,7 +319,7 @@ at = [0, 0, 60]
 slot = "can"
 """)
     (tmp_path / "variant.toml").write_text('[model]\nname = "v"\nextends = "car/base.toml"\n')
-    from massmodel.modelfile import load_model
+    from massmodel.modelfile.loader import load_model
 
     model = load_model(tmp_path / "variant.toml")
     assert isinstance(model.slot("can").shape, StepShape)
@@ -372,7 +372,7 @@ def test_core_imports_without_cad_libraries(tmp_path):
         "import sys\n"
         "for name in ('cadquery', 'OCP', 'trimesh', 'pyvista'):\n"
         "    sys.modules[name] = None\n"
-        "import massmodel, massmodel.imported, massmodel.modelfile, massmodel.packaging, massmodel.export\n"
+        "import massmodel, massmodel.cad.imported, massmodel.modelfile.loader, massmodel.cad.packaging, massmodel.cad.export\n"
         "m = massmodel.loads_model('[model]\\nname = \"x\"\\n[[part]]\\npath = \"a\"\\nshape = \"box\"\\n"
         "size = [\"1 m\", \"1 m\", \"1 m\"]\\nmass = \"2 kg\"\\nmaturity = \"measured\"\\n')\n"
         "print(m.mass_properties().mass)\n"

@@ -8,10 +8,10 @@ import pytest
 
 from conftest import assert_props_close
 from massmodel.cli import main
-from massmodel.loadcases import BASE_CASE, check_rules_in_cases
-from massmodel.massprops import combine
-from massmodel.modelfile import ModelFileError, load_case_models, load_model, loads_model
-from massmodel.vehicle import static_balance
+from massmodel.core.loadcases import BASE_CASE, check_rules_in_cases
+from massmodel.core.massprops import combine
+from massmodel.modelfile.loader import ModelFileError, load_case_models, load_model, loads_model
+from massmodel.vehicle.balance import static_balance
 
 HEAD = """
 [model]
@@ -296,7 +296,7 @@ def test_a_variant_inherits_the_cases_and_errors_name_the_base_file(car, tmp_pat
 
 def test_case_table_shows_no_negative_zero(car):
     # a coordinate that is zero up to round-off prints as 0.0000, as in the single-case report
-    from massmodel.casereport import build_case_table, format_case_table
+    from massmodel.report.cases import build_case_table, format_case_table
 
     data = build_case_table(load_case_models(car))
     data["cases"][0]["cg_m"][1] = -1e-12

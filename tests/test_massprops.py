@@ -12,8 +12,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from conftest import assert_close, assert_props_close
-from massmodel.frames import RotationKind, rotation_from_sequence
-from massmodel.massprops import (
+from massmodel.core.frames import RotationKind, rotation_from_sequence
+from massmodel.core.massprops import (
     InertiaError,
     MassProperties,
     combine,

@@ -6,8 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from massmodel.materials import Material, MaterialError, builtin_materials
-from massmodel.modelfile import load_model
+from massmodel.core.materials import Material, MaterialError, builtin_materials
+from massmodel.modelfile.loader import load_model
 
 G_CM3 = 1000.0  # kg/m^3 per g/cm^3
 

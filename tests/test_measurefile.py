@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from massmodel.measurefile import (
+from massmodel.measure.session import (
     LiftDirection,
     MeasurementFileError,
     PendulumKind,

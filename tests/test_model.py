@@ -1,7 +1,7 @@
 """Components and assemblies against OpenCascade (via OCP), an independent oracle.
 
 * Cut-outs (holes, pockets) by superposition vs the B-rep boolean difference of the same solids:
-  ``massmodel.cad.solid_volume_properties(component_solid(c), density)`` (BRepAlgoAPI_Cut, then
+  ``massmodel.cad.solids.solid_volume_properties(component_solid(c), density)`` (BRepAlgoAPI_Cut, then
   BRepGProp.VolumeProperties_s).
 * Random assemblies of random primitives in random (also mirrored) poses vs OCP ``GProp_GProps.Add(props, density)``
   over the placed solids; MatrixOfInertia is about the combined centre of mass, off-diagonals −∫xy dm, the same
@@ -20,10 +20,10 @@ from OCP.BRepGProp import BRepGProp
 from OCP.GProp import GProp_GProps
 
 from conftest import assert_close
-from massmodel.cad import component_solid, solid_volume_properties
-from massmodel.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
-from massmodel.model import Component, Cutout, MassSource, Maturity, Model
-from massmodel.shapes import (
+from massmodel.cad.solids import component_solid, solid_volume_properties
+from massmodel.core.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
+from massmodel.core.model import Component, Cutout, MassSource, Maturity, Model
+from massmodel.core.shapes import (
     Box,
     Cone,
     Cylinder,

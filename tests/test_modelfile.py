@@ -17,9 +17,9 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
-from massmodel.model import MassSource, Maturity
-from massmodel.modelfile import ModelFileError, load_model
-from massmodel.vehicle import check_rules, static_balance
+from massmodel.core.model import MassSource, Maturity
+from massmodel.modelfile.loader import ModelFileError, load_model
+from massmodel.vehicle.balance import check_rules, static_balance
 
 REPO = Path(__file__).resolve().parents[1]
 

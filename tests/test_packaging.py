@@ -1,4 +1,4 @@
-"""Tests for massmodel.packaging: interference, fit in slot and clearance against closed forms and hand geometry.
+"""Tests for massmodel.cad.packaging: interference, fit in slot and clearance against closed forms and hand geometry.
 
 Closed forms: the common volume of two axis-aligned boxes is the product of the overlaps of their intervals
 (elementary); a plane at distance d from the axis of a cylinder of radius R cuts off a circular segment of area
@@ -21,15 +21,15 @@ from OCP.TopAbs import TopAbs_IN
 
 from conftest import assert_close
 from massmodel import cli
-from massmodel.modelfile import ModelFileError, loads_model
-from massmodel.packaging import (
+from massmodel.cad.packaging import (
     candidate_pairs,
     check_packaging,
     distance_between,
     fit_in_slot,
     overlap_volume,
 )
-from massmodel.packaging_report import format_packaging, packaging_dict
+from massmodel.modelfile.loader import ModelFileError, loads_model
+from massmodel.report.packaging import format_packaging, packaging_dict
 
 ROOT = Path(__file__).parents[1]
 HEAD = """

@@ -6,9 +6,7 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from massmodel.measurefile import Comparison, Fixture, MeasurementFileError, PendulumKind, PendulumTest
-from massmodel.modelfile import loads_model
-from massmodel.pendulum import (
+from massmodel.measure.pendulum import (
     amplitude_factor,
     bifilar_inertia,
     compare_with_model,
@@ -16,6 +14,8 @@ from massmodel.pendulum import (
     reduce_pendulum,
     trifilar_inertia,
 )
+from massmodel.measure.session import Comparison, Fixture, MeasurementFileError, PendulumKind, PendulumTest
+from massmodel.modelfile.loader import loads_model
 
 G0 = 9.80665  # m/s², standard gravity (NIST SP 811)
 

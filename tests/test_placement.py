@@ -13,15 +13,15 @@ import itertools
 import numpy as np
 import pytest
 
-from massmodel.ballast import Envelope, spec_from_parts
-from massmodel.ballast_plan import Candidate, Objective, Plan, Targets
-from massmodel.frames import Pose
-from massmodel.materials import Material
-from massmodel.model import Component, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
-from massmodel.placement import place_ballast
-from massmodel.placement_solvers import extreme_ratio
-from massmodel.shapes import Box, PointMass
-from massmodel.vehicle import static_balance
+from massmodel.ballast.placement import place_ballast
+from massmodel.ballast.plan import Candidate, Objective, Plan, Targets
+from massmodel.ballast.sizing import Envelope, spec_from_parts
+from massmodel.ballast.solvers import extreme_ratio
+from massmodel.core.frames import Pose
+from massmodel.core.materials import Material
+from massmodel.core.model import Component, MassSource, Maturity, Model, Rule, RuleCheck, Slot, Vehicle
+from massmodel.core.shapes import Box, PointMass
+from massmodel.vehicle.balance import static_balance
 
 L = 2.5  # wheelbase, m; front axle at x = 0, rear axle at x = -L, ground at z = 0
 RHO = 18000.0
@@ -221,8 +221,8 @@ def test_minimum_mass_holds_at_the_low_end_of_the_band():
 
 
 def test_the_demo_plan():
-    from massmodel.ballast_plan import load_plan
-    from massmodel.modelfile import load_model
+    from massmodel.ballast.plan import load_plan
+    from massmodel.modelfile.loader import load_model
 
     model = load_model("parts_demo/brindlecombe_bl3.toml")
     result = place_ballast(model, load_plan("parts_demo/bl3_ballast_plan.toml", model))

@@ -5,13 +5,18 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from massmodel.massprops import MassProperties, combine
-from massmodel.measurefile import Weighing
-from massmodel.modelfile import load_model, loads_model
-from massmodel.reconcile import ReconcileError, reconcile, reconciled_model_text, write_reconciled_model
-from massmodel.scales import Geometry, reduce_weighings
-from massmodel.uncertainty import Estimate
-from massmodel.vehicle import static_balance
+from massmodel.core.massprops import MassProperties, combine
+from massmodel.core.uncertainty import Estimate
+from massmodel.measure.reconcile import (
+    ReconcileError,
+    reconcile,
+    reconciled_model_text,
+    write_reconciled_model,
+)
+from massmodel.measure.scales import Geometry, reduce_weighings
+from massmodel.measure.session import Weighing
+from massmodel.modelfile.loader import load_model, loads_model
+from massmodel.vehicle.balance import static_balance
 
 MODEL = """
 [model]

@@ -17,8 +17,14 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
-from massmodel.modelfile import load_model
-from massmodel.report import DisplayUnits, InertiaRequest, build_report, format_report, write_json_atomic
+from massmodel.modelfile.loader import load_model
+from massmodel.report.summary import (
+    DisplayUnits,
+    InertiaRequest,
+    build_report,
+    format_report,
+    write_json_atomic,
+)
 
 CAR = """
 [model]

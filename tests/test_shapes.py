@@ -1,4 +1,4 @@
-"""Tests for massmodel.shapes: primitive solids against handbook closed forms and two independent oracles.
+"""Tests for massmodel.core.shapes: primitive solids against handbook closed forms and two independent oracles.
 
 Sources (see /work/shared/REFERENCES.md §1):
 - closed forms: Machinery's Handbook 31st ed. pp.253-254 (R), Wikipedia "List of moment of inertia tensors" (R),
@@ -32,7 +32,7 @@ from OCP.TopAbs import TopAbs_IN, TopAbs_ON
 from scipy.spatial import cKDTree
 from scipy.spatial.transform import Rotation
 
-from massmodel.shapes import (
+from massmodel.core.shapes import (
     SHAPE_KINDS,
     Box,
     Cone,
@@ -909,9 +909,9 @@ def test_argument_checks() -> None:
 
 
 def test_import_needs_numpy_only() -> None:
-    # `import massmodel.shapes` must not pull in the CAD kernel, trimesh or pyvista.
+    # `import massmodel.core.shapes` must not pull in the CAD kernel, trimesh or pyvista.
     code = (
-        "import sys, massmodel.shapes\n"
+        "import sys, massmodel.core.shapes\n"
         "heavy = [m for m in ('cadquery', 'OCP', 'trimesh', 'pyvista') if m in sys.modules]\n"
         "print(','.join(heavy) or 'none')\n"
     )

@@ -8,11 +8,11 @@ import numpy as np
 import pytest
 
 from massmodel.cli import main
-from massmodel.massprops import MassProperties
-from massmodel.model import Vehicle
-from massmodel.modelfile import load_model
-from massmodel.transfer import Condition, build_transfer_report, load_transfer
-from massmodel.vehicle import static_balance
+from massmodel.core.massprops import MassProperties
+from massmodel.core.model import Vehicle
+from massmodel.modelfile.loader import load_model
+from massmodel.vehicle.balance import static_balance
+from massmodel.vehicle.transfer import Condition, build_transfer_report, load_transfer
 
 G0 = 9.80665  # m/s², standard gravity (NIST SP 811)
 

@@ -1,4 +1,4 @@
-"""Tests for massmodel.units: dimensions, quantities, the unit table and unit parsing.
+"""Tests for massmodel.core.units: dimensions, quantities, the unit table and unit parsing.
 
 Reference values are derived in this file from the exact definitions in NIST SP 811
 (2008), Appendix B, which rest on the 1959 international yard and pound agreement:
@@ -15,7 +15,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from massmodel.units import (
+from massmodel.core.units import (
     ACCELERATION,
     ANGLE,
     AREA,

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from massmodel.massprops import MassProperties
-from massmodel.model import Vehicle
-from massmodel.vehicle import static_balance
+from massmodel.core.massprops import MassProperties
+from massmodel.core.model import Vehicle
+from massmodel.vehicle.balance import static_balance
 
 G0 = 9.80665  # m/s², standard gravity (NIST SP 811)
 

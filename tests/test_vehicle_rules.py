@@ -11,8 +11,8 @@ from pathlib import Path
 
 import pytest
 
-from massmodel.modelfile import load_model
-from massmodel.vehicle import check_rules, static_balance
+from massmodel.modelfile.loader import load_model
+from massmodel.vehicle.balance import check_rules, static_balance
 
 WHEELBASE = 3.6  # m
 

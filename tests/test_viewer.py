@@ -16,8 +16,16 @@ import pytest
 
 from massmodel import load_model, loads_model
 from massmodel.cli import main
-from massmodel.scene import CG_COLOUR, ColourBy, SceneOptions, build_scene, hex_to_rgb, hidden_by, sharp_edges
-from massmodel.vehicle import check_rules
+from massmodel.pictures.scene import (
+    CG_COLOUR,
+    ColourBy,
+    SceneOptions,
+    build_scene,
+    hex_to_rgb,
+    hidden_by,
+    sharp_edges,
+)
+from massmodel.vehicle.balance import check_rules
 
 ROOT = Path(__file__).resolve().parents[1]
 CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
@@ -105,7 +113,7 @@ max = 0.45
 def renderer():
     """Skip (with the reason) where no off-screen OpenGL context can be made."""
     os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
-    from massmodel.viewer import renderer_problem
+    from massmodel.pictures.viewer import renderer_problem
 
     problem = renderer_problem()
     if problem is not None:
@@ -126,7 +134,7 @@ def car():
 
 @pytest.fixture(scope="module")
 def car_sheet(renderer, car, tmp_path_factory):
-    from massmodel.sheet import render_sheet
+    from massmodel.pictures.sheet import render_sheet
 
     scene = build_scene(car)
     out = tmp_path_factory.mktemp("sheet") / "car.png"
@@ -157,8 +165,8 @@ def _has_colour_near(img: np.ndarray, x: float, y: float, colour: str, radius: i
 # --- scene (no renderer needed) ----------------------------------------------------------------------------------
 
 def test_core_imports_without_renderer_libraries():
-    code = ("import sys, massmodel, massmodel.scene, massmodel.viewer, massmodel.sheet, massmodel.cgchart, "
-            "massmodel.cli_view; print(sorted(m for m in ('pyvista', 'vtk', 'matplotlib', 'trimesh', 'cadquery') "
+    code = ("import sys, massmodel, massmodel.pictures.scene, massmodel.pictures.viewer, massmodel.pictures.sheet, massmodel.pictures.cgchart, "
+            "massmodel.cli.view; print(sorted(m for m in ('pyvista', 'vtk', 'matplotlib', 'trimesh', 'cadquery') "
             "if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
     assert out.stdout.strip() == "[]"
@@ -190,8 +198,8 @@ def test_placed_meshes_are_closed_outward_and_cut(small):
 
 
 def test_box_has_twelve_sharp_edges_and_cylinder_two_rims():
-    from massmodel.shapes import Box, Cylinder
-    from massmodel.shapes_cad import mesh_arrays
+    from massmodel.cad.primitives import mesh_arrays
+    from massmodel.core.shapes import Box, Cylinder
 
     v, f = mesh_arrays(Box(0.3, 0.2, 0.1), 0.001)
     assert len(sharp_edges(np.asarray(v), np.asarray(f))) == 12  # a box has 12 edges; face diagonals are flat
@@ -230,8 +238,8 @@ def test_hidden_by_finds_the_part_in_front(small):
 
 
 def test_title_block_numbers_match_the_model(car):
-    from massmodel.report import build_report
-    from massmodel.sheet import title_block_rows
+    from massmodel.pictures.sheet import title_block_rows
+    from massmodel.report.summary import build_report
 
     rows = dict(title_block_rows(build_scene(car)))
     rep = build_report(car)
@@ -295,8 +303,8 @@ def test_legend_swatches_are_drawn_in_the_group_colours(car_sheet):
 
 
 def test_single_view_and_interactive_scene(renderer, small, tmp_path):
-    from massmodel.sheet import render_sheet
-    from massmodel.viewer import show_interactive
+    from massmodel.pictures.sheet import render_sheet
+    from massmodel.pictures.viewer import show_interactive
 
     scene = build_scene(small)
     out = tmp_path / "side.png"

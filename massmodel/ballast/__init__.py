@@ -1,0 +1,4 @@
+"""Ballast: tungsten blocks sized to slots, ballast plans, placement across slots, seat ballast, ballast outputs.
+
+May import: :mod:`massmodel.core`, :mod:`massmodel.vehicle`, :mod:`massmodel.cad`, :mod:`massmodel.modelfile`.
+"""

@@ -1,0 +1,478 @@
+"""Ballast commands: ``size-block`` (one block in one slot), ``place-ballast`` (a plan across slots) and
+``seat-ballast`` (a group-mass rule and the CG height it costs). A thin layer over massmodel.ballast.sizing,
+massmodel.ballast.placement and massmodel.ballast.seat; see docs/ballast.md.
+"""
+
+from __future__ import annotations
+
+import argparse
+from dataclasses import replace
+from pathlib import Path
+from typing import Any
+
+from massmodel.cli import EXIT_FAIL
+
+from .core import add_model_arguments, load_from_args
+
+__all__ = ["register"]
+
+
+def _quantity(text: str, option: str, kind: str) -> float:
+    from massmodel.core import expr, units
+
+    dims = {"length": units.LENGTH, "mass": units.MASS}
+    try:
+        q = expr.evaluate(text.strip(), {})
+    except (expr.ExpressionError, units.UnitError) as exc:
+        raise ValueError(f"{option} {text!r}: {exc}") from None
+    if q.dim != dims[kind]:
+        raise ValueError(f"{option} {text!r}: expected a {kind} with its unit, e.g. "
+                         f"{'5 mm' if kind == 'length' else '1.5 kg'}")
+    return float(q.value)
+
+
+def _lengths(text: str, option: str, n: int | None = None) -> list[float]:
+    parts = [p for p in text.split(",") if p.strip()]
+    if n is not None and len(parts) != n:
+        raise ValueError(f"{option} {text!r}: expected {n} comma-separated lengths with units")
+    return [_quantity(p, option, "length") for p in parts]
+
+
+def _number(text: str, option: str) -> float:
+    try:
+        return float(text)
+    except ValueError:
+        raise ValueError(f"{option} {text!r}: expected a plain number") from None
+
+
+def _overrides(args: argparse.Namespace) -> dict[str, str]:
+    from massmodel.core.expr import parse_override
+
+    return dict(parse_override(t) for t in args.overrides)
+
+
+def _add_block_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("block (override the plan's candidate, or give everything here)")
+    g.add_argument("--material", help="material key (e.g. tungsten_b777_class3); `massmodel materials` lists them")
+    g.add_argument("--fill", help='how the block grows: +z (from the -z wall upwards), -x, ..., or z (about the centre)')
+    g.add_argument("--fix", action="append", default=[], metavar="AXIS=LENGTH",
+                   help="fix a size across the fill axis, e.g. --fix x=180mm (repeatable)")
+    g.add_argument("--increment", help="manufacturing increment, e.g. 0.5mm")
+    g.add_argument("--holes", type=int, metavar="N", help="number of fastener holes")
+    g.add_argument("--hole-diameter", metavar="D", help="hole diameter, e.g. 8.5mm")
+    g.add_argument("--hole-pattern", choices=["line", "grid", "circle"], default=None)
+    g.add_argument("--hole-pitch", metavar="P[,P2]", help="hole spacing (grid: along the two face axes)")
+    g.add_argument("--hole-columns", type=int, help="grid columns")
+    g.add_argument("--hole-pcd", metavar="D", help="pitch-circle diameter of a circle pattern")
+    g.add_argument("--hole-axis", choices=["x", "y", "z"], help="axis the holes run along (default: the fill axis)")
+    g.add_argument("--counterbore", metavar="DIA,DEPTH", help="counterbore at the exposed end, e.g. 14mm,5mm")
+    g.add_argument("--chamfer", metavar="SIZE", help="45 deg edge chamfer, e.g. 1mm")
+    g.add_argument("--chamfer-edges", default=None, help='edges chamfered, by axis letters (default "xyz": all)')
+    g.add_argument("--stock", metavar="T1,T2,...", help="stock plate thicknesses; the block is a stack of them")
+    g.add_argument("--max-segment", metavar="MASS", help="largest mass of one plate at the high end of the band")
+    g.add_argument("--min-thickness", metavar="LENGTH", help="thinnest block along the fill axis")
+
+
+def register(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("size-block", help="size one ballast block (or plate stack) in a slot",
+                       description="Size a ballast block to reach a target mass at the LOW end of the material's "
+                                   "density band, inside a slot with its clearance.")
+    add_model_arguments(p)
+    where = p.add_argument_group("slot")
+    where.add_argument("--slot", help="a [[slot]] of the model, or a candidate of --plan")
+    where.add_argument("--plan", type=Path, help="ballast plan whose candidate gives the block settings")
+    where.add_argument("--box", metavar="SX,SY,SZ", help="a box slot given here instead (model axes), e.g. 120mm,100mm,40mm")
+    where.add_argument("--at", metavar="X,Y,Z", help="centre of the --box, model frame")
+    where.add_argument("--clearance", metavar="LENGTH", help="clearance of the --box to every wall")
+    _add_block_options(p)
+    tg = p.add_argument_group("target")
+    tg.add_argument("--target", default=None, help="mass to reach at the low end of the band (e.g. 10.8kg), 'rules' "
+                    "(what the mass rules need plus --margin), or leave out for the heaviest block")
+    tg.add_argument("--margin", help="with --target rules: mass kept above each minimum")
+    tg.add_argument("--replace-existing", action="store_true",
+                    help="with --target rules: the parts now in the slot come out first")
+    out = p.add_argument_group("output")
+    out.add_argument("--step", type=Path, help="write the block's STEP (mm, model frame)")
+    out.add_argument("--stl", type=Path, help="write the block's STL (mm, model frame)")
+    out.add_argument("--json", type=Path, help="write the result as JSON (SI)")
+    out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check")
+    p.set_defaults(run=_size_block)
+
+    p = sub.add_parser("place-ballast", help="place ballast across candidate slots to meet the rules, lowest CG",
+                       description="Least ballast meeting every rule and target of the plan, then the lowest CG "
+                                   "height (or yaw inertia, or a weighted mix); blocks sized, checked and written.")
+    add_model_arguments(p)
+    p.add_argument("plan", type=Path, help="ballast plan (TOML, see docs/ballast.md)")
+    ov = p.add_argument_group("overrides of the plan")
+    ov.add_argument("--objective", choices=["cg_height", "yaw_inertia", "mix"])
+    ov.add_argument("--margin", help="mass margin above every minimum, e.g. 0.5kg")
+    ov.add_argument("--front-fraction", metavar="TARGET[,TOL]", help="target front fraction and tolerance")
+    ov.add_argument("--allowance", help="ballast beyond the least the objective may use, e.g. 0.2kg")
+    ov.add_argument("--material", action="append", default=[], metavar="[SLOT=]KEY",
+                    help="material of every candidate, or of one (repeatable)")
+    ov.add_argument("--capacity", action="append", default=[], metavar="SLOT=MASS",
+                    help="most ballast in a slot at the high end of the band (repeatable)")
+    ov.add_argument("--without", action="append", default=[], metavar="SLOT", help="leave a candidate out")
+    ov.add_argument("--increment", help="manufacturing increment of every candidate")
+    out = p.add_argument_group("output")
+    out.add_argument("--out-model", type=Path, help="write the ballasted model: a NEW file that extends the input")
+    out.add_argument("--step", type=Path, help="write the STEP of all blocks (mm, model frame)")
+    out.add_argument("--stl", type=Path, help="write one STL of all blocks (mm, model frame)")
+    out.add_argument("--json", type=Path, help="write the result as JSON (SI)")
+    out.add_argument("--picture", type=Path, help="write a PNG of the result")
+    out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check of the blocks")
+    p.set_defaults(run=_place)
+
+    p = sub.add_parser("seat-ballast", help="ballast a group-mass rule needs and the CG height it costs",
+                       description="Size the ballast a min_group_mass rule (e.g. driver + seat) needs and tabulate "
+                                   "the car's CG height against the height of that ballast in the seat structure.")
+    add_model_arguments(p)
+    p.add_argument("--material", required=True, help="ballast material key")
+    p.add_argument("--margin", required=True, help="mass kept above the rule's limit, e.g. 0.5kg")
+    p.add_argument("--rule", help="the min_group_mass rule (default: the first one that is short)")
+    p.add_argument("--seat-group", help="group the ballast joins (default: the rule's seat group)")
+    p.add_argument("--plate", default="150mm,100mm", metavar="FORWARD,LEFT", help="plate footprint (default 150mm,100mm)")
+    p.add_argument("--increment", default="0.5mm", help="manufacturing increment (default 0.5mm)")
+    p.add_argument("--at", metavar="X,Y", help="forward and left position of the ballast, model frame")
+    p.add_argument("--heights", metavar="H1,H2,...", help="ballast heights above the ground to tabulate")
+    p.add_argument("--steps", type=int, default=7, help="number of heights across the seat structure (default 7)")
+    p.add_argument("--plot", type=Path, help="write the plot (PNG)")
+    p.add_argument("--json", type=Path, help="write the result as JSON (SI)")
+    p.set_defaults(run=_seat)
+
+
+# --- size-block ------------------------------------------------------------------------------------------------
+
+def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
+    """Apply the command-line block options to a spec (or build one when ``spec`` is None)."""
+    from massmodel.ballast.block import Chamfer, Counterbore, HolePattern
+    from massmodel.ballast.sizing import Fill, spec_from_parts
+
+    if spec is None:
+        if not args.material:
+            raise ValueError("--material is needed (or take the block settings from --plan)")
+        if not args.fill:
+            raise ValueError("--fill is needed, e.g. --fill +z (or take the block settings from --plan)")
+        if not args.increment:
+            raise ValueError("--increment is needed, e.g. --increment 0.5mm (or take it from --plan)")
+        spec = spec_from_parts(_material(model, args.material), args.fill,
+                               increment=_quantity(args.increment, "--increment", "length"))
+    changes: dict[str, Any] = {}
+    if args.material:
+        changes["material"] = _material(model, args.material)
+    if args.fill:
+        changes["fill"] = Fill.parse(args.fill)
+    if args.increment:
+        changes["increment"] = _quantity(args.increment, "--increment", "length")
+    if args.fix:
+        fixed = dict(spec.fixed)
+        for item in args.fix:
+            axis, _, value = item.partition("=")
+            if axis not in ("x", "y", "z") or not value:
+                raise ValueError(f"--fix {item!r}: expected AXIS=LENGTH, e.g. x=180mm")
+            fixed[axis] = _quantity(value, "--fix", "length")
+        changes["fixed"] = fixed
+    hole_options = {"--hole-diameter": args.hole_diameter, "--hole-pattern": args.hole_pattern,
+                    "--hole-pitch": args.hole_pitch, "--hole-columns": args.hole_columns, "--hole-pcd": args.hole_pcd,
+                    "--hole-axis": args.hole_axis, "--counterbore": args.counterbore}
+    stray = [name for name, value in hole_options.items() if value is not None]
+    if args.holes is None and stray:
+        raise ValueError(f"{', '.join(stray)} describe holes given here and need --holes N (they would otherwise be "
+                         "ignored; --holes replaces a plan's holes as a whole)")
+    if args.holes is not None:
+        if not args.hole_diameter:
+            raise ValueError("--holes needs --hole-diameter")
+        kind = args.hole_pattern or ("grid" if args.hole_columns else "line")
+        pitch = _lengths(args.hole_pitch, "--hole-pitch") if args.hole_pitch else []
+        cb = None
+        if args.counterbore:
+            d, depth = _lengths(args.counterbore, "--counterbore", 2)
+            cb = Counterbore(d, depth)
+        fill = changes.get("fill", spec.fill)
+        axis = args.hole_axis or fill.letter
+        changes["holes"] = HolePattern(
+            kind, args.holes, _quantity(args.hole_diameter, "--hole-diameter", "length"), axis=axis,
+            pitch=pitch[0] if pitch else None, pitch2=pitch[1] if len(pitch) > 1 else None,
+            columns=args.hole_columns, pcd=_quantity(args.hole_pcd, "--hole-pcd", "length") if args.hole_pcd else None,
+            counterbore=cb, counterbore_end=(fill.sign or 1) if axis == fill.letter else 1)
+    if args.chamfer:
+        changes["chamfer"] = Chamfer(_quantity(args.chamfer, "--chamfer", "length"), args.chamfer_edges or "xyz")
+    elif args.chamfer_edges and spec.chamfer is not None:
+        changes["chamfer"] = Chamfer(spec.chamfer.size, args.chamfer_edges)
+    if args.stock:
+        changes["stock"] = tuple(_lengths(args.stock, "--stock"))
+    if args.max_segment:
+        changes["max_segment_mass"] = _quantity(args.max_segment, "--max-segment", "mass")
+    if args.min_thickness:
+        changes["min_thickness"] = _quantity(args.min_thickness, "--min-thickness", "length")
+    return replace(spec, **changes) if changes else spec
+
+
+def _material(model: Any, key: str) -> Any:
+    if key not in model.materials:
+        import difflib
+
+        close = difflib.get_close_matches(key, list(model.materials), n=3)
+        raise ValueError(f"--material: unknown material {key!r}" + (f"; did you mean {', '.join(close)}?" if close
+                         else "; `massmodel materials` lists the library"))
+    return model.materials[key]
+
+
+def _size_block(args: argparse.Namespace) -> int:
+    import numpy as np
+
+    from massmodel.ballast.export import blocks_of_sizing, write_step, write_stl
+    from massmodel.ballast.plan import load_plan
+    from massmodel.ballast.sizing import Envelope, check_fit, heaviest_block, rules_target, size_block
+    from massmodel.core.frames import Pose
+    from massmodel.report.ballast import format_sizing, sizing_dict, suggestions
+    from massmodel.report.summary import write_json_atomic
+
+    model = load_from_args(args)
+    spec = None
+    path = None
+    replace_paths: tuple[str, ...] = ()
+    margin_default = None
+    if args.plan:
+        plan = load_plan(args.plan, model)
+        if not args.slot:
+            raise ValueError("--plan needs --slot: which of the plan's candidates to size")
+        cand = plan.candidate(args.slot)
+        env, spec, path, replace_paths = cand.envelope, cand.spec, cand.path, cand.replace
+        margin_default = plan.targets.mass_margin
+    elif args.box:
+        if not (args.at and args.clearance):
+            raise ValueError("--box needs --at (centre, model frame) and --clearance")
+        size = _lengths(args.box, "--box", 3)
+        at = _lengths(args.at, "--at", 3) if "," in args.at else None
+        if at is None:
+            raise ValueError("--at: expected X,Y,Z with units, e.g. 375mm,0mm,-185mm")
+        env = Envelope(args.slot or "box", (size[0], size[1], size[2]), Pose(np.eye(3), np.array(at)),
+                       _quantity(args.clearance, "--clearance", "length"))
+    else:
+        if not args.slot:
+            raise ValueError("give --slot NAME (a model slot), --plan with --slot, or --box with --at and --clearance")
+        env = Envelope.from_slot(model.slot(args.slot))
+        if args.replace_existing:
+            replace_paths = tuple(c.path for c in model.components if c.slot == args.slot)
+    spec = _spec_changes(args, model, spec)
+    path = path or f"ballast/{env.name}"
+    rule_lines: list[str] = []
+    held = [c.path for c in model.components if c.slot == env.name and c.path not in replace_paths]
+    if held:
+        rule_lines.append(f"note: the slot now holds {', '.join(held)}; the block is sized for the empty slot "
+                          "(--replace-existing counts them out of the rules)")
+    target = None
+    if args.target is not None and args.target.strip().lower() == "rules":
+        if args.margin is None and margin_default is None:
+            raise ValueError("--target rules needs --margin (or a plan's mass_margin)")
+        margin = _quantity(args.margin, "--margin", "mass") if args.margin else float(margin_default or 0.0)
+        target, needs = rules_target(model, margin, path, replace_paths)
+        if replace_paths:
+            rule_lines.append(f"replacing {', '.join(replace_paths)} "
+                              f"({sum(model.component(p).props.mass for p in replace_paths):.3f} kg) first")
+        for n in needs:
+            state = "counts" if n.counts else "does not count"
+            rule_lines.append(f"rule '{n.rule}': {n.value:.3f} kg against {n.limit:.3f} + {n.margin:.3f} kg margin -> "
+                              f"needs {max(n.need, 0.0):.3f} kg ({path} {state} for it)")
+        if target <= 0.0:
+            print("\n".join(["BALLAST BLOCK · slot " + env.name] + [f"  {x}" for x in rule_lines]
+                            + ["  the mass rules already pass with the margin: no block is needed"]))
+            return 0
+    elif args.target is not None:
+        target = _quantity(args.target, "--target", "mass")
+    sizing = size_block(env, spec, target) if target is not None else heaviest_block(env, spec)
+    fits = [] if args.no_fit else check_fit(sizing)
+    others = []
+    if not sizing.reached:
+        for s in model.slots:
+            if s.name == env.name:
+                continue
+            try:
+                other = heaviest_block(Envelope.from_slot(s), spec)
+                held = [c.path for c in model.components if c.slot == s.name]
+                label = s.name + (f", once {', '.join(held)} is taken out" if held else "")
+                others.append((label, other.capacity_masses()[1]))
+            except ValueError:
+                continue
+    advice = suggestions(sizing, model.materials, others)
+    print(format_sizing(sizing, fits, advice, rule_lines))
+    blocks = blocks_of_sizing(sizing, path)
+    if args.step:
+        write_step(blocks, args.step, name=env.name)
+        print(f"\nSTEP (mm, model frame) written to {args.step}")
+    if args.stl:
+        write_stl(blocks, args.stl)
+        print(f"STL (mm, model frame) written to {args.stl}")
+    if args.json:
+        write_json_atomic(sizing_dict(sizing, fits, {"suggestions": advice, "rules": rule_lines}), args.json)
+        print(f"JSON (SI) written to {args.json}")
+    ok = sizing.reached and all(f.fits for f in fits)
+    return 0 if ok else EXIT_FAIL
+
+
+# --- place-ballast ---------------------------------------------------------------------------------------------
+
+def _place(args: argparse.Namespace) -> int:
+    from massmodel.ballast.export import (
+        Block,
+        ballasted_model_text,
+        check_written_model,
+        write_step,
+        write_stl,
+        write_text_atomic,
+    )
+    from massmodel.ballast.placement import place_ballast
+    from massmodel.ballast.plan import Objective, load_plan, material_override
+    from massmodel.ballast.sizing import SizingError, check_fit
+    from massmodel.report.ballast import format_placement, placement_dict
+    from massmodel.report.summary import write_json_atomic
+
+    model = load_from_args(args)
+    if args.out_model is not None and args.out_model.resolve() == Path(args.model).resolve():
+        raise ValueError(f"--out-model {args.out_model}: that is the input model; the ballasted model is written to "
+                         "a new file that extends it")
+    plan = load_plan(args.plan, model)
+    if args.without:
+        plan = plan.without(args.without)
+    if args.objective:
+        plan = plan.with_targets(objective=Objective(args.objective))
+    if args.margin:
+        plan = plan.with_targets(mass_margin=_quantity(args.margin, "--margin", "mass"))
+    if args.allowance:
+        plan = plan.with_targets(ballast_allowance=_quantity(args.allowance, "--allowance", "mass"))
+    if args.front_fraction:
+        parts = args.front_fraction.split(",")
+        target = _number(parts[0], "--front-fraction")
+        tol = _number(parts[1], "--front-fraction") if len(parts) > 1 else 0.0
+        if not 0.0 < target < 1.0 or not 0.0 <= tol < 0.5:
+            raise ValueError(f"--front-fraction {args.front_fraction!r}: a fraction in (0, 1) and a tolerance in [0, 0.5)")
+        plan = plan.with_targets(fraction_target=target, fraction_tolerance=tol)
+    if args.material:
+        plan = material_override(plan, model, args.material)
+    for item in args.capacity:
+        slot, _, value = item.partition("=")
+        if not value:
+            raise ValueError(f"--capacity {item!r}: expected SLOT=MASS, e.g. floor_front=12kg")
+        plan = plan.with_candidate(slot, capacity=_quantity(value, "--capacity", "mass"))
+    if args.increment:
+        inc = _quantity(args.increment, "--increment", "length")
+        for c in plan.candidates:
+            plan = plan.with_candidate(c.name, spec=replace(c.spec, increment=inc))
+    if not plan.candidates:
+        raise ValueError("no candidate slot is left in the plan")
+    try:
+        result = place_ballast(model, plan)
+    except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
+        field = f" (plan field '{exc.field}')" if exc.field else ""
+        raise ValueError(f"{args.plan}: {exc}{field}") from None
+    print(format_placement(result))
+    if not result.feasible:
+        if args.json:
+            write_json_atomic(placement_dict(result), args.json)
+            print(f"\nJSON (SI) written to {args.json}")
+        return EXIT_FAIL
+    blocks = []
+    for al in result.allocations:
+        if al.sizing is None:
+            continue
+        for path, piece in zip(al.paths, al.sizing.pieces, strict=True):
+            blocks.append(Block(path, al.candidate.spec.material, al.candidate.name, piece))
+    fit_ok = True
+    cases_ok = True  # set by the load-case check once the ballasted model is written
+    if not args.no_fit:
+        print("\nPACKAGING (OpenCascade: block inside its slot with the slot's clearance)")
+        for al in result.allocations:
+            if al.sizing is None:
+                continue
+            for path, f in zip(al.paths, check_fit(al.sizing), strict=True):
+                fit_ok &= f.fits
+                print(f"  {path}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance {f.clearance * 1e3:.3f} mm "
+                      f"(required {f.required_clearance * 1e3:.3f} mm)" + (f": {f.reason}" if f.reason else ""))
+    if args.out_model:
+        overrides = _overrides(args)
+        removed = [p for al in result.allocations for p in al.candidate.replace]
+        new_slots = [al.candidate.envelope for al in result.allocations if al.candidate.from_plan and al.sizing]
+        header = [f"{model.name} with ballast placed by massmodel place-ballast (plan '{plan.name}', "
+                  f"{Path(args.plan).name}).",
+                  f"Objective {plan.targets.objective.value}; mass margin {plan.targets.mass_margin:.3f} kg at the low "
+                  "end of each density band.",
+                  "Generated file: re-run place-ballast rather than editing it by hand."]
+        text = ballasted_model_text(model=model, model_path=args.model, out_path=args.out_model,
+                                    name=f"{model.name} (ballasted)", remove=removed, blocks=blocks,
+                                    new_slots=new_slots, overrides=overrides, header=header)
+        assert result.ballasted is not None
+        diff = check_written_model(args.out_model, result.ballasted, text)  # checked before anything is written
+        if diff > 1e-9:
+            raise RuntimeError(f"the model for {args.out_model} does not reload to the placed ballast "
+                               f"(difference {diff:.3e}); nothing written")
+        write_text_atomic(args.out_model, text)
+        print(f"\nballasted model written to {args.out_model} (extends {args.model}); reloaded: mass properties agree "
+              f"to {diff:.1e} (relative)")
+        cases_ok = _check_load_cases(args.out_model, overrides)
+    if args.step and blocks:
+        write_step(blocks, args.step, name="ballast")
+        print(f"STEP of all blocks (mm, model frame) written to {args.step}")
+    if args.stl and blocks:
+        write_stl(blocks, args.stl)
+        print(f"STL of all blocks (mm, model frame) written to {args.stl}")
+    if args.json:
+        write_json_atomic(placement_dict(result), args.json)
+        print(f"JSON (SI) written to {args.json}")
+    if args.picture:
+        from massmodel.pictures.ballast_plot import plot_placement
+
+        plot_placement(result, args.picture)
+        print(f"picture written to {args.picture}")
+    rules_ok = all(r.passed for r in result.rules) and all(a.passed for a in result.assessments)
+    return 0 if (rules_ok and fit_ok and (not args.out_model or cases_ok)) else EXIT_FAIL
+
+
+def _check_load_cases(path: Path, overrides: dict[str, str]) -> bool:
+    """The placement works on the model as loaded; the rules may also apply in other load cases (less fuel, ...).
+    Check the ballasted model in every case its rules apply in (nominal densities) and say which fail."""
+    from massmodel.core.loadcases import check_rules_in_cases
+    from massmodel.modelfile.loader import load_case_models
+
+    models = load_case_models(path, overrides=overrides)
+    if len(models) < 2:
+        return True
+    results = check_rules_in_cases(models)
+    failing = [(case, r) for case, r in results if not r.passed]
+    print(f"rules of the ballasted model in every load case ({', '.join(models)}; nominal densities): "
+          + ("all pass" if not failing else f"{len(failing)} FAIL"))
+    for case, r in failing:
+        print(f"  FAIL in '{case}': {r.name}: {r.value:.4g} {r.unit}, limit {r.limit} {r.unit}, "
+              f"margin {r.margin:+.4g} {r.unit}")
+    return not failing
+
+
+# --- seat-ballast ----------------------------------------------------------------------------------------------
+
+def _seat(args: argparse.Namespace) -> int:
+    import numpy as np
+
+    from massmodel.ballast.seat import seat_ballast_study
+    from massmodel.report.ballast import format_seat, seat_dict
+    from massmodel.report.summary import write_json_atomic
+
+    model = load_from_args(args)
+    fx, fy = _lengths(args.plate, "--plate", 2)
+    at = tuple(_lengths(args.at, "--at", 2)) if args.at else None
+    heights = np.array(_lengths(args.heights, "--heights")) if args.heights else None
+    if args.steps < 2:
+        raise ValueError("--steps must be at least 2")
+    study = seat_ballast_study(model, _material(model, args.material), _quantity(args.margin, "--margin", "mass"),
+                               rule_name=args.rule, seat_group=args.seat_group, footprint=(fx, fy),
+                               increment=_quantity(args.increment, "--increment", "length"), at=at,  # type: ignore[arg-type]
+                               heights=heights, steps=args.steps)
+    print(format_seat(study))
+    if args.plot:
+        from massmodel.pictures.ballast_plot import plot_seat_study
+
+        plot_seat_study(study, args.plot)
+        print(f"\nplot written to {args.plot}")
+    if args.json:
+        write_json_atomic(seat_dict(study), args.json)
+        print(f"JSON (SI) written to {args.json}")
+    return 0

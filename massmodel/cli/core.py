@@ -1,0 +1,215 @@
+"""Core commands: ``report``, ``check`` and ``materials``."""
+
+from __future__ import annotations
+
+import argparse
+import re
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+from massmodel.cli import EXIT_FAIL
+
+__all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from_args", "parse_point", "parse_axes"]
+
+
+def add_model_arguments(p: argparse.ArgumentParser) -> None:
+    """The model file argument and ``--set name=value`` overrides, shared by every command that reads a model."""
+    p.add_argument("model", type=Path, help="model file (TOML)")
+    p.add_argument(
+        "--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE",
+        help="override a parameter without editing the file, e.g. --set fuel_mass='10 kg' (repeatable)",
+    )
+    p.add_argument("--case", metavar="NAME", help="evaluate the model in one of its load cases ([[case]] tables)")
+
+
+def load_from_args(args: argparse.Namespace):  # -> Model
+    """Load the model named on the command line with its overrides."""
+    from massmodel.core.expr import parse_override
+    from massmodel.modelfile.loader import load_model
+
+    overrides = dict(parse_override(text) for text in args.overrides)
+    return load_model(args.model, overrides=overrides, case=args.case)
+
+
+def load_cases_from_args(args: argparse.Namespace):  # -> dict[str, Model]
+    """The models of the base and of every load case (only the one named by ``--case`` when given)."""
+    from massmodel.core.expr import parse_override
+    from massmodel.modelfile.loader import load_case_models
+
+    if args.case is not None:
+        model = load_from_args(args)
+        return {model.case: model}
+    return load_case_models(args.model, overrides=dict(parse_override(text) for text in args.overrides))
+
+
+def register(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("report", help="mass, CG, inertia, axle and corner loads, rule checks")
+    add_model_arguments(p)
+    p.add_argument("--json", type=Path, metavar="FILE", help="also write the machine-readable report (SI)")
+    p.add_argument("--units", choices=["si", "mm"], default="si", help="terminal units: si (m, kg*m^2) or mm (mm, kg*mm^2)")
+    p.add_argument("--brief", action="store_true", help="leave the per-component table out of the terminal text")
+    p.add_argument("--strict", action="store_true", help="exit 1 when a rule check fails")
+    p.add_argument("--all-cases", action="store_true",
+                   help="the base and every load case side by side (mass, CG, axle and corner loads, inertia, rules)")
+    p.add_argument(
+        "--inertia-about", dest="inertia_about", action="append", default=[], metavar="POINT",
+        help="also give the tensor of the whole model about POINT, model coordinates with units, e.g. "
+        "'0 mm, 0 mm, -265 mm' (model parameters may be used: '0, 0, ground_z'), or 'cg' (repeatable)",
+    )
+    p.add_argument(
+        "--inertia-axes", dest="inertia_axes", default="model", metavar="AXES",
+        help="axes of the --inertia-about tensors: 'model' (default), 'vehicle' (forward, left, up) or a rotation "
+        "of the model axes such as 'extrinsic y: 10 deg' or 'intrinsic zyx: 30 deg, 0, 5 deg'",
+    )
+    p.set_defaults(run=_report)
+
+    p = sub.add_parser("check", help="validate a model file and its rules without a report")
+    add_model_arguments(p)
+    p.set_defaults(run=_check)
+
+    p = sub.add_parser("materials", help="list the built-in materials library")
+    p.set_defaults(run=_materials)
+
+
+def parse_point(text: str, env: Mapping[str, Any]) -> Any:
+    """A point given on the command line: three lengths with units separated by commas (SI result, (3,) m).
+
+    Each coordinate is an expression of the model-file language and may use the model's parameters; a bare 0 needs
+    no unit. ``"cg"`` gives None (the model's CG).
+    """
+    import numpy as np
+
+    from massmodel.core.expr import ExpressionError, evaluate
+    from massmodel.core.shapes import MAX_LENGTH_M
+    from massmodel.core.units import DIMENSIONLESS, LENGTH, UnitError
+
+    if text.strip().lower() == "cg":
+        return None
+    parts = text.split(",")
+    if len(parts) != 3:
+        raise ValueError(f"--inertia-about {text!r}: expected three coordinates with units, e.g. '0 mm, 0 mm, -265 mm'")
+    out = []
+    for axis, part in zip("xyz", parts, strict=True):
+        try:
+            q = evaluate(part.strip(), env)
+        except (ExpressionError, UnitError) as exc:
+            raise ValueError(f"--inertia-about {text!r}, {axis}: {exc.args[0].splitlines()[0]}") from None
+        if q.dim == DIMENSIONLESS and q.value == 0.0:
+            out.append(0.0)
+        elif q.dim == LENGTH:
+            if abs(q.value) > MAX_LENGTH_M:  # the parallel-axis term would overflow to a non-finite tensor
+                raise ValueError(f"--inertia-about {text!r}, {axis}: {q.value:g} m is farther than "
+                                 f"{MAX_LENGTH_M:g} m from the origin")
+            out.append(q.value)
+        else:
+            raise ValueError(f"--inertia-about {text!r}, {axis}: expected a length with a unit such as '250 mm'")
+    return np.array(out)
+
+
+def parse_axes(text: str, vehicle: Any, env: Mapping[str, Any]) -> Any:
+    """Axes named on the command line, as (3, 3) rows of unit vectors in model axes (None for the model axes).
+
+    ``"vehicle"``: forward, left, up of the model's vehicle. ``"extrinsic SEQ: a1, a2, ..."`` or
+    ``"intrinsic SEQ: ..."``: the model axes rotated as a part's ``rotate`` table would rotate them (see
+    :mod:`massmodel.core.frames`); the rows are the rotated axes, i.e. the columns of the rotation matrix.
+    """
+
+    from massmodel.core.expr import ExpressionError, evaluate
+    from massmodel.core.frames import RotationKind, rotation_from_sequence
+    from massmodel.core.units import ANGLE, DIMENSIONLESS, UnitError
+
+    spec = text.strip()
+    if spec.lower() == "model":
+        return None
+    if spec.lower() == "vehicle":
+        if vehicle is None:
+            raise ValueError("--inertia-axes vehicle: the model has no [vehicle] section")
+        return vehicle.basis
+    m = re.fullmatch(r"(extrinsic|intrinsic)\s+([xyz]{1,3})\s*:(.*)", spec)
+    if not m:
+        raise ValueError(f"--inertia-axes {text!r}: expected 'model', 'vehicle' or a rotation such as "
+                         "'extrinsic y: 10 deg'")
+    angles = []
+    for part in m.group(3).split(","):
+        try:
+            q = evaluate(part.strip(), env)
+        except (ExpressionError, UnitError) as exc:
+            raise ValueError(f"--inertia-axes {text!r}: {exc.args[0].splitlines()[0]}") from None
+        if q.dim == DIMENSIONLESS and q.value == 0.0:
+            angles.append(0.0)
+        elif q.dim == ANGLE:
+            angles.append(q.value)
+        else:
+            raise ValueError(f"--inertia-axes {text!r}: angles need a unit, e.g. '10 deg'")
+    if len(angles) != len(m.group(2)):
+        raise ValueError(f"--inertia-axes {text!r}: expected {len(m.group(2))} angles for '{m.group(2)}'")
+    return rotation_from_sequence(RotationKind(m.group(1)), m.group(2), tuple(angles)).T.copy()
+
+
+def _report(args: argparse.Namespace) -> int:
+    from massmodel.report.summary import (
+        DisplayUnits,
+        InertiaRequest,
+        build_report,
+        format_report,
+        write_json_atomic,
+    )
+
+    if args.all_cases:
+        return _report_cases(args)
+    model = load_from_args(args)
+    axes = parse_axes(args.inertia_axes, model.vehicle, model.parameters)
+    requests = [
+        InertiaRequest(parse_point(text, model.parameters), axes, label=text.strip(), axes_label=args.inertia_axes)
+        for text in args.inertia_about
+    ]
+    report = build_report(model, requests)
+    print(format_report(report, DisplayUnits(args.units), components=not args.brief))
+    if args.json:
+        write_json_atomic(report, args.json)
+        print(f"\nreport written to {args.json}")
+    return EXIT_FAIL if args.strict and not report["rules_passed"] else 0
+
+
+def _report_cases(args: argparse.Namespace) -> int:
+    from massmodel.report.cases import build_case_table, format_case_table
+    from massmodel.report.summary import DisplayUnits, write_json_atomic
+
+    if args.case is not None:
+        raise ValueError("give either --case NAME or --all-cases, not both")
+    data = build_case_table(load_cases_from_args(args))
+    print(format_case_table(data, DisplayUnits(args.units)))
+    if args.json:
+        write_json_atomic(data, args.json)
+        print(f"\nload cases written to {args.json}")
+    return EXIT_FAIL if args.strict and not data["rules_passed"] else 0
+
+
+def _check(args: argparse.Namespace) -> int:
+    from massmodel.core.loadcases import check_rules_in_cases
+
+    models = load_cases_from_args(args)
+    model = next(iter(models.values()))
+    results = check_rules_in_cases(models)
+    failed = [(case, r) for case, r in results if not r.passed]
+    cases = f" · {len(models)} load cases" if len(models) > 1 else ""
+    print(f"{args.model}: valid · {len(model.components)} parts · {len(model.groups())} groups · "
+          f"{len(model.slots)} slots{cases} · {len(results)} rule checks ({len(failed)} failing)")
+    for case, r in failed:
+        where = f" [{case}]" if len(models) > 1 else ""
+        print(f"  FAIL{where} {r.name}: {r.value:.4g} {r.unit}, limit {r.limit} {r.unit}, margin {r.margin:+.4g} {r.unit}")
+    return 0
+
+
+def _materials(args: argparse.Namespace) -> int:
+    from massmodel.core.materials import builtin_materials
+    from massmodel.report.summary import table
+
+    rows = []
+    for key, m in builtin_materials().items():
+        lo, hi = m.band
+        band = f"{lo:.0f} .. {hi:.0f}" if lo != hi else "-"
+        rows.append([key, f"{m.density:.0f}", band, m.flag, m.source])
+    print(table(["material", "kg/m^3", "band kg/m^3", "flag", "source"], rows, "lrrll"))
+    return 0

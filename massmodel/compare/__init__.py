@@ -1,0 +1,5 @@
+"""The CAD department's estimate: reading JSON/CSV/STEP estimates, the comparison and the diagnosis of convention
+mix-ups.
+
+May import: :mod:`massmodel.core`, :mod:`massmodel.vehicle`, :mod:`massmodel.cad`, :mod:`massmodel.modelfile`.
+"""

@@ -1,0 +1,6 @@
+"""Pictures: display meshes, off-screen VTK rendering, the drawing sheet, the CG chart, ballast plots.
+
+VTK/pyvista and matplotlib are imported inside the functions that need them.
+
+May import: everything but :mod:`massmodel.cli`.
+"""

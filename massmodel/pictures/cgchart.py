@@ -1,0 +1,304 @@
+"""The CG chart: a flat side view (station forward, height above ground) with the limits the rules imply.
+
+Where a flat drawing reads better than a 3-D picture: the total CG and the group CGs against the axles and the
+ground, and the CG positions the rules allow for the model's current mass:
+
+- ``min_axle_load`` rules bound the CG station: with wheelbase L, total mass m, front load F = m·a2/L and rear
+  load R = m·a1/L (a1, a2 the CG's distances behind the front and ahead of the rear axle), F ≥ F_min and
+  R ≥ R_min give  rear + L·F_min/m  ≤  station  ≤  front − L·R_min/m;
+- a ``front_fraction`` rule [lo, hi] gives  rear + lo·L  ≤  station  ≤  rear + hi·L  (F/m = a2/L);
+- a ``max_cg_height`` rule is a line at that height above the ground.
+
+Mass rules (``min_mass``, ``min_group_mass``) bound no position; their status is written in the chart's notes.
+Drawn with matplotlib's Agg canvas (no display needed).
+
+References
+----------
+.. [1] Jazar, *Vehicle Dynamics: Theory and Application*, Springer (2008), ch. 2, eqs. 2.1–2.2 from memory (axle loads of a
+   parked car on level ground: F_front = m g a2 / l, F_rear = m g a1 / l).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from massmodel.core.model import Model, RuleCheck
+
+from .scene import CG_COLOUR, INK, PALETTE, group_key
+from .sheet import write_png_atomic
+
+__all__ = ["StationBand", "CgChart", "station_bands", "height_limit", "render_cg_chart"]
+
+FloatArray = npt.NDArray[np.float64]
+
+
+@dataclass(frozen=True, slots=True)
+class StationBand:
+    """A range of CG stations (``forward · p``, m) that a rule allows; None for an open end."""
+
+    name: str
+    low: float | None
+    high: float | None
+
+    def contains(self, station: float) -> bool:
+        return (self.low is None or station >= self.low) and (self.high is None or station <= self.high)
+
+    def shift_needed(self, station: float) -> float:
+        """Signed move of the CG along ``forward`` (m) to reach the band (0 inside)."""
+        if self.low is not None and station < self.low:
+            return self.low - station
+        if self.high is not None and station > self.high:
+            return self.high - station
+        return 0.0
+
+
+def station_bands(model: Model) -> list[StationBand]:
+    """Station ranges implied by the model's axle-load and front-share rules for its current mass (see module)."""
+    v = model.vehicle
+    if v is None:
+        return []
+    m = model.mass_properties().mass
+    if m <= 0:
+        return []
+    lw, front, rear = v.wheelbase, v.front_axle_station, v.rear_axle_station
+    bands: list[StationBand] = []
+    f_min = [r.limit for r in model.rules if r.check is RuleCheck.MIN_AXLE_LOAD and r.axle == "front" and r.limit]
+    r_min = [r.limit for r in model.rules if r.check is RuleCheck.MIN_AXLE_LOAD and r.axle == "rear" and r.limit]
+    if f_min or r_min:
+        low = rear + lw * max(f_min) / m if f_min else None
+        high = front - lw * max(r_min) / m if r_min else None
+        bands.append(StationBand("axle-load minimums", low, high))
+    for r in model.rules:
+        if r.check is RuleCheck.FRONT_FRACTION:
+            low = rear + r.minimum * lw if r.minimum is not None else None
+            high = rear + r.maximum * lw if r.maximum is not None else None
+            bands.append(StationBand(f"front share {r.minimum or 0:.3f}..{r.maximum or 1:.3f}", low, high))
+    return bands
+
+
+def height_limit(model: Model) -> float | None:
+    """The lowest ``max_cg_height`` limit of the rules, m above the ground (None when there is none)."""
+    limits = [r.limit for r in model.rules if r.check is RuleCheck.MAX_CG_HEIGHT and r.limit is not None]
+    return min(limits) if limits else None
+
+
+@dataclass
+class CgChart:
+    """What :func:`render_cg_chart` drew: CG station and height (m), the bands, the height limit and notes."""
+
+    path: Path
+    size: tuple[int, int]
+    station: float
+    height: float
+    bands: list[StationBand]
+    height_limit: float | None
+    notes: list[str] = field(default_factory=list)
+
+
+def _hull(points: FloatArray) -> FloatArray:
+    """Convex hull (K, 2) of 2-D points, counter-clockwise (Andrew's monotone chain)."""
+    pts = np.unique(np.round(points, 6), axis=0)
+    if len(pts) < 3:
+        return pts
+
+    def half(seq: list[tuple[float, float]]) -> list[tuple[float, float]]:
+        out: list[tuple[float, float]] = []
+        for p in seq:
+            while len(out) >= 2 and (
+                (out[-1][0] - out[-2][0]) * (p[1] - out[-2][1]) - (out[-1][1] - out[-2][1]) * (p[0] - out[-2][0]) <= 0
+            ):
+                out.pop()
+            out.append(p)
+        return out
+
+    seq = [(float(x), float(y)) for x, y in pts]
+    lower = half(seq)
+    upper = half(seq[::-1])
+    return np.array(lower[:-1] + upper[:-1])
+
+
+def _side_outlines(model: Model, chord: float = 0.01) -> list[tuple[str, FloatArray]]:
+    """(top-level group, hull (K, 2) in (station, height above ground)) of every part with a volume."""
+    from massmodel.cad.primitives import mesh_arrays
+
+    v = model.vehicle
+    assert v is not None
+    out = []
+    cache: dict[Any, FloatArray] = {}
+    for c in model.components:
+        if c.shape.kind == "point":
+            continue
+        if c.shape not in cache:
+            cache[c.shape] = np.asarray(mesh_arrays(c.shape, chord)[0], float)
+        pts = c.pose.apply(cache[c.shape])
+        xy = np.stack([pts @ v.forward, pts @ v.up - v.ground_level], axis=1)
+        out.append((group_key(c.path, 1), _hull(xy)))
+    return out
+
+
+def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (1800, 1200)) -> CgChart:
+    """Draw the CG chart of a model with a ``[vehicle]`` into a PNG (written atomically).
+
+    Parameters
+    ----------
+    model : Model
+    path : str or Path
+        Output ``.png``.
+    size : (int, int)
+        Width and height, px.
+    """
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+    from matplotlib.patches import Polygon, Rectangle
+
+    out = Path(path)
+    if out.suffix.lower() != ".png":
+        raise ValueError(f"output '{out}': the chart is written as PNG, so the file name must end in .png")
+    v = model.vehicle
+    if v is None:
+        raise ValueError(f"model '{model.name}' ({model.source or 'in memory'}) has no [vehicle] section: "
+                         "a CG chart needs axles and a ground")
+    w, h = (int(x) for x in size)
+    if not (600 <= w <= 8000 and 400 <= h <= 8000):
+        raise ValueError(f"size {w}x{h} px: width must lie in 600..8000 and height in 400..8000")
+    total = model.mass_properties()
+    station = float(v.forward @ total.center)
+    height = float(v.up @ total.center) - v.ground_level
+    bands = station_bands(model)
+    hmax = height_limit(model)
+    front, rear = v.front_axle_station, v.rear_axle_station
+    u = min(w / 1800.0, h / 1200.0)
+
+    fig = Figure(figsize=(w / 100.0, h / 100.0), dpi=100, facecolor="#efeadd")
+    FigureCanvasAgg(fig)
+    fig.text(0.015, 0.975, f"CG chart · {model.name}", fontsize=20 * u, weight="bold", color=INK, va="top")
+    fig.text(0.015, 0.94, "side view: station along forward (front to the right) and height above the ground, m; "
+             f"limits from the rules for the current mass {total.mass:.2f} kg", fontsize=11.5 * u, color=INK, va="top")
+    ax = fig.add_axes((0.055, 0.44, 0.92, 0.47))
+    zoom = fig.add_axes((0.055, 0.07, 0.56, 0.3))
+    notes_ax = fig.add_axes((0.64, 0.07, 0.345, 0.3))
+    notes_ax.axis("off")
+
+    groups = sorted({group_key(c.path, 1) for c in model.components})
+    colour = {g: PALETTE[k % len(PALETTE)] for k, g in enumerate(groups)}
+    outlines = _side_outlines(model)
+    all_xy = np.vstack([o for _, o in outlines]) if outlines else np.array([[station, height]])
+    x_lo = min(all_xy[:, 0].min(), rear) - 0.25
+    x_hi = max(all_xy[:, 0].max(), front) + 0.25
+    y_hi = max(all_xy[:, 1].max(), hmax or 0.0, height) + 0.2
+
+    band_colours = ("#4f8a5b", "#4d648d", "#8c5e8f")
+    group_cgs = []
+    for g in groups:
+        members = [c for c in model.components if group_key(c.path, 1) == g]
+        gm = float(sum(c.props.mass for c in members))
+        gc = sum(c.props.mass * c.props.center for c in members) / gm
+        group_cgs.append((g, gm, float(v.forward @ gc), float(v.up @ gc) - v.ground_level))
+    for target, is_zoom in ((ax, False), (zoom, True)):
+        target.set_facecolor("#fbf9f4")
+        if not is_zoom:
+            for g, hull in outlines:
+                target.add_patch(Polygon(hull, closed=True, fc=colour[g], ec=colour[g], alpha=0.16, lw=0.6))
+        target.axhline(0.0, color=INK, lw=1.6)
+        target.add_patch(Rectangle((x_lo - 10, -0.05), x_hi - x_lo + 20, 0.05, fc="none", ec="#8c826c", hatch="///",
+                                   lw=0))
+        for st, name in ((front, "front axle"), (rear, "rear axle")):
+            target.axvline(st, color=INK, lw=1.0, ls=(0, (8, 3, 2, 3)))
+            target.plot([st], [0.0], marker="^", ms=12 * u, color=INK, clip_on=False)
+            if not is_zoom:
+                target.text(st, 1.01, f"{name} {st:+.3f} m", ha="center", va="bottom", fontsize=10.5 * u, color=INK,
+                            transform=target.get_xaxis_transform())
+        for k, b in enumerate(bands):
+            lo = b.low if b.low is not None else x_lo - 10
+            hi = b.high if b.high is not None else x_hi + 10
+            col = band_colours[k % len(band_colours)]
+            if is_zoom:
+                target.axvspan(lo, hi, color=col, alpha=0.13, lw=0)
+                for edge in (b.low, b.high):
+                    if edge is not None:
+                        target.axvline(edge, color=col, lw=1.8)
+                target.text(0.5 * (max(lo, x_lo) + min(hi, x_hi)), 0.98 - 0.07 * k, b.name, ha="center", va="top",
+                            fontsize=10 * u, color=col, weight="bold", transform=target.get_xaxis_transform(),
+                            clip_on=True)
+            else:
+                yb = -0.085 - 0.042 * k
+                target.add_patch(Rectangle((lo, yb - 0.013), hi - lo, 0.026, fc=col, ec=col, alpha=0.8))
+                target.text(min(hi, x_hi) + 0.03, yb, b.name + " (allowed CG stations)", ha="left", va="center",
+                            fontsize=9.5 * u, color=col, weight="bold")
+        if hmax is not None:
+            target.axhline(hmax, color="#b3261e", lw=1.5, ls="--")
+            target.text(0.995, hmax, f"max CG height {hmax:.3f} m ", ha="right", va="bottom", fontsize=10 * u,
+                        color="#b3261e", transform=target.get_yaxis_transform())
+        for n, (g, gm, gx, gy) in enumerate(sorted(group_cgs, key=lambda t: t[2])):
+            size_pt = (6 + 14 * np.sqrt(gm / total.mass)) * u
+            target.plot([gx], [gy], marker="D", ms=size_pt, mfc=colour[g], mec=INK, mew=0.8, zorder=4)
+            if not is_zoom:
+                dy = 9 if n % 2 == 0 else -16
+                target.annotate(f"{g or '(top level)'} {gm:.1f} kg", (gx, gy), xytext=(7, dy),
+                                textcoords="offset points", fontsize=9.5 * u, color=INK, zorder=5,
+                                bbox={"fc": "#fbf9f4", "ec": "none", "alpha": 0.7, "pad": 1})
+        target.plot([station], [height], marker="o", ms=16 * u, mfc=CG_COLOUR, mec=INK, mew=1.6, zorder=6)
+        target.plot([station], [height], marker="+", ms=30 * u, color=INK, mew=1.4, zorder=6)
+        target.grid(True, color="#d8d0bd", lw=0.6)
+        target.tick_params(labelsize=10 * u, colors=INK)
+    ax.annotate(f"CG  station {station:+.4f} m, {height:.4f} m above ground", (station, height), xytext=(18, 40),
+                textcoords="offset points", fontsize=12 * u, weight="bold", color=INK, zorder=7,
+                bbox={"fc": "#fffdf8", "ec": CG_COLOUR, "lw": 1.3},
+                arrowprops={"arrowstyle": "-", "color": CG_COLOUR, "lw": 1.2})
+    ax.set_xlim(x_lo, x_hi)
+    ax.set_ylim(-0.1 - 0.042 * max(len(bands), 1), y_hi)
+    ax.set_aspect("equal", adjustable="box")
+    ax.set_xlabel("station along forward, m (model frame)", fontsize=10.5 * u, color=INK)
+    ax.set_ylabel("height above ground, m", fontsize=10.5 * u, color=INK)
+    for b in bands:
+        move = b.shift_needed(station)
+        if move != 0.0:
+            zoom.annotate("", (station + move, height), (station, height),
+                          arrowprops={"arrowstyle": "->", "color": INK, "lw": 1.4})
+            zoom.text(station + 0.5 * move, height - 0.012, f"{abs(move) * 1e3:.1f} mm", ha="center", va="top",
+                      fontsize=10 * u, color=INK)
+
+    edges = [station] + [e for b in bands for e in (b.low, b.high) if e is not None]
+    span = max(max(edges) - min(edges), 0.05)
+    zoom.set_xlim(min(edges) - 0.35 * span, max(edges) + 0.35 * span)
+    zoom.set_ylim(max(-0.01, height - 0.12), max(height + 0.12, (hmax or 0) + 0.03))
+    zoom.set_title("near the CG: rule bands (shaded = allowed station range)", fontsize=11 * u, color=INK, loc="left")
+    zoom.set_xlabel("station along forward, m", fontsize=10 * u, color=INK)
+
+    notes = _notes(model, station, height, bands, hmax)
+    notes_ax.text(0.0, 1.0, "\n".join(notes), va="top", ha="left", fontsize=10.5 * u, color=INK, wrap=True,
+                  family="DejaVu Sans", linespacing=1.45, transform=notes_ax.transAxes)
+    write_png_atomic(fig, out, "massmodel cg-chart")
+    return CgChart(out, (w, h), station, height, bands, hmax, notes)
+
+
+def _notes(model: Model, station: float, height: float, bands: list[StationBand], hmax: float | None) -> list[str]:
+    import textwrap
+
+    from massmodel.vehicle.balance import check_rules
+
+    lines = ["RULE LIMITS AT THE CURRENT MASS"]
+    for b in bands:
+        lo = f"{b.low:+.4f}" if b.low is not None else "open"
+        hi = f"{b.high:+.4f}" if b.high is not None else "open"
+        move = b.shift_needed(station)
+        state = "CG inside" if move == 0.0 else f"move CG {abs(move) * 1e3:.1f} mm {'forward' if move > 0 else 'rearward'}"
+        lines.append(f"• {b.name}: station {lo} .. {hi} m · {state}")
+    if hmax is not None:
+        lines.append(f"• max CG height {hmax:.4f} m · margin {(hmax - height) * 1e3:+.1f} mm")
+    for r in check_rules(model):
+        if r.check in ("min_mass", "min_group_mass"):
+            lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {r.limit} {r.unit})")
+    lines.append("")
+    wrapped: list[str] = []
+    for line in lines:
+        wrapped.extend(textwrap.wrap(line, 64, subsequent_indent="   ") or [""])
+    wrapped.extend(textwrap.wrap(
+        "Bands move with the mass: ballast changes both the mass and the CG. The series' technical regulations "
+        "and the scrutineers decide compliance.", 64))
+    return wrapped

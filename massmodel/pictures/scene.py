@@ -1,0 +1,630 @@
+"""Display geometry of a mass model: one merged triangle mesh with per-part colours, markers and references.
+
+This is the renderer-free half of the picture (numpy, plus manifold3d for cut-outs): every part is meshed in its
+part frame, its cut-outs removed by a mesh boolean, placed by its pose and appended to one mesh whose faces
+remember their owner (one actor draws all parts; colours are per cell). The scene also holds what the sheet
+annotates: the total CG with its principal axes, group CGs, ballast, slots, ground, axles and wheel contact points,
+the vehicle axis triad and the legend. :mod:`massmodel.pictures.viewer` turns it into pictures.
+
+Directions follow the model's vehicle axes (``Vehicle.forward/left/up``); a model without a ``[vehicle]`` uses
+the model axes x, y, z as forward, left, up and has no ground. All lengths are metres, model frame.
+
+References
+----------
+.. [1] Möller & Trumbore, "Fast, minimum storage ray-triangle intersection", Journal of Graphics Tools 2(1),
+   1997 (the ray test used to find the parts that hide a point from a camera).
+"""
+
+from __future__ import annotations
+
+import enum
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from massmodel.core.massprops import MassProperties, combine_arrays, principal_axes, radii_of_gyration
+from massmodel.core.model import Component, Model
+
+__all__ = [
+    "ColourBy",
+    "SceneOptions",
+    "LegendEntry",
+    "GroupMarker",
+    "Scene",
+    "build_scene",
+    "part_mesh",
+    "sharp_edges",
+    "hidden_by",
+    "axis_name",
+    "hex_to_rgb",
+    "PALETTE",
+    "INK",
+    "CG_COLOUR",
+    "BALLAST_COLOUR",
+    "SLOT_COLOUR",
+]
+
+FloatArray = npt.NDArray[np.float64]
+IntArray = npt.NDArray[np.int64]
+
+# --- the sheet's own colours ---------------------------------------------------------------------------------
+INK = "#1f2a33"  # lines and text
+CG_COLOUR = "#e8240f"  # the total CG marker (unlit, so it keeps this exact colour in the picture)
+BALLAST_COLOUR = "#d4007a"  # outline of parts that sit in a slot
+SLOT_COLOUR = "#00838f"  # slot wire envelopes
+# Twelve inks for groups, in order of the sorted group names (invented for massmodel).
+PALETTE = (
+    "#9b6a4f", "#3f7f6e", "#c99a2e", "#4d648d", "#8c5e8f", "#6b8f3a",
+    "#c2703d", "#5b8fa8", "#9c4b62", "#7d7a4f", "#55557a", "#a68a64",
+)
+MATURITY_COLOURS = {"estimated": "#b86f8c", "calculated": "#d9a13b", "measured": "#4f8a5b"}
+NO_DENSITY_COLOUR = "#9a9a9a"
+# Density ramp, light and cool for foam to dark and warm for tungsten (log scale).
+DENSITY_RAMP = ("#dfe8d8", "#9cc3a0", "#5f9c8c", "#3b6f8a", "#49457a", "#7a2f5f", "#a3202f")
+DENSITY_RANGE = (50.0, 20000.0)  # kg/m³ of the ramp's ends
+
+
+class ColourBy(enum.Enum):
+    """What the part colours show."""
+
+    GROUP = "group"
+    MATERIAL = "material"
+    DENSITY = "density"
+    MATURITY = "maturity"
+
+
+@dataclass(frozen=True, slots=True)
+class SceneOptions:
+    """What the scene contains and how it is coloured.
+
+    Parameters
+    ----------
+    colour_by : ColourBy
+        Part colours by group, material, (implied) density or mass maturity.
+    group_depth : int
+        Group level of the legend and the group CG markers (1 = top-level groups).
+    group_cgs, slots, labels, principal_axes, ground : bool
+        Show per-group CG markers, slot envelopes, text labels, principal axes at the CG, ground plane.
+    chord_tolerance : float
+        Largest distance between the display mesh and the exact surface, m.
+    point_radius : float
+        Radius of the markers of point masses, m.
+    """
+
+    colour_by: ColourBy = ColourBy.GROUP
+    group_depth: int = 1
+    group_cgs: bool = True
+    slots: bool = True
+    labels: bool = True
+    principal_axes: bool = True
+    ground: bool = True
+    chord_tolerance: float = 0.002
+    point_radius: float = 0.012
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.group_depth, int) or self.group_depth < 1:
+            raise ValueError(f"option 'group_depth' must be a whole number >= 1, got {self.group_depth!r}")
+        if not (0.0001 <= self.chord_tolerance <= 0.05):
+            raise ValueError(
+                f"option 'chord_tolerance' must lie between 0.1 mm and 50 mm, got {self.chord_tolerance * 1e3:g} mm"
+            )
+
+
+@dataclass(frozen=True, slots=True)
+class LegendEntry:
+    """One legend line: a colour and what it stands for (mass in kg, share of the total as a fraction)."""
+
+    label: str
+    colour: str
+    mass: float | None = None
+    share: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class GroupMarker:
+    """CG of one group: name, colour, centre (3,) m model frame, mass kg."""
+
+    name: str
+    colour: str
+    center: FloatArray
+    mass: float
+
+
+@dataclass(eq=False)
+class Scene:
+    """Everything the pictures show, in model coordinates (m).
+
+    Attributes
+    ----------
+    vertices : (V, 3) float
+        Vertices of all parts, m.
+    faces : (F, 3) int
+        Outward triangles (counter-clockwise seen from outside).
+    owner : (F,) int
+        Index into ``model.components`` of each face's part.
+    part_colours : (N, 3) uint8
+        Display colour of each component (by the chosen scheme).
+    edges : (E, 2, 3) float
+        Sharp edges of the parts (dihedral angle above 30°), m, drawn as ink outlines.
+    edge_owner : (E,) int
+        Component of each edge.
+    ballast : list of int
+        Components that name a slot.
+    slot_edges : list of (str, (K, 2, 3) float)
+        Slot name and the sharp edges of its envelope.
+    cg : (3,) float
+        Total CG.
+    axes : (3, 3) float
+        Principal axes of inertia at the CG (rows, ascending moments); ``radii`` (3,) the radii of gyration, m.
+    basis : (3, 3) float
+        Rows forward, left, up (unit vectors, model axes).
+    ground : float or None
+        ``up · p`` of the ground plane.
+    """
+
+    model: Model
+    options: SceneOptions
+    report: dict[str, Any]
+    vertices: FloatArray
+    faces: IntArray
+    owner: IntArray
+    part_colours: npt.NDArray[np.uint8]
+    edges: FloatArray
+    edge_owner: IntArray
+    ballast: list[int]
+    points: list[int]
+    slot_edges: list[tuple[str, FloatArray]]
+    cg: FloatArray
+    mass: float
+    axes: FloatArray
+    radii: FloatArray
+    moments: FloatArray
+    basis: FloatArray
+    ground: float | None
+    contact_points: FloatArray | None
+    axle_stations: tuple[float, float] | None
+    legend: list[LegendEntry]
+    legend_title: str
+    group_markers: list[GroupMarker]
+    axis_labels: tuple[str, str, str]
+    fallback_parts: list[str] = field(default_factory=list)
+    mesh_seconds: float = 0.0
+
+    @property
+    def forward(self) -> FloatArray:
+        return self.basis[0]
+
+    @property
+    def left(self) -> FloatArray:
+        return self.basis[1]
+
+    @property
+    def up(self) -> FloatArray:
+        return self.basis[2]
+
+    def extent(self) -> tuple[FloatArray, FloatArray]:
+        """(low, high) corners, (3,) each, of everything drawn, in (forward, left, up) coordinates, m."""
+        pts = [self.vertices, self.cg[None, :]]
+        if self.contact_points is not None:
+            pts.append(self.contact_points)
+        local = np.vstack(pts) @ self.basis.T
+        low, high = local.min(axis=0), local.max(axis=0)
+        if self.ground is not None:
+            low[2] = min(low[2], self.ground)
+        return low, high
+
+    def ground_rectangle(self, margin: float = 0.25) -> FloatArray | None:
+        """(4, 3) corners of the drawn ground plane (the parts' footprint plus ``margin``, m) or None."""
+        if self.ground is None:
+            return None
+        low, high = self.extent()
+        f0, f1 = low[0] - margin, high[0] + margin
+        l0, l1 = low[1] - margin, high[1] + margin
+        corners = [(f0, l0), (f1, l0), (f1, l1), (f0, l1)]
+        return np.array([f * self.forward + s * self.left + self.ground * self.up for f, s in corners])
+
+
+# --- colours ---------------------------------------------------------------------------------------------------
+
+def hex_to_rgb(colour: str) -> tuple[int, int, int]:
+    """``'#rrggbb'`` → (r, g, b) in 0..255."""
+    text = colour.lstrip("#")
+    if len(text) != 6:
+        raise ValueError(f"colour {colour!r} is not of the form #rrggbb")
+    return int(text[0:2], 16), int(text[2:4], 16), int(text[4:6], 16)
+
+
+def _mix(a: str, b: str, t: float) -> str:
+    ra, rb = np.array(hex_to_rgb(a), float), np.array(hex_to_rgb(b), float)
+    r = np.rint(ra + (rb - ra) * t).astype(int)
+    return "#" + "".join(f"{int(v):02x}" for v in r)
+
+
+def density_colour(density: float | None) -> str:
+    """Colour of a density on the sheet's logarithmic ramp (kg/m³; grey when unknown)."""
+    if density is None or not density > 0.0:
+        return NO_DENSITY_COLOUR
+    lo, hi = (math.log(v) for v in DENSITY_RANGE)
+    t = min(max((math.log(density) - lo) / (hi - lo), 0.0), 1.0) * (len(DENSITY_RAMP) - 1)
+    k = min(int(t), len(DENSITY_RAMP) - 2)
+    return _mix(DENSITY_RAMP[k], DENSITY_RAMP[k + 1], t - k)
+
+
+def group_key(path: str, depth: int) -> str:
+    """The group of ``path`` at ``depth`` levels ('' for a part above that level)."""
+    parts = path.split("/")[:-1]
+    return "/".join(parts[:depth]) if len(parts) >= depth else "/".join(parts)
+
+
+def _legend_and_colours(
+    model: Model, options: SceneOptions, total_mass: float
+) -> tuple[list[str], list[LegendEntry], str, dict[str, str]]:
+    comps = model.components
+    groups: dict[str, float] = {}
+    for c in comps:
+        key = group_key(c.path, options.group_depth)
+        groups[key] = groups.get(key, 0.0) + c.props.mass
+    group_names = sorted(groups)
+    group_colour = {g: PALETTE[k % len(PALETTE)] for k, g in enumerate(group_names)}
+
+    def share(m: float) -> float | None:
+        return m / total_mass if total_mass > 0 else None
+
+    def entry_label(g: str) -> str:
+        return g if g else "(top-level parts)"
+
+    if options.colour_by is ColourBy.GROUP:
+        colours = [group_colour[group_key(c.path, options.group_depth)] for c in comps]
+        legend = [LegendEntry(entry_label(g), group_colour[g], groups[g], share(groups[g])) for g in group_names]
+        title = "groups" if options.group_depth == 1 else f"groups (level {options.group_depth})"
+    elif options.colour_by is ColourBy.MATURITY:
+        colours = [MATURITY_COLOURS[c.maturity.value] for c in comps]
+        legend = []
+        for name, col in MATURITY_COLOURS.items():
+            m = float(sum(c.props.mass for c in comps if c.maturity.value == name))
+            legend.append(LegendEntry(name, col, m, share(m)))
+        title = "mass maturity"
+    elif options.colour_by is ColourBy.MATERIAL:
+        keys = sorted({c.material or "" for c in comps})
+        mat_colour = {k: (PALETTE[i % len(PALETTE)] if k else NO_DENSITY_COLOUR) for i, k in enumerate(keys)}
+        colours = [mat_colour[c.material or ""] for c in comps]
+        legend = []
+        for k in keys:
+            m = float(sum(c.props.mass for c in comps if (c.material or "") == k))
+            legend.append(LegendEntry(k or "(mass given, no material)", mat_colour[k], m, share(m)))
+        title = "material"
+    else:
+        colours = [density_colour(c.implied_density) for c in comps]
+        legend = [
+            LegendEntry(f"{d:g} kg/m^3", density_colour(d))
+            for d in (100.0, 500.0, 1600.0, 2700.0, 7850.0, 18000.0)
+        ]
+        legend.append(LegendEntry("no volume (point)", NO_DENSITY_COLOUR))
+        title = "density (mass / net volume)"
+    return colours, legend, title, group_colour
+
+
+# --- meshes ----------------------------------------------------------------------------------------------------
+
+def _to_manifold(vertices: FloatArray, faces: IntArray) -> Any:
+    import manifold3d
+
+    return manifold3d.Manifold(
+        manifold3d.Mesh(
+            vert_properties=np.ascontiguousarray(vertices, dtype=np.float32),
+            tri_verts=np.ascontiguousarray(faces, dtype=np.uint32),
+        )
+    )
+
+
+def _cad_part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray, IntArray]:
+    """Fallback: the B-rep solid minus its cut-outs (OpenCascade), tessellated, in the part frame."""
+    import trimesh
+
+    from massmodel.cad.solids import place_solid
+
+    solid = component.shape.to_solid()
+    for cut in component.cutouts:
+        solid = solid.cut(place_solid(cut.shape.to_solid(), cut.pose))
+    verts, tris = solid.tessellate(chord_tolerance * 1e3, 0.3)
+    mesh = trimesh.Trimesh(np.array([v.toTuple() for v in verts]) * 1e-3, np.array(tris))
+    return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
+
+
+def part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray, IntArray, bool]:
+    """Display mesh of one part in its part frame: the shape minus its cut-outs.
+
+    The cut-outs are removed by a manifold3d boolean difference; when that fails (an error status, or a volume
+    more than 2 % + chord error away from the exact net volume) the OpenCascade solid is tessellated instead.
+
+    Returns
+    -------
+    vertices : (V, 3) float
+        m, part frame.
+    faces : (F, 3) int
+        Outward triangles.
+    fallback : bool
+        True when OpenCascade made the mesh.
+    """
+    from massmodel.cad.primitives import (
+        mesh_arrays,  # the arrays behind Shape.to_mesh, without the trimesh wrapper
+    )
+
+    v, f = mesh_arrays(component.shape, chord_tolerance)
+    if not component.cutouts:
+        return np.asarray(v, float), np.asarray(f, np.int64), False
+    import manifold3d
+
+    body = _to_manifold(v, f)
+    for cut in component.cutouts:
+        cv, cf = mesh_arrays(cut.shape, chord_tolerance)
+        body = body - _to_manifold(cut.pose.apply(cv), cf)
+    ok = body.status() == manifold3d.Error.NoError
+    if ok:
+        out = body.to_mesh()
+        verts = np.asarray(out.vert_properties[:, :3], float)
+        tris = np.asarray(out.tri_verts, np.int64)
+        area_scale = float(np.ptp(verts, axis=0).max()) if len(verts) else 0.0
+        slack = 0.02 * component.volume + 6.0 * chord_tolerance * area_scale**2
+        ok = len(tris) > 0 and abs(_mesh_volume(verts, tris) - component.volume) <= slack
+    if ok:
+        return verts, tris, False
+    verts, tris = _cad_part_mesh(component, chord_tolerance)
+    return verts, tris, True
+
+
+def _mesh_volume(vertices: FloatArray, faces: IntArray) -> float:
+    """Signed volume of a closed triangle mesh (divergence theorem), m³."""
+    a, b, c = (vertices[faces[:, k]] for k in range(3))
+    return float(np.einsum("ij,ij->i", a, np.cross(b, c)).sum() / 6.0)
+
+
+def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0) -> IntArray:
+    """Vertex index pairs (E, 2) of the edges whose two faces meet at more than ``angle_deg`` (or are open)."""
+    if len(faces) == 0:
+        return np.zeros((0, 2), np.int64)
+    a, b, c = (vertices[faces[:, k]] for k in range(3))
+    normals = np.cross(b - a, c - a)
+    norms = np.linalg.norm(normals, axis=1)
+    normals = normals / np.where(norms > 0, norms, 1.0)[:, None]
+    e = np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]])
+    face_of = np.tile(np.arange(len(faces)), 3)
+    # weld coincident vertices (meshes may duplicate seams) before pairing edges
+    keys = np.round(vertices / 1e-7).astype(np.int64)
+    _, weld = np.unique(keys, axis=0, return_inverse=True)
+    weld = weld.reshape(-1)
+    we = np.sort(weld[e], axis=1)
+    order = np.lexsort((we[:, 1], we[:, 0]))
+    we, e, face_of = we[order], e[order], face_of[order]
+    same = np.all(we[1:] == we[:-1], axis=1)
+    keep = np.ones(len(we), bool)
+    # a pair (i, i+1) with the same key is one interior edge: keep the first only when sharp
+    pair = np.flatnonzero(same)
+    cosang = np.einsum("ij,ij->i", normals[face_of[pair]], normals[face_of[pair + 1]])
+    sharp = cosang < math.cos(math.radians(angle_deg))
+    keep[pair + 1] = False
+    keep[pair[~sharp]] = False
+    degenerate = we[:, 0] == we[:, 1]
+    return e[keep & ~degenerate]
+
+
+def _place(vertices: FloatArray, faces: IntArray, component: Component) -> tuple[FloatArray, IntArray]:
+    v = component.pose.apply(vertices)
+    f = faces[:, ::-1] if component.pose.is_mirrored else faces  # a mirror turns the winding inside out
+    return v, f
+
+
+def axis_name(vector: FloatArray) -> str:
+    """'+x', '−z', ... for a model-axis direction; the rounded vector otherwise."""
+    v = np.asarray(vector, float)
+    k = int(np.argmax(np.abs(v)))
+    if abs(abs(v[k]) - 1.0) < 1e-9:
+        return ("+" if v[k] > 0 else "−") + "xyz"[k]
+    return "(" + ", ".join(f"{x:.2f}" for x in v) + ")"
+
+
+# --- the scene -------------------------------------------------------------------------------------------------
+
+def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
+    """Mesh and annotate a model for display.
+
+    Parameters
+    ----------
+    model : Model
+    options : SceneOptions, optional
+
+    Returns
+    -------
+    Scene
+    """
+    import time
+
+    from massmodel.report.summary import build_report
+
+    opts = options or SceneOptions()
+    if not model.components:
+        raise ValueError(f"model '{model.name}' has no components to draw")
+    t0 = time.perf_counter()
+    report = build_report(model)
+    total = model.mass_properties()
+    colours, legend, legend_title, group_colour = _legend_and_colours(model, opts, total.mass)
+    part_rgb = np.array([hex_to_rgb(c) for c in colours], dtype=np.uint8)
+
+    cache: dict[Any, tuple[FloatArray, IntArray, IntArray, bool]] = {}
+    verts: list[FloatArray] = []
+    faces: list[IntArray] = []
+    owner: list[IntArray] = []
+    edges: list[FloatArray] = []
+    edge_owner: list[IntArray] = []
+    fallback: list[str] = []
+    points: list[int] = []
+    offset = 0
+    from massmodel.core.shapes import Sphere
+
+    marker = Sphere(opts.point_radius)
+    for i, comp in enumerate(model.components):
+        is_point = comp.shape.kind == "point"
+        key = ("point",) if is_point else (comp.shape, tuple((c.shape, c.pose.matrix4().tobytes()) for c in comp.cutouts))
+        if key not in cache:
+            if is_point:
+                from massmodel.cad.primitives import mesh_arrays
+
+                mv, mf = mesh_arrays(marker, min(opts.chord_tolerance, opts.point_radius / 4))
+                lv, lf, used_cad = np.asarray(mv, float), np.asarray(mf, np.int64), False
+            else:
+                lv, lf, used_cad = part_mesh(comp, opts.chord_tolerance)
+            cache[key] = (lv, lf, sharp_edges(lv, lf) if not is_point else np.zeros((0, 2), np.int64), used_cad)
+        lv, lf, le, used_cad = cache[key]
+        if used_cad:
+            fallback.append(comp.path)
+        if is_point:
+            points.append(i)
+            v, f = lv + comp.props.center, lf
+        else:
+            v, f = _place(lv, lf, comp)
+        verts.append(v)
+        faces.append(f + offset)
+        owner.append(np.full(len(f), i, np.int64))
+        if len(le):
+            edges.append(v[le])
+            edge_owner.append(np.full(len(le), i, np.int64))
+        offset += len(v)
+
+    slot_edges: list[tuple[str, FloatArray]] = []
+    if opts.slots:
+        from massmodel.cad.primitives import mesh_arrays
+
+        for s in model.slots:
+            sv, sf = mesh_arrays(s.shape, opts.chord_tolerance)
+            sv = np.asarray(sv, float)
+            sf = np.asarray(sf, np.int64)
+            slot_edges.append((s.name, s.pose.apply(sv)[sharp_edges(sv, sf)]))
+
+    vehicle = model.vehicle
+    if vehicle is not None:
+        basis = vehicle.basis
+        ground: float | None = vehicle.ground_level if opts.ground else None
+        contacts: FloatArray | None = vehicle.contact_points()
+        stations: tuple[float, float] | None = (vehicle.front_axle_station, vehicle.rear_axle_station)
+    else:
+        basis, ground, contacts, stations = np.eye(3), None, None, None
+    labels = (
+        f"{axis_name(basis[0])} forward",
+        f"{axis_name(basis[1])} left",
+        f"{axis_name(basis[2])} up",
+    )
+
+    if total.mass > 0:
+        moments, axes = principal_axes(total.inertia)
+        radii = radii_of_gyration(total)
+    else:
+        moments, axes, radii = np.zeros(3), np.eye(3), np.zeros(3)
+
+    markers: list[GroupMarker] = []
+    if opts.group_cgs:
+        names = sorted({group_key(c.path, opts.group_depth) for c in model.components})
+        for g in names:
+            members = [c for c in model.components if group_key(c.path, opts.group_depth) == g]
+            mp = MassProperties(*combine_arrays(*model.arrays(members)))
+            colour = group_colour[g] if opts.colour_by is ColourBy.GROUP else "#6d7378"
+            markers.append(GroupMarker(g or "(top level)", colour, np.array(mp.center), mp.mass))
+
+    scene = Scene(
+        model=model,
+        options=opts,
+        report=report,
+        vertices=np.vstack(verts),
+        faces=np.vstack(faces),
+        owner=np.concatenate(owner),
+        part_colours=part_rgb,
+        edges=np.vstack(edges) if edges else np.zeros((0, 2, 3)),
+        edge_owner=np.concatenate(edge_owner) if edge_owner else np.zeros(0, np.int64),
+        ballast=[i for i, c in enumerate(model.components) if c.slot],
+        points=points,
+        slot_edges=slot_edges,
+        cg=np.array(total.center),
+        mass=total.mass,
+        axes=np.array(axes),
+        radii=np.array(radii),
+        moments=np.array(moments),
+        basis=np.array(basis, float),
+        ground=ground,
+        contact_points=contacts,
+        axle_stations=stations,
+        legend=legend,
+        legend_title=legend_title,
+        group_markers=markers,
+        axis_labels=labels,
+        fallback_parts=fallback,
+    )
+    scene.mesh_seconds = time.perf_counter() - t0
+    return scene
+
+
+# --- what hides what -------------------------------------------------------------------------------------------
+
+def _ray_hits(origins: FloatArray, direction: FloatArray, tri: FloatArray, eps: float = 1e-9) -> npt.NDArray[np.bool_]:
+    """(R, T) whether ray r (origin + t·direction, t > eps) crosses triangle t [1]_."""
+    a, b, c = tri[:, 0], tri[:, 1], tri[:, 2]
+    e1, e2 = b - a, c - a
+    p = np.cross(direction, e2)  # (T, 3)
+    det = np.einsum("ij,ij->i", e1, p)
+    ok = np.abs(det) > 1e-18
+    inv = np.where(ok, 1.0 / np.where(ok, det, 1.0), 0.0)
+    s = origins[:, None, :] - a[None, :, :]  # (R, T, 3)
+    u = np.einsum("rtj,tj->rt", s, p) * inv
+    q = np.cross(s, e1[None, :, :])
+    v = np.einsum("j,rtj->rt", direction, q) * inv
+    t = np.einsum("rtj,tj->rt", q, e2) * inv
+    return ok & (u >= 0) & (v >= 0) & (u + v <= 1) & (t > eps)
+
+
+def hidden_by(scene: Scene, toward_camera: FloatArray, targets: Sequence[FloatArray], skip: Sequence[int] = ()) -> set[int]:
+    """Parts that lie between any of ``targets`` and a camera looking along ``-toward_camera`` (parallel view).
+
+    Parameters
+    ----------
+    toward_camera : (3,) float
+        Unit vector from the scene toward the camera.
+    targets : sequence of (K, 3) float
+        Sample points of what must stay visible (m).
+    skip : sequence of int
+        Components never counted (e.g. the target's own part).
+
+    Returns
+    -------
+    set of int
+        Component indices.
+    """
+    d = np.asarray(toward_camera, float)
+    d = d / np.linalg.norm(d)
+    helper = np.array([1.0, 0, 0]) if abs(d[0]) < 0.9 else np.array([0, 1.0, 0])
+    r = np.cross(d, helper)
+    r /= np.linalg.norm(r)
+    u = np.cross(d, r)
+    proj = np.stack([scene.vertices @ r, scene.vertices @ u, scene.vertices @ d], axis=1)
+    tri_proj = proj[scene.faces]  # (F, 3, 3)
+    lo = tri_proj.min(axis=1)
+    hi = tri_proj.max(axis=1)
+    hidden: set[int] = set()
+    skip_set = set(skip)
+    for pts in targets:
+        pts = np.atleast_2d(np.asarray(pts, float))
+        pp = np.stack([pts @ r, pts @ u, pts @ d], axis=1)
+        box_lo, box_hi = pp.min(axis=0), pp.max(axis=0)
+        cand = np.flatnonzero(
+            (lo[:, 0] <= box_hi[0]) & (hi[:, 0] >= box_lo[0]) & (lo[:, 1] <= box_hi[1]) & (hi[:, 1] >= box_lo[1])
+            & (hi[:, 2] > box_lo[2])
+        )
+        if skip_set:
+            cand = cand[~np.isin(scene.owner[cand], list(skip_set))]
+        cand = cand[~np.isin(scene.owner[cand], list(hidden))] if hidden else cand
+        for start in range(0, len(cand), 4000):
+            chunk = cand[start : start + 4000]
+            hits = _ray_hits(pts, d, scene.vertices[scene.faces[chunk]]).any(axis=0)
+            hidden.update(int(k) for k in np.unique(scene.owner[chunk[hits]]))
+    return hidden

@@ -1,0 +1,388 @@
+"""Ballast results as plain data (JSON, SI, units in the keys) and as readable text (mm and kg at the edge)."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import numpy as np
+
+from massmodel.ballast.block import AXES
+from massmodel.ballast.sizing import BlockSizing, denser_materials
+from massmodel.core import cautions
+from massmodel.core.materials import Material
+
+from .summary import table
+
+__all__ = ["BALLAST_FORMAT", "sizing_dict", "format_sizing", "placement_dict", "format_placement",
+           "seat_dict", "format_seat", "suggestions"]
+
+BALLAST_FORMAT = "massmodel-ballast/1"
+CONVENTIONS = {
+    "units": "SI: kg, m, kg*m^2 (unit in every key); text output in mm and kg",
+    "frame": "model axes of the model file; block sizes in the slot's axes",
+    "inertia": "tensor about the block's CG, model axes; off-diagonal I_xy = -integral(x*y dm) (tensor convention)",
+    "density_band": "masses at the material's nominal, lowest and highest density; minimum-mass rules are met at "
+                    "the lowest",
+    "files": "STEP and STL in millimetres, model frame",
+}
+
+
+def _v(v: Any, scale: float = 1e3, digits: int = 1) -> str:
+    return "(" + ", ".join(f"{x * scale:.{digits}f}" for x in v) + ")"
+
+
+def suggestions(sizing: BlockSizing, library: Mapping[str, Material], other_slots: Sequence[tuple[str, float]] = ()
+                ) -> list[str]:
+    """What would reach a target the slot cannot hold: a denser class, more length, a second slot."""
+    if sizing.reached or sizing.target is None:
+        return []
+    out = []
+    target = sizing.target
+    vol_full = float(sum(p.geometry.volume() for p in sizing.capacity))
+    mat = sizing.spec.material
+    reach = [m for m in denser_materials(mat, library) if m.band[0] * vol_full >= target]
+    if reach:
+        m = reach[0]
+        out.append(f"a denser material: {m.key} ({m.name}) holds {m.band[0] * vol_full:.3f} kg in this slot at the "
+                   f"low end of its band ({m.band[0]:.0f} kg/m^3)")
+    else:
+        dense = denser_materials(mat, library)
+        if dense:
+            m = dense[-1]
+            out.append(f"no denser material in the library reaches it: even {m.key} ({m.band[0]:.0f} kg/m^3 at the "
+                       f"low end) holds only {m.band[0] * vol_full:.3f} kg here")
+        else:
+            out.append(f"no material in the library is denser than {mat.key} at the low end of its band")
+    k = sizing.spec.fill.axis
+    if sizing.needed_fill_length is not None:
+        extra = sizing.needed_fill_length - sizing.fill_length
+        out.append(f"more length: a block {sizing.needed_fill_length * 1e3:.1f} mm long along the fill axis "
+                   f"{AXES[k]} would reach it, so the slot would have to grow by {extra * 1e3:.1f} mm along "
+                   f"{AXES[k]} (clearance kept)")
+    short = target - sizing.capacity_masses()[1]
+    text = f"a second slot: put the remaining {short:.3f} kg (low end of the band) in another slot"
+    fits = [f"{n} ({cap:.2f} kg)" for n, cap in other_slots if cap >= short]
+    if other_slots:
+        text += ("; of the model's other slots, these hold it in this material: " + ", ".join(fits)) if fits else \
+            "; none of the model's other slots holds that much alone in this material"
+    out.append(text)
+    return out
+
+
+def sizing_dict(sizing: BlockSizing, fits: Sequence[Any] = (), extra: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """A sized block as plain data."""
+    nom, lo, hi = sizing.masses()
+    mp = sizing.props()
+    cap = sizing.capacity_masses()
+    mat = sizing.spec.material
+    out: dict[str, Any] = {
+        "format": BALLAST_FORMAT,
+        "conventions": CONVENTIONS,
+        "slot": sizing.envelope.name,
+        "material": {"key": mat.key, "name": mat.name, "density_kg_m3": mat.density,
+                     "density_min_kg_m3": mat.band[0], "density_max_kg_m3": mat.band[1], "source": mat.source},
+        "target_at_low_density_kg": sizing.target,
+        "reached": bool(sizing.reached),
+        "shortfall_kg": sizing.shortfall,
+        "fill": str(sizing.spec.fill),
+        "fill_length_m": sizing.fill_length,
+        "increment_m": sizing.spec.increment,
+        "mass_kg": {"nominal": nom, "min": lo, "max": hi},
+        "volume_m3": sizing.volume,
+        "cg_m": mp.center.tolist(),
+        "inertia_cg_kg_m2": mp.inertia.tolist(),
+        "pieces": [
+            {"size_m": list(p.geometry.size), "volume_m3": p.geometry.volume(),
+             "mass_max_density_kg": sizing.spec.material.band[1] * p.geometry.volume(),
+             "centre_m": p.pose.apply(p.geometry.centroid()).tolist(), "description": p.geometry.describe(),
+             "removed_m3": p.geometry.removed_volume()}
+            for p in sizing.pieces
+        ],
+        "heaviest_block_kg": {"nominal": cap[0], "min": cap[1], "max": cap[2]},
+        "needed_fill_length_m": sizing.needed_fill_length,
+        "fit": [{"fits": bool(f.fits), "clearance_m": f.clearance, "required_clearance_m": f.required_clearance,
+                 "outside_volume_m3": f.outside_volume, "reason": f.reason} for f in fits],
+        "cautions": cautions.for_report("ballast", "machining", "handling"),
+    }
+    if extra:
+        out.update(extra)
+    return out
+
+
+def format_sizing(sizing: BlockSizing, fits: Sequence[Any] = (), advice: Sequence[str] = (),
+                  rule_lines: Sequence[str] = ()) -> str:
+    """Readable text of a sized block."""
+    env = sizing.envelope
+    mat = sizing.spec.material
+    nom, lo, hi = sizing.masses()
+    out = [f"BALLAST BLOCK · slot {env.name}"]
+    out.append(f"  slot {' x '.join(f'{s * 1e3:.1f}' for s in env.size)} mm, clearance {env.clearance * 1e3:.2f} mm "
+               f"each side; room {' x '.join(f'{s * 1e3:.1f}' for s in env.available)} mm; fill {sizing.spec.fill} "
+               f"in steps of {sizing.spec.increment * 1e3:g} mm")
+    out.append(f"  material {mat.key}: {mat.density:.0f} kg/m^3 nominal, band {mat.band[0]:.0f} .. "
+               f"{mat.band[1]:.0f} kg/m^3 ({mat.source})")
+    out.extend(f"  {line}" for line in rule_lines)
+    if sizing.target is not None:
+        out.append(f"  target {sizing.target:.3f} kg at the LOW end of the density band")
+    out.append("")
+    rows = []
+    for i, p in enumerate(sizing.pieces):
+        g = p.geometry
+        rows.append([str(i + 1), " x ".join(f"{s * 1e3:.1f}" for s in g.size),
+                     f"{mat.density * g.volume():.3f}", f"{mat.band[1] * g.volume():.3f}",
+                     _v(p.pose.apply(g.centroid()))])
+    out.append(table(["piece", "size mm (slot axes)", "kg nominal", "kg at max density", "CG mm (model)"], rows,
+                     "lrrrr"))
+    g0 = sizing.pieces[0].geometry
+    if g0.chamfer:
+        out.append(f"  chamfer {g0.chamfer.describe()}")
+    if g0.holes:
+        out.append(f"  holes {sizing.spec.holes.describe() if sizing.spec.holes else g0.holes.describe()}")
+    removed = {k: sum(p.geometry.removed_volume()[k] for p in sizing.pieces) for k in ("chamfers_m3", "holes_m3")}
+    out.append(f"  removed exactly (closed form): chamfers {removed['chamfers_m3'] * 1e6:.3f} cm^3, holes and "
+               f"counterbores {removed['holes_m3'] * 1e6:.3f} cm^3")
+    out.append("")
+    mp = sizing.props()
+    out.append(f"  mass      nominal {nom:.3f} kg   min {lo:.3f} kg   max {hi:.3f} kg   (volume {sizing.volume * 1e6:.2f} cm^3)")
+    out.append(f"  CG        {_v(mp.center)} mm, model frame")
+    out.append("  inertia about the CG (kg*mm^2, model axes, tensor convention):")
+    for row in mp.inertia * 1e6:
+        out.append("    [" + "  ".join(f"{0.0 if abs(x) < 0.05 else x:>12.1f}" for x in row) + " ]")
+    cap = sizing.capacity_masses()
+    full = sizing.capacity
+    out.append(f"  heaviest block this slot holds in {mat.key}: {cap[0]:.3f} kg nominal ({cap[1]:.3f} .. {cap[2]:.3f} kg), "
+               f"{sum(p.geometry.size[sizing.spec.fill.axis] for p in full) * 1e3:.1f} mm along {sizing.spec.fill.letter}"
+               + (f" in {len(full)} plates" if len(full) > 1 else ""))
+    for i, f in enumerate(fits):
+        out.append(f"  fit (OpenCascade) piece {i + 1}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance "
+                   f"{f.clearance * 1e3:.3f} mm (required {f.required_clearance * 1e3:.3f} mm)"
+                   + (f": {f.reason}" if f.reason else ""))
+    out.append("")
+    if sizing.target is not None:
+        if sizing.reached:
+            out.append(f"  TARGET REACHED: {lo:.3f} kg at the low end of the band >= {sizing.target:.3f} kg "
+                       f"(rounded up to the increment: +{lo - sizing.target:.3f} kg)")
+        else:
+            out.append(f"  TARGET NOT REACHED: the slot holds {cap[1]:.3f} kg at the low end of the band, "
+                       f"{sizing.shortfall:.3f} kg short of {sizing.target:.3f} kg. What would reach it:")
+            out.extend(f"    - {a}" for a in advice)
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+    return "\n".join(out)
+
+
+def placement_dict(result: Any) -> dict[str, Any]:
+    """A placement result as plain data."""
+    out: dict[str, Any] = {
+        "format": BALLAST_FORMAT,
+        "conventions": CONVENTIONS,
+        "model": result.model.name,
+        "source": result.model.source,
+        "plan": result.plan.name,
+        "objective": result.plan.targets.objective.value,
+        "feasible": bool(result.feasible),
+        "solver": {"seconds": result.stats.seconds, "evaluations": result.stats.evaluations,
+                   "lp_solves": result.stats.lp_solves, "lp_iterations": result.stats.lp_iterations,
+                   "nonlinear_evaluations": result.stats.nonlinear_evaluations, "rounds": result.stats.rounds,
+                   "methods": list(result.stats.methods)},
+        "notes": list(result.notes),
+        "cautions": cautions.for_report("ballast", "machining", "handling"),
+    }
+    if not result.feasible:
+        out["shortfalls"] = [{"requirement": s.requirement.label, "kind": s.requirement.kind,
+                              "shortfall": {"value": s.amount, "unit": s.requirement.unit},
+                              "best_alone": s.best_alone, "conflicts": list(s.conflicts),
+                              "explanation": s.explanation} for s in result.shortfalls]
+        return out
+    nom, lo, hi = result.ballast_mass
+    out["ballast_kg"] = {"nominal": nom, "min": lo, "max": hi}
+    out["removed"] = [p for al in result.allocations for p in al.candidate.replace]
+    out["slots"] = []
+    for al in result.allocations:
+        entry: dict[str, Any] = {"slot": al.candidate.name, "material": al.candidate.spec.material.key,
+                                 "planned_kg": al.planned, "capacity_kg": al.capacity, "thinnest_block_kg": al.floor,
+                                 "parts": list(al.paths)}
+        if al.sizing is not None:
+            s = al.sizing
+            entry["mass_kg"] = dict(zip(("nominal", "min", "max"), s.masses(), strict=True))
+            entry["fill_length_m"] = s.fill_length
+            entry["pieces"] = [{"size_m": list(p.geometry.size), "mass_max_density_kg": m}
+                               for p, m in zip(s.pieces, s.segment_masses(), strict=True)]
+            entry["cg_m"] = s.props().center.tolist()
+        out["slots"].append(entry)
+    for tag, mp, bal in (("before", result.props_before, result.balance_before),
+                         ("after", result.props_after, result.balance_after)):
+        out[tag] = {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
+        if bal is not None:
+            out[tag].update({"cg_height_m": bal.cg_height, "front_fraction": bal.front_fraction,
+                             "axle_loads_kg": {"front": bal.front, "rear": bal.rear},
+                             "corner_loads_kg": dict(zip(("front_left", "front_right", "rear_left", "rear_right"),
+                                                         map(float, bal.corners), strict=True)),
+                             "cg_left_of_centre_m": bal.cg_left_of_centre})
+    out["requirements"] = [{"key": a.requirement.key, "label": a.requirement.label, "kind": a.requirement.kind,
+                            "unit": a.requirement.unit, "bound": a.requirement.bound, "limit": a.requirement.limit,
+                            "nominal": a.nominal, "worst_of_band": a.worst, "margin_nominal": a.margin_nominal,
+                            "margin_worst": a.margin_worst, "binding": bool(a.binding), "passed": bool(a.passed)}
+                           for a in result.assessments]
+    out["rules"] = [{"name": r.name, "passed": bool(r.passed), "value": {"value": r.value, "unit": r.unit},
+                     "limit": f"{r.limit} {r.unit}", "margin": {"value": r.margin, "unit": r.unit}}
+                    for r in result.rules]
+    return out
+
+
+def _req_row(a: Any) -> list[str]:
+    r = a.requirement
+    scale, unit, fmt = (1e3, "mm", ".1f") if r.unit == "m" else (1.0, r.unit, ".4f" if r.unit == "fraction" else ".2f")
+    op = "<=" if r.is_max else ">="
+    state = "binding" if a.binding else "ok"
+    if not a.passed:
+        state = "FAIL"
+    return [r.label, f"{a.nominal * scale:{fmt}}", f"{a.worst * scale:{fmt}}", f"{op} {r.bound * scale:{fmt}}",
+            f"{a.margin_worst * scale:+{fmt}}", unit, state]
+
+
+def format_placement(result: Any) -> str:
+    """Readable text of a placement."""
+    out = [f"BALLAST PLACEMENT · {result.model.name} · plan '{result.plan.name}'"]
+    t = result.plan.targets
+    out.append(f"  objective: {t.objective.value} after the least ballast (allowance {t.ballast_allowance:.3f} kg); "
+               f"mass margin {t.mass_margin:.3f} kg at the LOW end of each density band")
+    s = result.stats
+    out.append(f"  solver: {', '.join(s.methods)} · {s.seconds:.3f} s · {s.evaluations} evaluations "
+               f"({s.lp_solves} LP/MILP solves, {s.lp_iterations} iterations, {s.nonlinear_evaluations} nonlinear "
+               f"function/gradient evaluations) · {s.rounds} round(s) of sizing and checking")
+    out.append("")
+    if not result.feasible:
+        out.append("NO PLACEMENT MEETS EVERY RULE AND TARGET")
+        for sf in result.shortfalls:
+            out.append(f"  - {sf.explanation}")
+        binding = result.shortfalls[0].requirement.label if result.shortfalls else "?"
+        out.append(f"  binding constraint: {binding}")
+        out.extend(f"  note: {n}" for n in result.notes)
+        out.append("")
+        out.append("CAUTIONS")
+        out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+        return "\n".join(out)
+    rows = []
+    for al in result.allocations:
+        if al.sizing is None:
+            rows.append([al.candidate.name, al.candidate.spec.material.key, "-", "-", "-", "-", f"{al.capacity:.2f}",
+                         "unused"])
+            continue
+        sz = al.sizing
+        nom, lo, hi = sz.masses()
+        dims = " x ".join(f"{v * 1e3:.1f}" for v in sz.pieces[0].geometry.size)
+        plates = f"{len(sz.pieces)} plates" if len(sz.pieces) > 1 else "1 block"
+        rows.append([al.candidate.name, al.candidate.spec.material.key, f"{nom:.3f}", f"{lo:.3f} .. {hi:.3f}",
+                     dims if len(sz.pieces) == 1 else f"{dims} ({sz.fill_length * 1e3:.1f} total)", plates,
+                     f"{al.capacity:.2f}", ", ".join(al.paths[:1]) + (" ..." if len(al.paths) > 1 else "")])
+    out.append("MASS PER SLOT")
+    out.append(table(["slot", "material", "kg nominal", "kg band", "size mm", "pieces", "capacity kg", "part"], rows,
+                     "llrrllrl"))
+    removed = [p for al in result.allocations for p in al.candidate.replace]
+    if removed:
+        out.append(f"  replaced: {', '.join(removed)} "
+                   f"({sum(result.model.component(p).props.mass for p in removed):.3f} kg taken out)")
+    nom, lo, hi = result.ballast_mass
+    out.append(f"  ballast added {nom:.3f} kg nominal ({lo:.3f} .. {hi:.3f} kg over the density bands)")
+    for al in result.allocations:
+        if al.sizing is not None and len(al.sizing.pieces) > 1:
+            segs = ", ".join(f"{m:.3f}" for m in al.sizing.segment_masses())
+            out.append(f"  {al.candidate.name}: plates at the high end of the band {segs} kg")
+    out.append("")
+    b0, b1 = result.balance_before, result.balance_after
+    mp0, mp1 = result.props_before, result.props_after
+    out.append("MASS PROPERTIES (model frame)")
+    rows = [["mass kg", f"{mp0.mass:.3f}", f"{mp1.mass:.3f}"],
+            ["CG mm", _v(mp0.center), _v(mp1.center)]]
+    if b0 is not None and b1 is not None:
+        rows += [["CG height above ground mm", f"{b0.cg_height * 1e3:.2f}", f"{b1.cg_height * 1e3:.2f}"],
+                 ["CG left of centre plane mm", f"{b0.cg_left_of_centre * 1e3:.2f}", f"{b1.cg_left_of_centre * 1e3:.2f}"],
+                 ["front fraction", f"{b0.front_fraction:.4f}", f"{b1.front_fraction:.4f}"],
+                 ["front axle kg", f"{b0.front:.2f}", f"{b1.front:.2f}"],
+                 ["rear axle kg", f"{b0.rear:.2f}", f"{b1.rear:.2f}"],
+                 ["corners FL / FR kg", f"{b0.corners[0]:.2f} / {b0.corners[1]:.2f}",
+                  f"{b1.corners[0]:.2f} / {b1.corners[1]:.2f}"],
+                 ["corners RL / RR kg", f"{b0.corners[2]:.2f} / {b0.corners[3]:.2f}",
+                  f"{b1.corners[2]:.2f} / {b1.corners[3]:.2f}"]]
+        up = result.model.vehicle.up
+        yaw0 = float(up @ mp0.inertia @ up)
+        yaw1 = float(up @ mp1.inertia @ up)
+        rows.append(["yaw inertia about CG kg*m^2", f"{yaw0:.3f}", f"{yaw1:.3f}"])
+    out.append(table(["", "before", "after"], rows, "lrr"))
+    out.append("")
+    out.append("RULES AND TARGETS (bound includes the plan's margins; worst = the worst mix of the density bands)")
+    out.append(table(["rule or target", "nominal", "worst", "bound", "margin", "unit", ""],
+                     [_req_row(a) for a in result.assessments], "lrrrrll"))
+    binding = [a.requirement.label for a in result.assessments if a.binding]
+    if binding:
+        out.append(f"  binding constraints: {'; '.join(binding)}")
+    failing = [r for r in result.rules if not r.passed]
+    out.append("  rule checks of the ballasted model: " + ("all rules pass" if not failing else
+               "FAIL: " + ", ".join(r.name for r in failing)))
+    out.extend(f"  note: {n}" for n in result.notes)
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+    return "\n".join(out)
+
+
+def seat_dict(study: Any) -> dict[str, Any]:
+    """A seat-ballast study as plain data."""
+    out: dict[str, Any] = {
+        "format": BALLAST_FORMAT, "conventions": CONVENTIONS, "rule": study.rule.name,
+        "groups": list(study.rule.groups), "group_mass_kg": study.group_mass,
+        "limit_kg": float(study.rule.limit or 0.0), "margin_kg": study.margin,
+        "need_at_low_density_kg": study.need, "seat_group": study.seat_group,
+        "material": study.material.key, "ballast_mass_kg": study.ballast_mass,
+        "station_m": study.station, "lateral_m": study.lateral,
+        "seat_range_above_ground_m": list(study.seat_range), "base_cg_height_m": study.base_cg_height,
+        "rows": [{"ballast_height_m": float(h), "cg_height_m": float(z), "front_fraction": float(f)}
+                 for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)],
+        "cg_rise_per_ballast_height": study.slope,
+        "cautions": cautions.for_report("ballast", "machining", "handling"),
+    }
+    if study.sizing is not None:
+        out["plate"] = sizing_dict(study.sizing)
+    return out
+
+
+def format_seat(study: Any) -> str:
+    """Readable text of a seat-ballast study."""
+    out = [f"SEAT BALLAST · rule '{study.rule.name}' ({' + '.join(study.rule.groups)})"]
+    limit = float(study.rule.limit or 0.0)
+    out.append(f"  group mass {study.group_mass:.3f} kg, limit {limit:.3f} kg, margin {study.margin:.3f} kg")
+    if study.need <= 0.0:
+        out.append(f"  no seat ballast needed: the group is {-study.need:.3f} kg above limit + margin")
+    else:
+        s = study.sizing
+        nom, lo, hi = s.masses()
+        g = s.pieces[0].geometry
+        out.append(f"  needed {study.need:.3f} kg at the LOW end of the density band of {study.material.key}")
+        out.append(f"  plate {' x '.join(f'{v * 1e3:.1f}' for v in g.size)} mm (forward x left x up), "
+                   f"{nom:.3f} kg nominal ({lo:.3f} .. {hi:.3f} kg), part of group {study.seat_group}")
+    out.append(f"  placed at {study.station * 1e3:.1f} mm forward, {study.lateral * 1e3:.1f} mm left (model frame); "
+               f"seat structure from {study.seat_range[0] * 1e3:.1f} to {study.seat_range[1] * 1e3:.1f} mm above "
+               "the ground")
+    out.append("")
+    rows = [[f"{h * 1e3:.1f}", f"{z * 1e3:.2f}", f"{(z - study.base_cg_height) * 1e3:+.2f}", f"{f:.4f}"]
+            for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)]
+    out.append(table(["ballast CG above ground mm", "car CG above ground mm", "car CG change mm", "front fraction"],
+                     rows, "rrrr"))
+    outside = [h for h in study.heights if not study.seat_range[0] <= h <= study.seat_range[1]]
+    if outside:
+        out.append(f"  NOTE: {', '.join(f'{h * 1e3:.1f}' for h in outside)} mm lie outside the seat structure "
+                   f"({study.seat_range[0] * 1e3:.1f} .. {study.seat_range[1] * 1e3:.1f} mm above the ground): the "
+                   "plate cannot be fixed there")
+    out.append(f"  without the seat ballast the car's CG is {study.base_cg_height * 1e3:.2f} mm above the ground; "
+               f"each 10 mm higher in the seat raises it {study.slope * 10:.3f} mm")
+    if study.cg_limit is not None:
+        worst = float(np.max(study.cg_heights))
+        out.append(f"  CG height limit {study.cg_limit * 1e3:.1f} mm: margin {(study.cg_limit - worst) * 1e3:+.1f} mm "
+                   "at the highest ballast position")
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+    return "\n".join(out)

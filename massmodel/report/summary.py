@@ -1,0 +1,387 @@
+"""The mass-properties report: a machine-readable dict (JSON) and readable terminal tables.
+
+The dict is SI with units in every key (``mass_kg``, ``cg_m``, ``inertia_cg_kg_m2``). The terminal text can show
+lengths in mm and inertia in kg·mm² (:class:`DisplayUnits`); conversion happens only here, at the edge.
+"""
+
+from __future__ import annotations
+
+import enum
+import json
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from massmodel.core import cautions
+from massmodel.core.atomic import write_text_atomic
+from massmodel.core.frames import is_orthogonal
+from massmodel.core.massprops import (
+    MassProperties,
+    combine_arrays,
+    inertia_about_point,
+    inertia_in_axes,
+    principal_axes,
+    radii_of_gyration,
+)
+from massmodel.core.model import Maturity, Model
+from massmodel.vehicle.balance import ASSUMPTIONS, Balance, RuleResult, check_rules, static_balance
+
+__all__ = [
+    "DisplayUnits",
+    "InertiaRequest",
+    "build_report",
+    "format_report",
+    "inertia_about_entry",
+    "json_text",
+    "write_json_atomic",
+    "CONVENTIONS",
+    "REPORT_FORMAT",
+]
+
+REPORT_FORMAT = "massmodel-report/1"
+CONVENTIONS = {
+    "units": "SI: kg, m, kg*m^2 (unit in every key)",
+    "frame": "model axes of the model file; cg_m is in model coordinates",
+    "inertia": "tensor about the CG with axes parallel to the model axes; off-diagonal I_xy = -integral(x*y dm) "
+    "(tensor / negative product convention)",
+    "principal_axes": "rows are unit vectors in model axes, in the order of principal_moments_kg_m2 (ascending), "
+    "right-handed",
+    "loads": "axle and corner loads as mass-equivalent kg (load / 9.80665 m/s^2)",
+    "vehicle": "cg_height_m above the ground plane along 'up'; cg_behind_front_axle_m along -'forward' from the front "
+    "axle line; cg_left_of_centre_m along 'left' from the centre plane (left . p = 0); inertia_vehicle_axes_kg_m2: "
+    "moments about axes through the CG along forward (roll), left (pitch) and up (yaw); vehicle_axes are unit "
+    "vectors in model axes",
+    "inertia_about_points": "tensor of the whole model about point_m (model coordinates), components in the axes "
+    "whose unit vectors (model axes) are the rows of 'axes'; tensor convention",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class InertiaRequest:
+    """A request for the model's inertia tensor about a point, optionally in other axes.
+
+    Parameters
+    ----------
+    point : (3,) float or None
+        m, model coordinates; None means the model's CG.
+    axes : (3, 3) float or None
+        Rows are the unit axes (model axes) to express the tensor in; None means the model axes.
+    label : str
+        How the user wrote it, for the report.
+    axes_label : str
+        How the user named the axes.
+    """
+
+    point: npt.NDArray[np.float64] | None
+    axes: npt.NDArray[np.float64] | None = None
+    label: str = ""
+    axes_label: str = "model"
+
+
+def inertia_about_entry(mp: MassProperties, request: InertiaRequest) -> dict[str, Any]:
+    """The tensor of ``mp`` about a point and in given axes, as report data.
+
+    Parallel-axis theorem to the point (``I_P = I_G + m(|d|² E − d dᵀ)``, d = G − P), then a passive change of
+    axes ``A I Aᵀ`` (rows of A = the new axes); Goldstein, Poole & Safko, *Classical Mechanics* (2002) §5.3.
+
+    Raises
+    ------
+    ValueError
+        When the axes are not orthonormal and right-handed.
+    """
+    point = mp.center if request.point is None else np.asarray(request.point, dtype=float).reshape(3)
+    tensor = inertia_about_point(mp, point)
+    axes = np.eye(3) if request.axes is None else np.asarray(request.axes, dtype=float)
+    if not is_orthogonal(axes) or np.linalg.det(axes) < 0.0:
+        raise ValueError(f"axes {request.axes_label!r} must be orthonormal and right-handed")
+    tensor = inertia_in_axes(tensor, axes)
+    return {
+        "label": request.label or ("cg" if request.point is None else ""),
+        "point_m": point.tolist(),
+        "axes_label": request.axes_label,
+        "axes": axes.tolist(),
+        "inertia_kg_m2": (0.5 * (tensor + tensor.T)).tolist(),
+    }
+
+
+class DisplayUnits(enum.Enum):
+    """Units of the terminal tables (the JSON is always SI)."""
+
+    SI = "si"  # m, kg*m^2
+    MM = "mm"  # mm, kg*mm^2
+
+    @property
+    def length(self) -> tuple[str, float]:
+        return ("m", 1.0) if self is DisplayUnits.SI else ("mm", 1e3)
+
+    @property
+    def inertia(self) -> tuple[str, float]:
+        return ("kg*m^2", 1.0) if self is DisplayUnits.SI else ("kg*mm^2", 1e6)
+
+
+def _props_dict(mp: MassProperties) -> dict[str, Any]:
+    return {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
+
+
+def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) -> dict[str, Any]:
+    """The full report of a model as plain data (JSON-ready, SI).
+
+    ``inertia_requests`` add the whole model's tensor about user points (key ``inertia_about_points``).
+    """
+    total = model.mass_properties()
+    out: dict[str, Any] = {
+        "format": REPORT_FORMAT,
+        "model": model.name,
+        "case": model.case,
+        "source": model.source,
+        "conventions": CONVENTIONS,
+        **_props_dict(total),
+    }
+    if total.mass > 0:
+        moments, axes = principal_axes(total.inertia)
+        out["principal_moments_kg_m2"] = moments.tolist()
+        out["principal_axes"] = axes.tolist()
+        out["radii_of_gyration_m"] = radii_of_gyration(total).tolist()
+    if model.vehicle is not None:
+        bal = static_balance(total, model.vehicle)
+        out.update(_balance_dict(bal))
+        out["vehicle_axes"] = {
+            "forward": model.vehicle.forward.tolist(),
+            "left": model.vehicle.left.tolist(),
+            "up": model.vehicle.up.tolist(),
+        }
+        out["inertia_vehicle_axes_kg_m2"] = {
+            "roll": float(model.vehicle.forward @ total.inertia @ model.vehicle.forward),
+            "pitch": float(model.vehicle.left @ total.inertia @ model.vehicle.left),
+            "yaw": float(model.vehicle.up @ total.inertia @ model.vehicle.up),
+        }
+    out["inertia_about_points"] = [inertia_about_entry(total, r) for r in inertia_requests]
+    out["rules"] = [_rule_dict(r) for r in check_rules(model)]
+    out["rules_passed"] = all(r["passed"] for r in out["rules"])
+    out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in _group_rollups(model)]
+    out["maturity_kg"] = {
+        m.value: float(sum(c.props.mass for c in model.components if c.maturity is m)) for m in Maturity
+    }
+    masses, centers, inertias = model._all_arrays()
+    # one conversion of the stacked arrays to lists instead of three small ones per component
+    rows = zip(masses.tolist(), centers.tolist(), inertias.tolist(), strict=True)
+    out["components"] = [
+        {
+            "path": c.path,
+            "mass_kg": mass,
+            "cg_m": cg,
+            "inertia_cg_kg_m2": tensor,
+            "volume_m3": c.volume if c.volume > 0 else None,
+            "mass_source": c.source.value,
+            "material": c.material,
+            "density_kg_m3": c.implied_density,
+            "inertia_source": c.inertia_source,
+            "maturity": c.maturity.value,
+            "slot": c.slot,
+            "colour": c.colour,
+        }
+        for c, (mass, cg, tensor) in zip(model.components, rows, strict=True)
+    ]
+    out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
+    out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
+    return out
+
+
+def _group_rollups(model: Model) -> list[tuple[str, int, MassProperties]]:
+    """(group path, number of parts, combined properties) of every group, sorted by path.
+
+    One pass over the paths builds each group's member list (a part lies in every proper prefix of its path), so
+    the cost grows with the number of parts times their depth, not with parts times groups.
+    """
+    members: dict[str, list[int]] = {}
+    for i, c in enumerate(model.components):
+        segs = c.path.split("/")
+        for k in range(1, len(segs)):
+            members.setdefault("/".join(segs[:k]), []).append(i)
+    if not members:
+        return []
+    masses, centers, inertias = model._all_arrays()
+    out = []
+    for g in sorted(members):
+        idx = np.array(members[g])
+        out.append((g, len(idx), MassProperties(*combine_arrays(masses[idx], centers[idx], inertias[idx]))))
+    return out
+
+
+def _balance_dict(bal: Balance) -> dict[str, Any]:
+    return {
+        "axle_loads_kg": {"front": bal.front, "rear": bal.rear},
+        "corner_loads_kg": {
+            "front_left": float(bal.corners[0]),
+            "front_right": float(bal.corners[1]),
+            "rear_left": float(bal.corners[2]),
+            "rear_right": float(bal.corners[3]),
+        },
+        "front_fraction": bal.front_fraction,
+        "left_fraction": bal.left_fraction,
+        "cross_fraction": bal.cross_fraction,
+        "cg_height_m": bal.cg_height,
+        "cg_behind_front_axle_m": bal.cg_behind_front_axle,
+        "cg_left_of_centre_m": bal.cg_left_of_centre,
+        "load_assumptions": ASSUMPTIONS,
+    }
+
+
+def _rule_dict(r: RuleResult) -> dict[str, Any]:
+    return {
+        "name": r.name,
+        "check": r.check,
+        "passed": r.passed,
+        "value": {"value": r.value, "unit": r.unit},
+        "limit": f"{r.limit} {r.unit}",
+        "margin": {"value": r.margin, "unit": r.unit},
+        "detail": r.detail,
+    }
+
+
+def json_text(data: Any) -> str:
+    """JSON text laid out for people and written fast.
+
+    The members of the top-level object and of the objects in it go one per line, a list of objects (components,
+    groups, rules) one element per line, and everything deeper is compact. Only the standard library's C encoder
+    is used (indented output would take the slow pure-Python one: seconds for a model of 10,000 components). NaN
+    and infinities are refused (ValueError).
+    """
+    return _layout(data, 0)
+
+
+def _layout(value: Any, depth: int) -> str:
+    pad, inner = "  " * depth, "  " * (depth + 1)
+    if isinstance(value, dict) and value and depth < 2:
+        members = (f"{inner}{json.dumps(str(k))}: {_layout(v, depth + 1)}" for k, v in value.items())
+        return "{\n" + ",\n".join(members) + "\n" + pad + "}"
+    if isinstance(value, list) and value and depth < 2 and all(isinstance(v, dict) for v in value):
+        return "[\n" + ",\n".join(inner + json.dumps(v, allow_nan=False) for v in value) + "\n" + pad + "]"
+    return json.dumps(value, allow_nan=False)
+
+
+def write_json_atomic(data: Any, path: str | Path) -> None:
+    """Write JSON (:func:`json_text`) to ``path`` through a temporary file and a rename (never half-written)."""
+    write_text_atomic(path, json_text(data) + "\n")
+
+
+# --- terminal text -------------------------------------------------------------------------------------------
+
+def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | None = None) -> str:
+    """A plain fixed-width table: header, a rule of '─', rows. ``align`` has one 'l' or 'r' per column."""
+    align = align or "l" + "r" * (len(headers) - 1)
+    widths = [max(len(str(h)), *(len(str(r[i])) for r in rows)) if rows else len(str(h)) for i, h in enumerate(headers)]
+
+    def line(cells: Sequence[str]) -> str:
+        return "  ".join(str(c).ljust(w) if a == "l" else str(c).rjust(w) for c, w, a in zip(cells, widths, align, strict=True)).rstrip()
+
+    return "\n".join([line(headers), "  ".join("─" * w for w in widths), *(line(r) for r in rows)])
+
+
+def _num(x: float, spec: str) -> str:
+    """``format(x, spec)``, except that a value that rounds to zero shows no minus sign ("0.0000", not "-0.0000")."""
+    text = format(x, spec)
+    if "-" in text and float(text) == 0.0:
+        text = format(0.0, spec)
+    return text
+
+
+def _vec(v: Sequence[float], scale: float, digits: int) -> str:
+    return "(" + ", ".join(_num(x * scale, f".{digits}f") for x in v) + ")"
+
+
+def _tensor_lines(tensor: Any, scale: float, digits: int) -> list[str]:
+    return ["    [" + "  ".join(_num(x, f">14.{digits}f") for x in row) + " ]" for row in np.asarray(tensor) * scale]
+
+
+def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI, components: bool = True) -> str:
+    """Readable text of a report built by :func:`build_report`."""
+    lu, ls = units.length
+    iu, isc = units.inertia
+    ld = 1 if units is DisplayUnits.MM else 4
+    idg = 0 if units is DisplayUnits.MM else 4
+    out: list[str] = []
+    case = f" · load case {report['case']}" if report.get("case", "base") != "base" else ""
+    out.append(f"massmodel report · {report['model']}{case}   ({report['source']})")
+    out.append(f"frame: model axes · inertia about the CG, tensor convention (I_xy = -∫xy dm) · lengths {lu}")
+    out.append("")
+    if components:
+        rows = [
+            [c["path"], _num(c["mass_kg"], ".3f"), c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
+            for c in report["components"]
+        ]
+        out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
+        out.append(table(["path", "mass kg", "source", "maturity", f"CG {lu}"], rows, "lrllr"))
+        out.append("")
+    top = [g for g in report["groups"] if "/" not in g["path"]]
+    rows = [[g["path"], str(g["parts"]), f"{g['mass_kg']:.3f}",
+             f"{100 * g['mass_kg'] / report['mass_kg']:.1f}" if report["mass_kg"] else "-",
+             _vec(g["cg_m"], ls, ld)] for g in top]
+    out.append("GROUPS (top level; all levels in the JSON)")
+    out.append(table(["group", "parts", "mass kg", "share %", f"CG {lu}"], rows))
+    out.append("")
+    mat = report["maturity_kg"]
+    out.append("MASS BY MATURITY  " + "   ".join(f"{k}: {v:.2f} kg" for k, v in mat.items()))
+    out.append("")
+    out.append("TOTAL")
+    out.append(f"  mass            {report['mass_kg']:.3f} kg")
+    out.append(f"  CG              {_vec(report['cg_m'], ls, ld)} {lu}")
+    if "inertia_cg_kg_m2" in report:
+        out.append(f"  inertia about CG ({iu}, model axes, tensor convention):")
+        out.extend(_tensor_lines(report["inertia_cg_kg_m2"], isc, idg))
+    if "principal_moments_kg_m2" in report:
+        out.append(f"  principal moments {_vec(report['principal_moments_kg_m2'], isc, idg)} {iu} (ascending)")
+        for i, ax in enumerate(report["principal_axes"]):
+            out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
+        out.append(f"  radii of gyration {_vec(report['radii_of_gyration_m'], ls, ld)} {lu} (about CG, model axes)")
+    for entry in report.get("inertia_about_points", []):
+        what = "the CG" if entry["label"] == "cg" else "point"
+        given = f", given as '{entry['label']}'" if entry["label"] not in ("", "cg") else ""
+        out.append(f"  inertia about {what} {_vec(entry['point_m'], ls, ld)} {lu} (model coordinates{given}), {iu}, "
+                   f"{entry['axes_label']} axes, tensor convention:")
+        if entry["axes_label"] != "model":
+            for i, ax in enumerate(entry["axes"]):
+                out.append(f"    axis {i + 1}  {_vec(ax, 1.0, 4)} (unit vector, model axes)")
+        out.extend(_tensor_lines(entry["inertia_kg_m2"], isc, idg))
+    if "axle_loads_kg" in report:
+        out.append("")
+        out.append("VEHICLE BALANCE (static)")
+        v = report["inertia_vehicle_axes_kg_m2"]
+        out.append(f"  CG height above ground     {_num(report['cg_height_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  CG behind front axle       {_num(report['cg_behind_front_axle_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  CG left of centre plane    {_num(report['cg_left_of_centre_m'] * ls, f'.{ld}f')} {lu}")
+        out.append(f"  front fraction {_num(report['front_fraction'], '.4f')}   left fraction "
+                   f"{_num(report['left_fraction'], '.4f')}   cross (FR+RL) {_num(report['cross_fraction'], '.4f')}")
+        out.append(f"  roll / pitch / yaw inertia about CG  {_num(v['roll'] * isc, f'.{idg}f')} / "
+                   f"{_num(v['pitch'] * isc, f'.{idg}f')} / {_num(v['yaw'] * isc, f'.{idg}f')} {iu}")
+        a = report["axle_loads_kg"]
+        c = report["corner_loads_kg"]
+        out.append(table(
+            ["kg", "left", "right", "axle"],
+            [["front", _num(c["front_left"], ".2f"), _num(c["front_right"], ".2f"), _num(a["front"], ".2f")],
+             ["rear", _num(c["rear_left"], ".2f"), _num(c["rear_right"], ".2f"), _num(a["rear"], ".2f")]],
+        ))
+        out.append(f"  assumptions: {report['load_assumptions']}")
+    if report["rules"]:
+        out.append("")
+        out.append("RULE CHECKS")
+        rows = []
+        for r in report["rules"]:
+            val = r["value"]["value"]
+            mar = r["margin"]["value"]
+            unit = r["value"]["unit"]
+            fmt = ".4f" if unit in ("fraction", "m") else ".2f"
+            # a failing rule keeps its minus sign even when the margin rounds to zero
+            margin = _num(mar, "+" + fmt) if r["passed"] else format(mar, "+" + fmt)
+            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{_num(val, fmt)} {unit}", r["limit"],
+                         f"{margin} {unit}"])
+        out.append(table(["", "rule", "value", "limit", "margin"], rows, "llrrr"))
+        out.append("  " + ("all rules pass" if report["rules_passed"] else "SOME RULES FAIL"))
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {line}" for line in report["cautions"])
+    return "\n".join(out)

@@ -1,0 +1,4 @@
+"""The vehicle: static balance (axle and corner loads, rule checks), steady-state load transfer, the seated driver.
+
+May import: :mod:`massmodel.core`.
+"""
