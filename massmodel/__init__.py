@@ -42,7 +42,16 @@ from massmodel.core.model import (
     Slot,
     Vehicle,
 )
-from massmodel.modelfile.loader import ModelFileError, load_case_models, load_model, loads_model
+from massmodel.modelfile.loader import (
+    ModelFileError,
+    ModelSource,
+    build_model,
+    load_case_models,
+    load_model,
+    loads_model,
+    read_source,
+    source_from_text,
+)
 from massmodel.report.summary import build_report, format_report
 from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
 from massmodel.vehicle.transfer import TransferredLoads, load_transfer
@@ -62,6 +71,7 @@ __all__ = [
     "Maturity",
     "Model",
     "ModelFileError",
+    "ModelSource",
     "Pose",
     "RotationKind",
     "Rule",
@@ -70,6 +80,7 @@ __all__ = [
     "Slot",
     "TransferredLoads",
     "Vehicle",
+    "build_model",
     "build_report",
     "builtin_materials",
     "check_rules",
@@ -85,8 +96,10 @@ __all__ = [
     "principal_axes",
     "products_positive",
     "radii_of_gyration",
+    "read_source",
     "reflection_across_plane",
     "rotation_from_sequence",
+    "source_from_text",
     "static_balance",
     "transform",
     "translate",

@@ -43,7 +43,8 @@ from . import cases as modelfile_cases
 from . import driver as modelfile_driver
 from .reader import SOURCE_KEY, ModelFileError, parse_toml, read_toml, resolve_extends
 
-__all__ = ["ModelFileError", "load_model", "loads_model", "load_case_models", "SHAPE_FILE_FIELDS", "PALETTE"]
+__all__ = ["ModelFileError", "ModelSource", "build_model", "load_model", "loads_model", "load_case_models", "read_source",
+           "source_from_text", "SHAPE_FILE_FIELDS", "PALETTE"]
 
 TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule", "case",
                   "driver", "allowed_contact"}
@@ -317,6 +318,72 @@ def _swap_side(path: str) -> str | None:
     return "/".join(swapped) if swapped != segs else None
 
 
+@dataclass(frozen=True)
+class ModelSource:
+    """A model file read once: its TOML tables with every ``extends`` merged, ready to be evaluated many times.
+
+    Build models from it with :func:`build_model` (any parameter overrides, any load case) without reading or
+    parsing the file again — what-if studies and sweeps re-evaluate the same source.
+
+    Attributes
+    ----------
+    data : dict
+        The merged tables (treat as read-only; :func:`build_model` works on a copy).
+    label : str
+        The file name used in messages.
+    base_dir : Path
+        Folder that relative file references (STEP and mesh shapes, rulebooks) resolve against.
+    """
+
+    data: dict[str, Any]
+    label: str
+    base_dir: Path
+
+
+def read_source(path: str | Path) -> ModelSource:
+    """Read and parse a model file once (``extends`` merged); see :class:`ModelSource`.
+
+    Raises
+    ------
+    ModelFileError
+        Naming the file, the item and the field.
+    """
+    p = Path(path)
+    data = resolve_extends(read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
+    return ModelSource(data, str(path), p.parent)
+
+
+def source_from_text(text: str, *, label: str = "<text>", base_dir: str | Path = ".") -> ModelSource:
+    """Like :func:`read_source`, from a string (for tests and tools)."""
+    data = resolve_extends(parse_toml(text, label), label, Path(base_dir), chain=())
+    return ModelSource(data, label, Path(base_dir))
+
+
+def build_model(
+    source: ModelSource, overrides: Mapping[str, str] | None = None, case: str | None = None
+) -> Model:
+    """Evaluate a read model file with parameter overrides in one load case (None or ``"base"``: the base model).
+
+    Parameters
+    ----------
+    source : ModelSource
+        From :func:`read_source` or :func:`source_from_text`.
+    overrides : mapping, optional
+        Parameter name → expression text, replacing the file's definitions (``--set name=value``); applied after
+        the load case's own overrides.
+    case : str, optional
+        A load case of the file (``[[case]]``).
+
+    Raises
+    ------
+    ModelFileError
+        Naming the file, the item and the field.
+    """
+    with _collector_paused():
+        return _build_case(copy.deepcopy(source.data), label=source.label, base_dir=source.base_dir,
+                           overrides=overrides, case=case)
+
+
 def load_model(path: str | Path, overrides: Mapping[str, str] | None = None, case: str | None = None) -> Model:
     """Read a model file.
 
@@ -383,13 +450,11 @@ def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = Non
     dict of str to Model
         ``"base"`` first, then the cases in file order.
     """
-    p = Path(path)
-    data = resolve_extends(read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
-    base = _build_case(copy.deepcopy(data), label=str(path), base_dir=p.parent, overrides=overrides, case=None)
+    source = read_source(path)
+    base = build_model(source, overrides, None)
     out = {BASE_CASE: base}
     for c in base.load_cases:
-        out[c.name] = _build_case(copy.deepcopy(data), label=str(path), base_dir=p.parent, overrides=overrides,
-                                  case=c.name)
+        out[c.name] = build_model(source, overrides, c.name)
     return out
 
 
