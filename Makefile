@@ -8,7 +8,10 @@ STAMP := $(VENV)/.massmodel-installed
 export VTK_DEFAULT_OPENGL_WINDOW ?= vtkEGLRenderWindow
 export PIP_DISABLE_PIP_VERSION_CHECK := 1
 
-.PHONY: venv test demo bench lint clean
+VIEWER := massmodel/page/static/viewer.js
+VIEWER_SRC := massmodel/page/js
+
+.PHONY: venv viewer test demo bench lint clean
 
 $(STAMP): pyproject.toml
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
@@ -16,7 +19,16 @@ $(STAMP): pyproject.toml
 	$(PY) -c "import massmodel, numpy, cadquery, trimesh, pyvista, pytest"
 	touch $(STAMP)
 
-venv: $(STAMP)
+# The 3-D viewer of the HTML page, bundled from the pinned npm packages of massmodel/page/js (needs node and npm;
+# without them the page says it has no 3-D view).
+$(VIEWER): $(VIEWER_SRC)/viewer.js $(VIEWER_SRC)/package.json $(VIEWER_SRC)/package-lock.json
+	@if command -v npm >/dev/null 2>&1; then \
+	  cd $(VIEWER_SRC) && npm ci --no-audit --no-fund --ignore-scripts --loglevel=error && npm run --silent build; \
+	else echo "npm not found: the HTML page will have no 3-D view (install node and npm, then run make viewer)"; fi
+
+viewer: $(VIEWER)
+
+venv: $(STAMP) $(VIEWER)
 
 test: venv
 	$(PY) -m pytest -q -p no:cacheprovider
@@ -31,4 +43,4 @@ lint: venv
 	$(VENV)/bin/ruff check massmodel tests benchmarks
 
 clean:
-	rm -rf exports/demo
+	rm -rf exports/demo $(VIEWER_SRC)/node_modules $(VIEWER)

@@ -84,3 +84,19 @@ def test_chart_png_and_command(car, tmp_path, capsys):
     need = (share.low - chart.station) * 1e3
     assert f"CG outside: move the CG {need:.1f} mm forward" in text
     assert sorted(p.name for p in tmp_path.iterdir()) == ["c2.png", "cg.png"]
+
+
+def test_chart_labels_never_overlap_stay_inside_and_skip_groups_spread_around_the_car(car, tmp_path):
+    # Drawn text boxes as matplotlib measured them after layout, at two sizes.
+    for size in ((1800, 1200), (900, 600)):
+        chart = render_cg_chart(car, tmp_path / f"c{size[0]}.png", size=size)
+        boxes = [b for _, b in chart.labels]
+        assert chart.labels[0][0].startswith("CG  station")
+        for i, a in enumerate(boxes):
+            assert 0 <= a[0] and 0 <= a[1] and a[2] <= size[0] and a[3] <= size[1]
+            for b in boxes[i + 1:]:
+                assert a[2] <= b[0] or b[2] <= a[0] or a[3] <= b[1] or b[3] <= a[1], (a, b)
+    texts = [t for t, _ in render_cg_chart(car, tmp_path / "c.png").labels]
+    # four wheels: their common CG lies between the axles where no wheel is, so it gets no label
+    assert not any(t.startswith("wheels ") for t in texts)
+    assert any(t.startswith("driver ") for t in texts)

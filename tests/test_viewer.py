@@ -365,3 +365,48 @@ def test_render_refuses_bad_options(tmp_path, capsys, argv, message):
 def test_render_refuses_a_non_png_name(tmp_path, capsys):
     assert main(["render", str(CAR), "-o", str(tmp_path / "x.jpg")]) == 2
     assert "the file name must end in .png" in capsys.readouterr().err
+
+
+def _overlapping(boxes):
+    """Pairs of (text, rect) whose rectangles (x, y, w, h) overlap."""
+    out = []
+    for i, (a, ra) in enumerate(boxes):
+        for b, rb in boxes[i + 1:]:
+            if ra[0] < rb[0] + rb[2] and rb[0] < ra[0] + ra[2] and ra[1] < rb[1] + rb[3] and rb[1] < ra[1] + ra[3]:
+                out.append((a, b))
+    return out
+
+
+def test_sheet_labels_never_overlap_and_stay_on_the_sheet(renderer, car, tmp_path):
+    # The drawn text boxes as the renderer measured them (not the placer's estimates), at two sheet sizes.
+    from massmodel.pictures.sheet import render_sheet
+
+    scene = build_scene(car)
+    for size in ((2000, 1400), (1100, 770)):
+        result = render_sheet(scene, tmp_path / f"s{size[0]}.png", size=size)
+        assert len(result.labels) > 10
+        assert _overlapping(result.labels) == []
+        w, h = size
+        assert [t for t, (x, y, bw, bh) in result.labels if x < 0 or y < 0 or x + bw > w or y + bh > h] == []
+
+
+def test_group_cg_in_empty_space_is_not_labelled_and_ballast_is_labelled_once_per_slot(renderer, car, tmp_path):
+    from massmodel.pictures.scene import cg_in_material
+    from massmodel.pictures.sheet import render_sheet
+
+    scene = build_scene(car)
+    marks = {g.name: g for g in scene.group_markers}
+    # Four wheels: their common CG lies on the centre line between the axles, where no wheel is.
+    assert not marks["wheels"].in_material and marks["driver"].in_material
+    # a closed form: a point between two unit boxes 3 m apart is not in material; a point in one is
+    boxes = np.array([[[0, 0, 0], [1, 1, 1]], [[3, 0, 0], [4, 1, 1]]], float)
+    assert not cg_in_material(np.array([2.0, 0.5, 0.5]), boxes)
+    assert cg_in_material(np.array([0.5, 0.5, 0.5]), boxes)
+    texts = [t for t, _ in render_sheet(scene, tmp_path / "s.png", size=(2000, 1400)).labels]
+    assert "wheels" not in texts and "driver" in texts
+    slots = {c.slot for c in car.components if c.slot}
+    for slot in slots:
+        mass = sum(c.props.mass for c in car.components if c.slot == slot)
+        mine = [t for t in texts if t.startswith(f"{slot}: ")]
+        assert mine and all(t.endswith(f" {mass:.2f} kg") for t in mine)
+    assert not any(t.startswith("ballast ") for t in texts)

@@ -27,6 +27,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "massmodel.cli.cad",
     "massmodel.cli.compare",
     "massmodel.cli.measure",
+    "massmodel.cli.page",
     "massmodel.cli.transfer",
     "massmodel.cli.view",
 )

@@ -98,6 +98,8 @@ class CgChart:
     bands: list[StationBand]
     height_limit: float | None
     notes: list[str] = field(default_factory=list)
+    labels: list[tuple[str, tuple[float, float, float, float]]] = field(default_factory=list)
+    """Every label's text and drawn box (x0, y0, x1, y1; figure px, y up), measured after drawing."""
 
 
 def _hull(points: FloatArray) -> FloatArray:
@@ -199,6 +201,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
         gm = float(sum(c.props.mass for c in members))
         gc = sum(c.props.mass * c.props.center for c in members) / gm
         group_cgs.append((g, gm, float(v.forward @ gc), float(v.up @ gc) - v.ground_level))
+    in_material = _groups_in_material(outlines, group_cgs)
     for target, is_zoom in ((ax, False), (zoom, True)):
         target.set_facecolor("#fbf9f4")
         if not is_zoom:
@@ -210,8 +213,10 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
         for st, name in ((front, "front axle"), (rear, "rear axle")):
             target.axvline(st, color=INK, lw=1.0, ls=(0, (8, 3, 2, 3)))
             target.plot([st], [0.0], marker="^", ms=12 * u, color=INK, clip_on=False)
-            if not is_zoom:
-                target.text(st, 1.01, f"{name} {st:+.3f} m", ha="center", va="bottom", fontsize=10.5 * u, color=INK,
+            if not is_zoom:  # kept inside the axes' width so that it is never cut at the figure's edge
+                frac = (st - x_lo) / (x_hi - x_lo)
+                ha = "left" if frac < 0.08 else ("right" if frac > 0.92 else "center")
+                target.text(st, 1.01, f"{name} {st:+.3f} m", ha=ha, va="bottom", fontsize=10.5 * u, color=INK,
                             transform=target.get_xaxis_transform())
         for k, b in enumerate(bands):
             lo = b.low if b.low is not None else x_lo - 10
@@ -234,25 +239,29 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
             target.axhline(hmax, color="#b3261e", lw=1.5, ls="--")
             target.text(0.995, hmax, f"max CG height {hmax:.3f} m ", ha="right", va="bottom", fontsize=10 * u,
                         color="#b3261e", transform=target.get_yaxis_transform())
-        for n, (g, gm, gx, gy) in enumerate(sorted(group_cgs, key=lambda t: t[2])):
-            size_pt = (6 + 14 * np.sqrt(gm / total.mass)) * u
+        for g, gm, gx, gy in group_cgs:
+            size_pt = (6 + 14 * np.sqrt(gm / total.mass)) * u * (1.0 if g in in_material else 0.5)
             target.plot([gx], [gy], marker="D", ms=size_pt, mfc=colour[g], mec=INK, mew=0.8, zorder=4)
-            if not is_zoom:
-                dy = 9 if n % 2 == 0 else -16
-                target.annotate(f"{g or '(top level)'} {gm:.1f} kg", (gx, gy), xytext=(7, dy),
-                                textcoords="offset points", fontsize=9.5 * u, color=INK, zorder=5,
-                                bbox={"fc": "#fbf9f4", "ec": "none", "alpha": 0.7, "pad": 1})
         target.plot([station], [height], marker="o", ms=16 * u, mfc=CG_COLOUR, mec=INK, mew=1.6, zorder=6)
         target.plot([station], [height], marker="+", ms=30 * u, color=INK, mew=1.4, zorder=6)
         target.grid(True, color="#d8d0bd", lw=0.6)
         target.tick_params(labelsize=10 * u, colors=INK)
-    ax.annotate(f"CG  station {station:+.4f} m, {height:.4f} m above ground", (station, height), xytext=(18, 40),
-                textcoords="offset points", fontsize=12 * u, weight="bold", color=INK, zorder=7,
-                bbox={"fc": "#fffdf8", "ec": CG_COLOUR, "lw": 1.3},
-                arrowprops={"arrowstyle": "-", "color": CG_COLOUR, "lw": 1.2})
     ax.set_xlim(x_lo, x_hi)
     ax.set_ylim(-0.1 - 0.042 * max(len(bands), 1), y_hi)
     ax.set_aspect("equal", adjustable="box")
+    ax.apply_aspect()  # the axes' final place, so that labels can be measured where they will be drawn
+    renderer = fig.canvas.get_renderer()
+    placer = _LabelPlacer(ax, renderer)
+    placer.reserve_point(station, height, 14 * u)
+    for _, _, gx, gy in group_cgs:
+        placer.reserve_point(gx, gy, 6 * u)
+    placer.place(f"CG  station {station:+.4f} m, {height:.4f} m above ground", (station, height),
+                 [(18, 40), (18, -50), (-18, 40), (-18, -50), (40, 70)], fontsize=12 * u, weight="bold", zorder=7,
+                 bbox={"fc": "#fffdf8", "ec": CG_COLOUR, "lw": 1.3}, leader=CG_COLOUR)
+    for g, gm, gx, gy in sorted(group_cgs, key=lambda t: -t[1]):
+        if g in in_material:
+            placer.place(f"{g or '(top level)'} {gm:.1f} kg", (gx, gy), _NEAR, fontsize=9.5 * u, zorder=5,
+                         bbox={"fc": "#fbf9f4", "ec": "none", "alpha": 0.8, "pad": 1}, leader="#6d7378")
     ax.set_xlabel("station along forward, m (model frame)", fontsize=10.5 * u, color=INK)
     ax.set_ylabel("height above ground, m", fontsize=10.5 * u, color=INK)
     for b in bands:
@@ -274,7 +283,72 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
     notes_ax.text(0.0, 1.0, "\n".join(notes), va="top", ha="left", fontsize=10.5 * u, color=INK, wrap=True,
                   family="DejaVu Sans", linespacing=1.45, transform=notes_ax.transAxes)
     write_png_atomic(fig, out, "massmodel cg-chart")
-    return CgChart(out, (w, h), station, height, bands, hmax, notes)
+    drawn = [(text, tuple(float(x) for x in _text_box(a, renderer).extents)) for text, a in placer.placed]
+    return CgChart(out, (w, h), station, height, bands, hmax, notes, drawn)  # type: ignore[arg-type]
+
+
+# Label offsets (points) around a marker, nearest first.
+_NEAR = [(7, 7), (7, -16), (-7, 7), (-7, -16), (12, 22), (12, -30), (-12, 22), (-12, -30), (24, 0), (-24, 0),
+         (20, 40), (20, -48), (-20, 40), (-20, -48), (40, 60), (40, -70), (-40, 60), (-40, -70)]
+
+
+def _groups_in_material(outlines: list[tuple[str, FloatArray]], group_cgs: list[tuple[str, float, float, float]],
+                        grow: float = 0.1) -> set[str]:
+    """Groups whose side-view CG lies on one of their parts' side outlines' boxes (grown by ``grow`` times the
+    group's side-view size): a group spread around the car (wheels, suspension) has its CG in empty space."""
+    out = set()
+    for g, _, gx, gy in group_cgs:
+        hulls = [h for name, h in outlines if name == g and len(h)]
+        if not hulls:
+            continue
+        lows = np.array([h.min(axis=0) for h in hulls])
+        highs = np.array([h.max(axis=0) for h in hulls])
+        pad = grow * float(np.linalg.norm(highs.max(axis=0) - lows.min(axis=0)))
+        p = np.array([gx, gy])
+        if np.any(np.all((lows - pad <= p) & (p <= highs + pad), axis=1)):
+            out.add(g)
+    return out
+
+
+def _text_box(annotation: Any, renderer: Any, pad_px: float = 3.0) -> Any:
+    """The box of an annotation's text alone (its leader line left out), grown by ``pad_px`` for its backing."""
+    from matplotlib.text import Text
+
+    annotation.update_positions(renderer)  # place the text at its offset from the annotated point
+    return Text.get_window_extent(annotation, renderer).expanded(1.0, 1.0).padded(pad_px)
+
+
+class _LabelPlacer:
+    """Put each label at the first offset where its drawn box overlaps no label or reserved marker and stays in
+    the axes; a label with no free place is left out (its marker stays)."""
+
+    def __init__(self, ax: Any, renderer: Any) -> None:
+        self.ax, self.renderer = ax, renderer
+        self.taken: list[Any] = []
+        self.placed: list[tuple[str, Any]] = []
+
+    def reserve_point(self, x: float, y: float, radius_px: float) -> None:
+        from matplotlib.transforms import Bbox
+
+        cx, cy = self.ax.transData.transform((x, y))
+        self.taken.append(Bbox.from_extents(cx - radius_px, cy - radius_px, cx + radius_px, cy + radius_px))
+
+    def place(self, text: str, xy: tuple[float, float], offsets: list[tuple[float, float]], leader: str,
+              **kw: Any) -> bool:
+        frame = self.ax.get_window_extent(self.renderer)
+        for dx, dy in offsets:
+            a = self.ax.annotate(text, xy, xytext=(dx, dy), textcoords="offset points", color=INK,
+                                 ha="left" if dx >= 0 else "right", va="bottom" if dy >= 0 else "top",
+                                 arrowprops={"arrowstyle": "-", "color": leader, "lw": 0.9,
+                                             "shrinkA": 0, "shrinkB": 3}, **kw)
+            box = _text_box(a, self.renderer)
+            inside = (frame.x0 <= box.x0 and box.x1 <= frame.x1 and frame.y0 <= box.y0 and box.y1 <= frame.y1)
+            if inside and not any(box.overlaps(t) for t in self.taken):
+                self.taken.append(box)
+                self.placed.append((text, a))
+                return True
+            a.remove()
+        return False
 
 
 def _notes(model: Model, station: float, height: float, bands: list[StationBand], hmax: float | None) -> list[str]:
@@ -284,11 +358,17 @@ def _notes(model: Model, station: float, height: float, bands: list[StationBand]
 
     lines = ["RULE LIMITS AT THE CURRENT MASS"]
     for b in bands:
-        lo = f"{b.low:+.4f}" if b.low is not None else "open"
-        hi = f"{b.high:+.4f}" if b.high is not None else "open"
+        if b.low is not None and b.high is not None:
+            where = f"station {b.low:+.4f} .. {b.high:+.4f} m"
+        elif b.low is not None:
+            where = f"station at least {b.low:+.4f} m"
+        elif b.high is not None:
+            where = f"station at most {b.high:+.4f} m"
+        else:
+            where = "any station"
         move = b.shift_needed(station)
         state = "CG inside" if move == 0.0 else f"move CG {abs(move) * 1e3:.1f} mm {'forward' if move > 0 else 'rearward'}"
-        lines.append(f"• {b.name}: station {lo} .. {hi} m · {state}")
+        lines.append(f"• {b.name}: {where} · {state}")
     if hmax is not None:
         lines.append(f"• max CG height {hmax:.4f} m · margin {(hmax - height) * 1e3:+.1f} mm")
     for r in check_rules(model):

@@ -39,6 +39,7 @@ __all__ = [
     "part_mesh",
     "sharp_edges",
     "hidden_by",
+    "cg_in_material",
     "axis_name",
     "hex_to_rgb",
     "PALETTE",
@@ -126,12 +127,18 @@ class LegendEntry:
 
 @dataclass(frozen=True, slots=True)
 class GroupMarker:
-    """CG of one group: name, colour, centre (3,) m model frame, mass kg."""
+    """CG of one group: name, colour, centre (3,) m model frame, mass kg.
+
+    ``in_material`` says whether the CG lies where the group has material: inside the bounding box of one of its
+    parts (grown by 10 % of the group's size). A group spread around the car (four wheels, the suspension) has its
+    CG in empty space; pictures draw such a marker small and unlabelled, so that it is not read as a place.
+    """
 
     name: str
     colour: str
     center: FloatArray
     mass: float
+    in_material: bool = True
 
 
 @dataclass(eq=False)
@@ -418,6 +425,16 @@ def _place(vertices: FloatArray, faces: IntArray, component: Component) -> tuple
     return v, f
 
 
+def cg_in_material(center: FloatArray, boxes: FloatArray, grow: float = 0.1) -> bool:
+    """Whether ``center`` lies inside one of the boxes ((N, 2, 3) low/high corners, m), each grown by ``grow``
+    times the diagonal of all of them together (see :class:`GroupMarker`)."""
+    if len(boxes) == 0:
+        return False
+    pad = grow * float(np.linalg.norm(boxes[:, 1].max(axis=0) - boxes[:, 0].min(axis=0)))
+    inside = np.all((boxes[:, 0] - pad <= center) & (center <= boxes[:, 1] + pad), axis=1)
+    return bool(inside.any())
+
+
 def axis_name(vector: FloatArray) -> str:
     """'+x', '−z', ... for a model-axis direction; the rounded vector otherwise."""
     v = np.asarray(vector, float)
@@ -463,6 +480,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     fallback: list[str] = []
     points: list[int] = []
     offset = 0
+    part_boxes = np.zeros((len(model.components), 2, 3))
     from massmodel.core.shapes import Sphere
 
     marker = Sphere(opts.point_radius)
@@ -486,6 +504,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
             v, f = lv + comp.props.center, lf
         else:
             v, f = _place(lv, lf, comp)
+        part_boxes[i] = v.min(axis=0), v.max(axis=0)
         verts.append(v)
         faces.append(f + offset)
         owner.append(np.full(len(f), i, np.int64))
@@ -528,10 +547,12 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     if opts.group_cgs:
         names = sorted({group_key(c.path, opts.group_depth) for c in model.components})
         for g in names:
-            members = [c for c in model.components if group_key(c.path, opts.group_depth) == g]
+            index = [i for i, c in enumerate(model.components) if group_key(c.path, opts.group_depth) == g]
+            members = [model.components[i] for i in index]
             mp = MassProperties(*combine_arrays(*model.arrays(members)))
             colour = group_colour[g] if opts.colour_by is ColourBy.GROUP else "#6d7378"
-            markers.append(GroupMarker(g or "(top level)", colour, np.array(mp.center), mp.mass))
+            markers.append(GroupMarker(g or "(top level)", colour, np.array(mp.center), mp.mass,
+                                       cg_in_material(np.array(mp.center), part_boxes[index])))
 
     scene = Scene(
         model=model,

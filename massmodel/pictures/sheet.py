@@ -69,6 +69,9 @@ class SheetResult:
     legend_rects: list[tuple[str, str, Rect]]
     title_rows: list[tuple[str, str]]
     seconds: dict[str, float] = field(default_factory=dict)
+    labels: list[tuple[str, Rect]] = field(default_factory=list)
+    """Every placed label's text and its drawn box (x, y, width, height; sheet px, y down), measured by the
+    renderer after drawing (text and its padding)."""
 
 
 # --- numbers for the title block ------------------------------------------------------------------------------
@@ -169,6 +172,7 @@ class _Placer:
     def __init__(self, fig: Any, ax: Any, renderer: Any) -> None:
         self.fig, self.ax, self.renderer = fig, ax, renderer
         self.taken: list[Rect] = []
+        self.placed: list[tuple[str, Any]] = []  # (text, its text artist)
 
     def reserve(self, rect: Rect) -> None:
         self.taken.append(rect)
@@ -209,12 +213,14 @@ class _Placer:
                 rect = (x, y, tw, th)
                 if self._free(rect, bounds):
                     self.taken.append(rect)
-                    self.ax.text(x + pad, y + pad, text, va="top", ha="left", zorder=6, **kw)
+                    artist = self.ax.text(x + pad, y + pad, text, va="top", ha="left", zorder=6, **kw)
                     style = box or {"fc": PANEL_BG, "ec": "none", "alpha": 0.86}
                     from matplotlib.patches import Rectangle
 
-                    self.ax.add_artist(Rectangle((x, y), tw, th, zorder=5, lw=style.get("lw", 0.8),
-                                                fc=style["fc"], ec=style["ec"], alpha=style.get("alpha", 1.0)))
+                    patch = Rectangle((x, y), tw, th, zorder=5, lw=style.get("lw", 0.8),
+                                      fc=style["fc"], ec=style["ec"], alpha=style.get("alpha", 1.0))
+                    self.ax.add_artist(patch)
+                    self.placed.append((text, artist))
                     if leader:
                         px = min(max(ax_, x), x + tw)
                         py = min(max(ay, y), y + th)
@@ -338,7 +344,14 @@ def _compose(scene: Scene, panels: list[Panel], rendered: list[RenderedView], si
     return SheetResult(
         path=out, size=size, panels=panels, views=rendered,
         legend=[(e.label, e.colour) for e in scene.legend], legend_rects=legend_rects, title_rows=rows,
+        labels=[(text, _drawn_box(artist, renderer, h)) for text, artist in placer.placed],
     )
+
+
+def _drawn_box(artist: Any, renderer: Any, height: float) -> Rect:
+    """The drawn extent of a text artist (after the figure was drawn), sheet px with y down."""
+    bb = artist.get_window_extent(renderer)
+    return (float(bb.x0), float(height - bb.y1), float(bb.width), float(bb.height))
 
 
 def _to_sheet(panel: Panel, pts: npt.ArrayLike) -> npt.NDArray[np.float64]:
@@ -426,12 +439,14 @@ def _annotate_panel(
                      fontsize=_pt(11.5 * u), **{**font, "color": colour})
     if not labels:
         return
-    # ballast
+    # ballast: one label a slot (slot, part or number of pieces, total mass), so stacked plates read once
+    by_slot: dict[str, list[int]] = {}
     for i in scene.ballast:
-        comp = scene.model.components[i]
-        v = scene.vertices[np.unique(scene.faces[scene.owner == i])]
+        by_slot.setdefault(scene.model.components[i].slot or "", []).append(i)
+    for slot, members in by_slot.items():
+        v = scene.vertices[np.unique(scene.faces[np.isin(scene.owner, members)])]
         c = _to_sheet(panel, 0.5 * (v.min(axis=0) + v.max(axis=0)))[0]
-        placer.place(c, f"ballast {comp.path.split('/')[-1]} {comp.props.mass:.2f} kg", bounds, leader=BALLAST_COLOUR,
+        placer.place(c, ballast_label(scene.model, slot, members), bounds, leader=BALLAST_COLOUR,
                      prefer="se", distances=(22.0, 44.0, 80.0, 130.0), fontsize=_pt(11.5 * u),
                      **{**font, "color": BALLAST_COLOUR})
     # axles
@@ -445,12 +460,14 @@ def _annotate_panel(
     # group CG and slot names where the view is not crowded (side and top views, or a single view)
     if panel.name not in ("side", "top") and not single:
         return
-    for g in scene.group_markers:
+    for g in (g for g in scene.group_markers if g.in_material):
         p = _to_sheet(panel, g.center)[0]
         placer.place(p, g.name, bounds, leader="#6d7378", prefer="nw", distances=(10.0, 24.0, 42.0, 64.0),
                      fontsize=_pt(11 * u), **{**font, "color": INK})
     # slots
     for name, edges in scene.slot_edges:
+        if name in by_slot:  # the ballast label names its slot
+            continue
         pts = edges.reshape(-1, 3)
         p = _to_sheet(panel, pts)
         corner = (p[:, 0].max(), p[:, 1].min())
@@ -464,6 +481,13 @@ def _annotate_panel(
             if np.linalg.norm(p - cg_px) > 24:
                 placer.place(p, f"{k}", bounds, distances=(6.0, 14.0), prefer="ne", fontsize=_pt(11 * u),
                              weight="bold", **font)
+
+
+def ballast_label(model: Any, slot: str, members: list[int]) -> str:
+    """The label of the ballast in one slot: ``"slot: part 7.66 kg"`` or ``"slot: 3 pieces 7.66 kg"``."""
+    mass = sum(model.components[i].props.mass for i in members)
+    what = model.components[members[0]].path.split("/")[-1] if len(members) == 1 else f"{len(members)} pieces"
+    return f"{slot or 'no slot'}: {what} {mass:.2f} kg"
 
 
 def _header(ax: Any, x: float, y: float, width: float, text: str, u: float, font: dict[str, Any]) -> float:
@@ -512,7 +536,7 @@ def _info_strip(scene: Scene, ax: Any, size: tuple[int, int], u: float, font: di
     k = scene.radii
     keys: list[tuple[str, str]] = [
         ("total CG, drawn over the parts", "cg"),
-        ("group CG", "group"),
+        ("group CG (small, unlabelled: between its parts)", "group"),
         ("ballast: a part placed in a slot", "ballast"),
         ("slot envelope (wire)", "slot"),
         (f"principal axes 1-2-3 at the CG, half-length {half:g} k;\n"

@@ -294,8 +294,8 @@ def _view_props(scene: Scene, cam: ViewCamera | None) -> list[Prop]:
             for sign in (-1.0, 1.0):
                 tick = vb.sphere(scene.cg + sign * f * r * a, 2.5 * px, resolution=10)
                 out.append((1, vb.actor(tick, INK, lighting=False)))
-    for g in scene.group_markers:
-        octa = vb.octahedron(g.center, GROUP_MARKER_PX * px)
+    for g in scene.group_markers:  # a CG in empty space (wheels, suspension) small, so it is not read as a place
+        octa = vb.octahedron(g.center, GROUP_MARKER_PX * px * (1.0 if g.in_material else 0.55))
         out.append((1, vb.actor(octa, g.colour, edges=INK, line_width=1.2, ambient=0.5, diffuse=0.6)))
     r = CG_MARKER_PX * px if cam is not None else 0.02
     out.append((2, vb.actor(vb.sphere(scene.cg, r, resolution=28), CG_COLOUR, lighting=False)))
@@ -456,9 +456,10 @@ def show_interactive(
         np.array([scene.cg]), [f"CG ({cg[0]:.3f}, {cg[1]:.3f}, {cg[2]:.3f}) m"], font_size=14,
         text_color=CG_COLOUR, point_color=CG_COLOUR, point_size=1, shape_color="#fbf9f4", always_visible=True,
     )
-    if scene.group_markers:
+    named = [g for g in scene.group_markers if g.in_material]
+    if named:
         pl.add_point_labels(
-            np.array([g.center for g in scene.group_markers]), [g.name for g in scene.group_markers],
+            np.array([g.center for g in named]), [g.name for g in named],
             font_size=10, text_color=INK, point_size=1, shape_opacity=0.6, shape_color="#fbf9f4",
             always_visible=True,
         )
