@@ -419,7 +419,7 @@ def _write_step(model: Model, parts: Sequence[_Part], path: Path, file_name: str
     from OCP.TCollection import TCollection_HAsciiString
     from OCP.XSControl import XSControl_WorkSession
 
-    from .imported import _native_output
+    from .fileshape import _native_output
     from .solids import pose_trsf
 
     groups, members = _tree([p.component.path for p in parts])

@@ -124,8 +124,6 @@ def _hull(points: FloatArray) -> FloatArray:
 
 def _side_outlines(model: Model, chord: float = 0.01) -> list[tuple[str, FloatArray]]:
     """(top-level group, hull (K, 2) in (station, height above ground)) of every part with a volume."""
-    from massmodel.cad.primitives import mesh_arrays
-
     v = model.vehicle
     assert v is not None
     out = []
@@ -134,7 +132,7 @@ def _side_outlines(model: Model, chord: float = 0.01) -> list[tuple[str, FloatAr
         if c.shape.kind == "point":
             continue
         if c.shape not in cache:
-            cache[c.shape] = np.asarray(mesh_arrays(c.shape, chord)[0], float)
+            cache[c.shape] = np.asarray(c.shape.mesh_arrays(chord)[0], float)
         pts = c.pose.apply(cache[c.shape])
         xy = np.stack([pts @ v.forward, pts @ v.up - v.ground_level], axis=1)
         out.append((group_key(c.path, 1), _hull(xy)))

@@ -325,11 +325,12 @@ def _cad_part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatA
     """Fallback: the B-rep solid minus its cut-outs (OpenCascade), tessellated, in the part frame."""
     import trimesh
 
+    from massmodel.cad.primitives import to_solid
     from massmodel.cad.solids import place_solid
 
-    solid = component.shape.to_solid()
+    solid = to_solid(component.shape)
     for cut in component.cutouts:
-        solid = solid.cut(place_solid(cut.shape.to_solid(), cut.pose))
+        solid = solid.cut(place_solid(to_solid(cut.shape), cut.pose))
     verts, tris = solid.tessellate(chord_tolerance * 1e3, 0.3)
     mesh = trimesh.Trimesh(np.array([v.toTuple() for v in verts]) * 1e-3, np.array(tris))
     return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
@@ -350,18 +351,14 @@ def part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray,
     fallback : bool
         True when OpenCascade made the mesh.
     """
-    from massmodel.cad.primitives import (
-        mesh_arrays,  # the arrays behind Shape.to_mesh, without the trimesh wrapper
-    )
-
-    v, f = mesh_arrays(component.shape, chord_tolerance)
+    v, f = component.shape.mesh_arrays(chord_tolerance)
     if not component.cutouts:
         return np.asarray(v, float), np.asarray(f, np.int64), False
     import manifold3d
 
     body = _to_manifold(v, f)
     for cut in component.cutouts:
-        cv, cf = mesh_arrays(cut.shape, chord_tolerance)
+        cv, cf = cut.shape.mesh_arrays(chord_tolerance)
         body = body - _to_manifold(cut.pose.apply(cv), cf)
     ok = body.status() == manifold3d.Error.NoError
     if ok:
@@ -471,9 +468,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
         key = ("point",) if is_point else (comp.shape, tuple((c.shape, c.pose.matrix4().tobytes()) for c in comp.cutouts))
         if key not in cache:
             if is_point:
-                from massmodel.cad.primitives import mesh_arrays
-
-                mv, mf = mesh_arrays(marker, min(opts.chord_tolerance, opts.point_radius / 4))
+                mv, mf = marker.mesh_arrays(min(opts.chord_tolerance, opts.point_radius / 4))
                 lv, lf, used_cad = np.asarray(mv, float), np.asarray(mf, np.int64), False
             else:
                 lv, lf, used_cad = part_mesh(comp, opts.chord_tolerance)
@@ -496,10 +491,8 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
 
     slot_edges: list[tuple[str, FloatArray]] = []
     if opts.slots:
-        from massmodel.cad.primitives import mesh_arrays
-
         for s in model.slots:
-            sv, sf = mesh_arrays(s.shape, opts.chord_tolerance)
+            sv, sf = s.shape.mesh_arrays(opts.chord_tolerance)
             sv = np.asarray(sv, float)
             sf = np.asarray(sf, np.int64)
             slot_edges.append((s.name, s.pose.apply(sv)[sharp_edges(sv, sf)]))
