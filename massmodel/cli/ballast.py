@@ -431,8 +431,8 @@ def _place(args: argparse.Namespace) -> int:
 def _check_load_cases(path: Path, overrides: dict[str, str]) -> bool:
     """The placement works on the model as loaded; the rules may also apply in other load cases (less fuel, ...).
     Check the ballasted model in every case its rules apply in (nominal densities) and say which fail."""
-    from massmodel.core.loadcases import check_rules_in_cases
     from massmodel.modelfile.loader import load_case_models
+    from massmodel.vehicle.balance import check_rules_in_cases
 
     models = load_case_models(path, overrides=overrides)
     if len(models) < 2:

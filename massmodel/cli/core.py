@@ -187,7 +187,7 @@ def _report_cases(args: argparse.Namespace) -> int:
 
 
 def _check(args: argparse.Namespace) -> int:
-    from massmodel.core.loadcases import check_rules_in_cases
+    from massmodel.vehicle.balance import check_rules_in_cases
 
     models = load_cases_from_args(args)
     model = next(iter(models.values()))

@@ -16,6 +16,7 @@ References
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -24,7 +25,9 @@ import numpy.typing as npt
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck, Vehicle
 
-__all__ = ["Balance", "RuleResult", "static_balance", "check_rules", "ASSUMPTIONS", "AT_LIMIT_RTOL"]
+__all__ = [
+    "Balance", "RuleResult", "static_balance", "check_rules", "check_rules_in_cases", "ASSUMPTIONS", "AT_LIMIT_RTOL",
+]
 
 ASSUMPTIONS = (
     "level flat ground; rigid chassis; no diagonal (cross) preload in the suspension, so each axle's load is split "
@@ -197,3 +200,20 @@ def check_rules(model: Model) -> list[RuleResult]:
     """Evaluate every rule of the model."""
     balance = static_balance(model.mass_properties(), model.vehicle) if model.vehicle is not None else None
     return [check_rule(model, r, balance) for r in model.rules]
+
+
+def check_rules_in_cases(models: Mapping[str, Model]) -> list[tuple[str, RuleResult]]:
+    """Evaluate every rule in each case it applies in.
+
+    Parameters
+    ----------
+    models : mapping of str to Model
+        Case name → the model of that case (as given by :func:`massmodel.modelfile.loader.load_case_models`); each model
+        holds only the rules that apply in its case (see :mod:`massmodel.core.loadcases`).
+
+    Returns
+    -------
+    list of (str, RuleResult)
+        Case name and result, cases in the order given, rules in file order.
+    """
+    return [(name, result) for name, model in models.items() for result in check_rules(model)]
