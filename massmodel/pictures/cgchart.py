@@ -278,6 +278,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
 def _notes(model: Model, station: float, height: float, bands: list[StationBand], hmax: float | None) -> list[str]:
     import textwrap
 
+    from massmodel.report.rules import rule_limit_text
     from massmodel.vehicle.balance import check_rules
 
     lines = ["RULE LIMITS AT THE CURRENT MASS"]
@@ -291,7 +292,7 @@ def _notes(model: Model, station: float, height: float, bands: list[StationBand]
         lines.append(f"• max CG height {hmax:.4f} m · margin {(hmax - height) * 1e3:+.1f} mm")
     for r in check_rules(model):
         if r.check in ("min_mass", "min_group_mass"):
-            lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {r.limit} {r.unit})")
+            lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {rule_limit_text(r)})")
     lines.append("")
     wrapped: list[str] = []
     for line in lines:
