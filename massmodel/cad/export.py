@@ -40,6 +40,7 @@ import numpy as np
 from massmodel.core.atomic import current_umask
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, MassSource, Model, in_group
+from massmodel.core.shapes import PointMass
 
 from .formats import (
     ExportError,
@@ -206,7 +207,7 @@ class _Stage:
 
 
 def _no_solid_reason(c: Component) -> str:
-    if c.shape.kind == "point":
+    if isinstance(c.shape, PointMass):
         return "point mass: no solid"
     return f"open mesh, display only ({getattr(c.shape, 'problem', '')})"
 

@@ -35,6 +35,7 @@ from OCP.TopoDS import TopoDS
 from massmodel.cad.primitives import to_mesh, to_solid
 from massmodel.core.frames import Pose
 from massmodel.core.model import Component, Slot
+from massmodel.core.shapes import PointMass
 
 __all__ = [
     "MM_PER_M",
@@ -183,7 +184,7 @@ def _part_frame_solid(component: Component, cache: dict[Any, Any] | None) -> Any
 
 
 def _no_solid_reason(component: Component) -> str:
-    if component.shape.kind == "point":
+    if isinstance(component.shape, PointMass):
         return "a point mass"
     return "an open mesh, for display only"
 

@@ -28,6 +28,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.model import Model, RuleCheck
+from massmodel.core.shapes import PointMass
 
 from .scene import CG_COLOUR, INK, PALETTE, group_key
 from .sheet import write_png_atomic
@@ -129,7 +130,7 @@ def _side_outlines(model: Model, chord: float = 0.01) -> list[tuple[str, FloatAr
     out = []
     cache: dict[Any, FloatArray] = {}
     for c in model.components:
-        if c.shape.kind == "point":
+        if isinstance(c.shape, PointMass):
             continue
         if c.shape not in cache:
             cache[c.shape] = np.asarray(c.shape.mesh_arrays(chord)[0], float)

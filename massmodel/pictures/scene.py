@@ -28,6 +28,7 @@ import numpy.typing as npt
 
 from massmodel.core.massprops import MassProperties, combine_arrays, principal_axes, radii_of_gyration
 from massmodel.core.model import Model
+from massmodel.core.shapes import PointMass, Sphere
 
 from .meshes import part_mesh, place_mesh, sharp_edges
 
@@ -355,11 +356,10 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     fallback: list[str] = []
     points: list[int] = []
     offset = 0
-    from massmodel.core.shapes import Sphere
 
     marker = Sphere(opts.point_radius)
     for i, comp in enumerate(model.components):
-        is_point = comp.shape.kind == "point"
+        is_point = isinstance(comp.shape, PointMass)
         key = ("point",) if is_point else (comp.shape, tuple((c.shape, c.pose.matrix4().tobytes()) for c in comp.cutouts))
         if key not in cache:
             if is_point:
