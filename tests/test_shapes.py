@@ -918,3 +918,15 @@ def test_import_needs_numpy_only() -> None:
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "none"
+
+
+def test_every_primitive_has_a_cad_builder_and_others_are_refused() -> None:
+    # to_solid dispatches on the shape's type: a primitive added without its builder in massmodel.cad.primitives
+    # would fall through to the default, which refuses it
+    fallback = to_solid.dispatch(object)
+    missing = [kind for kind, cls in SHAPE_KINDS.items() if to_solid.dispatch(cls) is fallback]
+    assert missing == []
+    with pytest.raises(TypeError, match="no CAD builder for str"):
+        to_solid("box")
+    with pytest.raises(TypeError, match="no mesher for str"):
+        to_mesh("box", 1e-3)
