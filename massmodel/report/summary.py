@@ -28,7 +28,7 @@ from massmodel.core.massprops import (
     radii_of_gyration,
 )
 from massmodel.core.model import Maturity, Model
-from massmodel.report.rules import dict_limit_text, rule_dict
+from massmodel.report.rules import DECIMALS, dict_limit_text, rule_dict
 from massmodel.vehicle.balance import ASSUMPTIONS, Balance, check_rules, static_balance
 
 __all__ = [
@@ -363,7 +363,7 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
             val = r["value"]["value"]
             mar = r["margin"]["value"]
             unit = r["value"]["unit"]
-            fmt = ".4f" if unit in ("fraction", "m") else ".2f"
+            fmt = f".{DECIMALS.get(unit, 4)}f"
             # a failing rule keeps its minus sign even when the margin rounds to zero
             margin = _num(mar, "+" + fmt) if r["passed"] else format(mar, "+" + fmt)
             rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{_num(val, fmt)} {unit}", dict_limit_text(r),
