@@ -5,7 +5,7 @@ lists them explicitly, in the order their commands appear in ``--help``, and the
 built, while heavy libraries (cadquery, pyvista) load only inside the command that needs them. User mistakes print one
 clear line and exit 2; set ``MASSMODEL_DEBUG=1`` to see the traceback.
 
-May import: every layer below it (core up to pictures); never :mod:`massmodel.notebook`, its sibling at the top.
+May import: every layer below it (core up to pictures and page); never :mod:`massmodel.notebook`, its sibling at the top.
 Nothing in the library imports it (only ``massmodel/__main__.py``).
 """
 
