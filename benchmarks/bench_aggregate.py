@@ -107,6 +107,7 @@ def best_time(fn, arg, repeats: int) -> float:
 
 def occ_solids(parts: list[batch.Batch]) -> list[tuple[object, float, bool]]:
     """Placed OpenCascade solids (mm) of every primitive, with densities (built once, not timed)."""
+    from massmodel.cad.primitives import to_solid
     from massmodel.cad.solids import place_solid
     from massmodel.core.frames import Pose
     from massmodel.core.shapes import SHAPE_KINDS
@@ -115,7 +116,7 @@ def occ_solids(parts: list[batch.Batch]) -> list[tuple[object, float, bool]]:
     for b in parts:
         cls = SHAPE_KINDS[b.kind]
         for dims, rho, r, t in zip(b.dims, b.densities, b.rotations, b.translations, strict=True):
-            solid = place_solid(cls(*(float(v) for v in dims)).to_solid(), Pose(r, t))
+            solid = place_solid(to_solid(cls(*(float(v) for v in dims))), Pose(r, t))
             solids.append((solid.wrapped, float(rho), b.kind == "ellipsoid"))
     return solids
 

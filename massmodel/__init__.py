@@ -53,7 +53,7 @@ from massmodel.modelfile.loader import (
     source_from_text,
 )
 from massmodel.report.summary import build_report, format_report
-from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
+from massmodel.vehicle.balance import Balance, Bound, RuleResult, check_rules, static_balance
 from massmodel.vehicle.transfer import TransferredLoads, load_transfer
 
 __version__ = "0.1.0"
@@ -61,6 +61,7 @@ __version__ = "0.1.0"
 __all__ = [
     "AllowedContact",
     "Balance",
+    "Bound",
     "Component",
     "Cutout",
     "InertiaError",

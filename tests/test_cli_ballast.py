@@ -330,8 +330,8 @@ def test_placement_picture_names_axes_by_the_models_vehicle_directions():
 def test_ballasted_demo_passes_its_rules_in_every_load_case(placed):
     # The placement works on the model as loaded; the rules also apply in the demo's load cases (e.g. qualifying
     # with 10 kg of fuel, where the rear axle minimum is tightest). Checked independently of the command here.
-    from massmodel.core.loadcases import check_rules_in_cases
     from massmodel.modelfile.loader import load_case_models
+    from massmodel.vehicle.balance import check_rules_in_cases
 
     out, code = placed
     models = load_case_models(out / "bl3_ballasted.toml")

@@ -14,7 +14,8 @@ import pytest
 from cad_bodies import BASE_SPEC, load_bodies_model, occ_props, write_estimate
 
 from conftest import assert_close
-from massmodel.compare.check import Tolerances, check_estimate, compare, compare_item, model_side
+from massmodel.compare.check import Tolerances, compare, compare_item, model_side
+from massmodel.compare.crosscheck import check_estimate
 from massmodel.compare.estimate import EstimateError, loads_estimate
 from massmodel.core.massprops import MassProperties
 

@@ -15,7 +15,8 @@ import numpy as np
 import pytest
 from cad_bodies import BASE_SPEC, BODIES, Spec, load_bodies_model, occ_props, write_estimate
 
-from massmodel.compare.check import Tolerances, check_estimate
+from massmodel.compare.check import Tolerances
+from massmodel.compare.crosscheck import check_estimate
 from massmodel.compare.estimate import EstimateError, Products, ReferenceKind, load_estimate
 
 BASE = BASE_SPEC  # a CAD frame: x rearward, y right, z up, origin away from the model's

@@ -12,7 +12,7 @@ import pytest
 from cad_bodies import BODIES, cad_solid, load_bodies_model, occ_props
 
 from conftest import assert_close
-from massmodel.compare.check import check_estimate
+from massmodel.compare.crosscheck import check_estimate
 from massmodel.compare.estimate import WHOLE, AxisMap, EstimateError, normalise
 from massmodel.compare.estimate_step import estimate_from_step, read_step_solids
 

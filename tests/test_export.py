@@ -364,7 +364,7 @@ def test_a_failure_midway_keeps_the_earlier_export(exported, tmp_path, monkeypat
     def broken(*args, **kwargs):
         raise ExportError("simulated failure of the GLB writer")
 
-    monkeypatch.setattr(ex, "_glb_bytes", broken)
+    monkeypatch.setattr(ex, "glb_bytes", broken)
     with pytest.raises(ExportError, match="simulated"):
         export_model(model, tmp_path, ExportOptions(chord_tolerance=2e-4, stl_layout=StlLayout.BOTH))
     after = {p: p.read_bytes() for p in tmp_path.rglob("*") if p.is_file()}

@@ -19,6 +19,7 @@ import pytest
 
 from conftest import assert_close
 from massmodel.cad.imported import GeometryFileError, MeshShape, StepShape, load_mesh, load_step
+from massmodel.cad.primitives import to_mesh, to_solid
 from massmodel.core.model import MassSource
 from massmodel.core.shapes import Box
 from massmodel.modelfile.loader import ModelFileError, loads_model
@@ -148,7 +149,7 @@ def test_step_contains_and_surface_points(step_files):
     on_mantle = np.abs(rho - 0.04) < 1e-7
     on_end = (np.abs(surf[:, 2]) < 1e-9) | (np.abs(surf[:, 2] - 0.12) < 1e-9)
     assert np.all(on_mantle | on_end) and 150 <= len(surf) <= 300
-    mesh = shape.to_mesh(1e-4)
+    mesh = to_mesh(shape, 1e-4)
     assert mesh.is_watertight and abs(mesh.volume - shape.volume()) <= mesh.area * 1e-4
 
 
@@ -229,7 +230,7 @@ maturity = "calculated"
     # the mesh's B-rep rebuild (one face per triangle) has the same volume properties in OpenCascade
     from massmodel.cad.solids import solid_volume_properties
 
-    mass, center, inertia = solid_volume_properties(c.shape.to_solid(), 17000.0)
+    mass, center, inertia = solid_volume_properties(to_solid(c.shape), 17000.0)
     assert_close(mass, 17000 * ref.volume(), 1e-12)
     assert_close(center, [0.005, 0.006, 0.007], 1e-12)
     assert_close(inertia, 17000 * ref.inertia_per_density(), 1e-12)
@@ -268,7 +269,7 @@ maturity = "measured"
     assert c.source is MassSource.MEASURED and c.volume == 0.0 and c.inertia_source == "point"
     assert_close(c.props.center, [0.0, 0.0, 0.010], 1e-12)
     with pytest.raises(Exception, match="not closed"):
-        c.shape.to_solid()
+        to_solid(c.shape)
 
 
 def test_inside_out_mesh_is_refused_with_a_density(tmp_path):

@@ -8,10 +8,10 @@ import pytest
 
 from conftest import assert_props_close
 from massmodel.cli import main
-from massmodel.core.loadcases import BASE_CASE, check_rules_in_cases
+from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.massprops import combine
 from massmodel.modelfile.loader import ModelFileError, load_case_models, load_model, loads_model
-from massmodel.vehicle.balance import static_balance
+from massmodel.vehicle.balance import check_rules_in_cases, static_balance
 
 HEAD = """
 [model]

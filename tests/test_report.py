@@ -137,7 +137,8 @@ def test_rules(report: dict) -> None:
     mass_rule, front_rule = report["rules"]
     assert mass_rule == {
         "name": "minimum mass without fuel", "check": "min_mass", "passed": False,
-        "value": {"value": pytest.approx(100.0, rel=1e-15), "unit": "kg"}, "limit": ">= 110.00 kg",
+        "value": {"value": pytest.approx(100.0, rel=1e-15), "unit": "kg"},
+        "bound": "at_least", "limit_min": {"value": 110.0, "unit": "kg"}, "limit_max": None,
         "margin": {"value": pytest.approx(-10.0, rel=1e-12), "unit": "kg"}, "detail": "whole model without fuel"}
     assert front_rule["passed"] is True
     assert front_rule["margin"] == {"value": pytest.approx(report["axle_loads_kg"]["front"] - 30.0), "unit": "kg"}
@@ -225,3 +226,17 @@ def test_json_written_atomically(tmp_path: Path, report: dict) -> None:
         write_json_atomic({"mass_kg": float("nan")}, target)  # not valid JSON: refused, old file kept
     assert target.read_bytes() == before
     assert sorted(p.name for p in target.parent.iterdir()) == ["report.json"]
+
+
+def test_rule_limits_are_numbers_and_the_text_is_built_from_them(report: dict) -> None:
+    from massmodel.report.rules import dict_limit_text, limit_text
+    from massmodel.vehicle.balance import Bound
+
+    mass_rule, _ = report["rules"]
+    # the text the report prints comes from the numbers of the JSON (110 kg minimum, written above)
+    assert dict_limit_text(mass_rule) == ">= 110.00 kg"
+    assert ">= 110.00 kg" in format_report(report)
+    assert limit_text(Bound.AT_MOST, None, 0.31, "m") == "<= 0.3100 m"
+    assert limit_text("between", 0.428, 0.46, "fraction") == "0.4280 .. 0.4600 fraction"
+    with pytest.raises(ValueError):
+        limit_text("above", 1.0, None, "kg")  # not a bound kind

@@ -32,6 +32,7 @@ from OCP.TopAbs import TopAbs_IN, TopAbs_ON
 from scipy.spatial import cKDTree
 from scipy.spatial.transform import Rotation
 
+from massmodel.cad.primitives import to_mesh, to_solid
 from massmodel.core.shapes import (
     SHAPE_KINDS,
     Box,
@@ -447,7 +448,7 @@ def test_mass_properties_match_opencascade(name: str) -> None:
 def test_to_solid_mass_properties(name: str) -> None:
     # OpenCascade on our own to_solid (mm): the CAD edge carries the same solid.
     shape = SAMPLES[name]
-    solid = shape.to_solid()
+    solid = to_solid(shape)
     assert isinstance(solid, cq.Solid)
     volume, centroid, tensor = ocp_props(solid)
     assert math.isclose(shape.volume(), volume, rel_tol=1e-9)
@@ -465,7 +466,7 @@ def test_to_solid_mass_properties(name: str) -> None:
 def test_to_solid_is_the_independent_solid(name: str) -> None:
     # OpenCascade booleans: both differences between our solid and the independent one have ~zero volume.
     shape = SAMPLES[name]
-    ours, theirs = shape.to_solid().wrapped, independent_cad_mm(shape).wrapped
+    ours, theirs = to_solid(shape).wrapped, independent_cad_mm(shape).wrapped
     for a, b in ((ours, theirs), (theirs, ours)):
         props = GProp_GProps()
         BRepGProp.VolumeProperties_s(BRepAlgoAPI_Cut(a, b).Shape(), props)
@@ -479,7 +480,7 @@ def test_tensor_axes_follow_a_rigid_motion(name: str) -> None:
     angles = (23.0, -41.0, 67.0)
     offset_m = np.array([0.37, -0.12, 0.05])
     rot = Rotation.from_euler("xyz", angles, degrees=True).as_matrix()  # cadquery Location: R = Rz·Ry·Rx
-    placed = shape.to_solid().moved(cq.Location((0, 0, 0), angles))
+    placed = to_solid(shape).moved(cq.Location((0, 0, 0), angles))
     placed = placed.moved(cq.Location(tuple(offset_m * 1000)))
     volume, centroid, tensor = ocp_props(placed)
     assert math.isclose(volume, shape.volume(), rel_tol=1e-9)
@@ -539,7 +540,7 @@ def test_mesh_mass_properties_within_tessellation_error(name: str) -> None:
     # area·e·ρ_max² (ρ_max: farthest point from the centroid), the centroid by area·e·ρ_max/V (each doubled).
     shape = SAMPLES[name]
     tol = 2e-4 * size_of(shape)
-    mesh = shape.to_mesh(tol)
+    mesh = to_mesh(shape, tol)
     assert mesh.is_watertight and mesh.is_winding_consistent
     assert mesh.volume > 0
     lo, hi = shape.bounds()
@@ -567,7 +568,7 @@ def test_mesh_chord_error(name: str) -> None:
     # tolerance of it; for curved solids the facets are not needlessly fine (the worst uses >= 1/4 of it).
     shape = SAMPLES[name]
     tol = 1e-3 * size_of(shape)
-    mesh = shape.to_mesh(tol)
+    mesh = to_mesh(shape, tol)
     assert surface_distance(shape, mesh.vertices).max() <= 1e-12 * size_of(shape)
     on_facets = _face_samples(mesh)
     worst = surface_distance(shape, on_facets).max()
@@ -584,7 +585,7 @@ def test_cylinder_segment_count_and_volume_error() -> None:
     # (exactly N sin(2π/N)/(2π) − 1 for the inscribed polygon); N is the fewest with r(1 − cos(π/N)) <= tol.
     cyl = Cylinder(0.045, 0.23)
     tol = 2e-6
-    mesh = cyl.to_mesh(tol)
+    mesh = to_mesh(cyl, tol)
     rim = mesh.vertices[np.isclose(mesh.vertices[:, 2], 0.115) & (np.hypot(*mesh.vertices[:, :2].T) > 0.04)]
     n = len(rim)
     assert cyl.radius * (1 - math.cos(math.pi / n)) <= tol < cyl.radius * (1 - math.cos(math.pi / (n - 1)))
@@ -595,10 +596,10 @@ def test_cylinder_segment_count_and_volume_error() -> None:
 
 def test_mesh_rejects_bad_tolerance() -> None:
     with pytest.raises(ShapeError) as info:
-        Sphere(0.083).to_mesh(0.0)
+        to_mesh(Sphere(0.083), 0.0)
     assert info.value.field == "chord_tolerance"
     with pytest.raises(ShapeError) as info:
-        Sphere(0.083).to_mesh(1e-13)  # would need millions of facets per turn
+        to_mesh(Sphere(0.083), 1e-13)  # would need millions of facets per turn
     assert info.value.field == "chord_tolerance" and "too small" in str(info.value)
 
 
@@ -702,7 +703,7 @@ def test_surface_points_lie_on_the_surface_and_cover_it(name: str) -> None:
     assert surface_distance(shape, pts).max() <= 1e-12 * size_of(shape)
     assert shape.contains(pts).all()
     # Coverage: every vertex of a fine mesh (on the surface) is near a sample; h = sqrt(area / n).
-    mesh = shape.to_mesh(1e-3 * size_of(shape))
+    mesh = to_mesh(shape, 1e-3 * size_of(shape))
     h = math.sqrt(mesh.area / 600)
     gap, _ = cKDTree(pts).query(mesh.vertices)
     assert gap.max() <= 1.5 * h
@@ -875,7 +876,7 @@ def test_bounds() -> None:
     )
     np.testing.assert_array_equal(SAMPLES["extrusion_l"].bounds(), [[0.02, 0.01, 0], [0.11, 0.13, 0.012]])
     for name, shape in SAMPLES.items():  # bounds equal the extent of a fine mesh (vertices on the surface)
-        mesh = shape.to_mesh(1e-4 * size_of(shape))
+        mesh = to_mesh(shape, 1e-4 * size_of(shape))
         np.testing.assert_allclose(mesh.bounds, shape.bounds(), atol=2e-4 * size_of(shape), err_msg=name)
 
 
@@ -886,14 +887,14 @@ def test_point_mass() -> None:
     np.testing.assert_array_equal(point.inertia_per_density(), np.zeros((3, 3)))
     assert not point.contains(np.array([[0.0, 0.0, 0.0], [1e-12, 0, 0]]), tol=1.0).any()
     np.testing.assert_array_equal(point.surface_points(50), np.zeros((1, 3)))
-    marker = point.to_mesh(1e-4, marker_radius=0.02)
+    marker = to_mesh(point, 1e-4, marker_radius=0.02)
     assert marker.is_watertight
     assert math.isclose(marker.volume, 4 / 3 * math.pi * 0.02**3, rel_tol=2e-2)
     assert math.isclose(
-        ocp_props(point.to_solid(marker_radius=0.02))[0], 4 / 3 * math.pi * 0.02**3, rel_tol=1e-12
+        ocp_props(to_solid(point, marker_radius=0.02))[0], 4 / 3 * math.pi * 0.02**3, rel_tol=1e-12
     )
     with pytest.raises(ShapeError) as info:
-        point.to_solid(marker_radius=0.0)
+        to_solid(point, marker_radius=0.0)
     assert info.value.field == "marker_radius"
 
 
@@ -917,3 +918,15 @@ def test_import_needs_numpy_only() -> None:
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "none"
+
+
+def test_every_primitive_has_a_cad_builder_and_others_are_refused() -> None:
+    # to_solid dispatches on the shape's type: a primitive added without its builder in massmodel.cad.primitives
+    # would fall through to the default, which refuses it
+    fallback = to_solid.dispatch(object)
+    missing = [kind for kind, cls in SHAPE_KINDS.items() if to_solid.dispatch(cls) is fallback]
+    assert missing == []
+    with pytest.raises(TypeError, match="no CAD builder for str"):
+        to_solid("box")
+    with pytest.raises(TypeError, match="no mesher for str"):
+        to_mesh("box", 1e-3)

@@ -198,12 +198,11 @@ def test_placed_meshes_are_closed_outward_and_cut(small):
 
 
 def test_box_has_twelve_sharp_edges_and_cylinder_two_rims():
-    from massmodel.cad.primitives import mesh_arrays
     from massmodel.core.shapes import Box, Cylinder
 
-    v, f = mesh_arrays(Box(0.3, 0.2, 0.1), 0.001)
+    v, f = Box(0.3, 0.2, 0.1).mesh_arrays(0.001)
     assert len(sharp_edges(np.asarray(v), np.asarray(f))) == 12  # a box has 12 edges; face diagonals are flat
-    v, f = mesh_arrays(Cylinder(0.1, 0.2), 0.001)
+    v, f = Cylinder(0.1, 0.2).mesh_arrays(0.001)
     v, f = np.asarray(v), np.asarray(f)
     edges = sharp_edges(v, f)
     z = v[edges][:, :, 2]

@@ -3,5 +3,5 @@
 cadquery, OCP, trimesh and manifold3d are imported inside the functions that need them, so importing this package
 stays light.
 
-May import: :mod:`massmodel.core`.
+May import: :mod:`massmodel.core` (not :mod:`massmodel.vehicle`, its sibling of layer 1).
 """

@@ -2,6 +2,8 @@
 
 What each file holds
 --------------------
+The contents of each format are made in :mod:`massmodel.cad.formats`.
+
 STEP (AP214, length unit mm stated in the file)
     An assembly named after the model, nested by group (one sub-assembly per group path), with one solid per
     component named by its path, coloured with its colour (sRGB), cut-outs applied and placed by its own location
@@ -27,8 +29,6 @@ from __future__ import annotations
 import enum
 import json
 import os
-import re
-import struct
 import tempfile
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
@@ -40,6 +40,19 @@ import numpy as np
 from massmodel.core.atomic import current_umask
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, MassSource, Model, in_group
+from massmodel.core.shapes import PointMass
+
+from .formats import (
+    ExportError,
+    ExportPart,
+    glb_bytes,
+    gltf_axes,
+    placed_mesh_arrays,
+    slug,
+    srgb_to_linear,
+    stl_bytes,
+    write_step,
+)
 
 __all__ = [
     "EXPORT_FORMAT",
@@ -74,10 +87,6 @@ class StlLayout(enum.Enum):
     MODEL = "model"
     PARTS = "parts"
     BOTH = "both"
-
-
-class ExportError(OSError):
-    """An export that cannot be written (folder not writable, a writer failing); nothing was replaced."""
 
 
 @dataclass(frozen=True)
@@ -116,12 +125,6 @@ class ExportResult:
     left_out: tuple[tuple[str, str], ...] = field(default=())
 
 
-def slug(text: str) -> str:
-    """File-name form of a name: lower case, runs of other characters as '-' ("Brindlecombe BL-3" → "brindlecombe-bl-3")."""
-    out = re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-")
-    return out or "model"
-
-
 def select_components(model: Model, selection: Iterable[str]) -> list[Component]:
     """Components in any of the selected groups or paths (all when the selection is empty).
 
@@ -142,53 +145,6 @@ def select_components(model: Model, selection: Iterable[str]) -> list[Component]
             hint = f"; did you mean {', '.join(close)}?" if close else ""
             raise KeyError(f"selection: no part or group '{s}' in model '{model.name}'{hint}")
     return model.select(chosen)
-
-
-def srgb_to_linear(c: np.ndarray) -> np.ndarray:
-    """sRGB component values (0..1) to linear RGB (IEC 61966-2-1 transfer function)."""
-    c = np.asarray(c, dtype=float)
-    return np.where(c <= 0.04045, c / 12.92, ((c + 0.055) / 1.055) ** 2.4)
-
-
-def _rgb(colour: str) -> tuple[float, float, float]:
-    return tuple(int(colour[k : k + 2], 16) / 255.0 for k in (1, 3, 5))  # type: ignore[return-value]
-
-
-def gltf_axes(model: Model) -> np.ndarray:
-    """(3, 3) rotation taking model coordinates to glTF coordinates (+Y up, +Z forward, +X left), from the
-    vehicle's directions (ISO 8855 default x forward, y left, z up when the model has no vehicle).
-
-    References
-    ----------
-    Khronos glTF 2.0 specification, §3.4 "Coordinate System and Units": +Y up, +Z forward, −X right; metres.
-    """
-    if model.vehicle is not None:
-        forward, left, up = model.vehicle.forward, model.vehicle.left, model.vehicle.up
-    else:
-        forward, left, up = np.eye(3)
-    return np.array([left, up, forward], dtype=float)
-
-
-def stl_bytes(vertices: np.ndarray, faces: np.ndarray, header: str) -> bytes:
-    """A binary STL file: 80-byte header, triangle count, then normal, three vertices and a zero attribute word
-    for each triangle (little-endian float32).
-
-    References
-    ----------
-    The STL binary format as defined by 3D Systems' StereoLithography Interface Specification (1988); the header
-    must not begin with "solid" (readers would take it for ASCII STL).
-    """
-    tri = np.asarray(vertices, dtype=float)[np.asarray(faces, dtype=np.int64)]
-    normals = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
-    length = np.linalg.norm(normals, axis=1, keepdims=True)
-    normals = np.divide(normals, length, out=np.zeros_like(normals), where=length > 0)
-    record = np.zeros(len(tri), dtype=[("n", "<f4", (3,)), ("v", "<f4", (3, 3)), ("a", "<u2")])
-    record["n"] = normals
-    record["v"] = tri
-    text = header.encode("ascii", "replace")[:80]
-    if text.lower().startswith(b"solid"):
-        text = b"x" + text[:79]
-    return text.ljust(80, b" ") + struct.pack("<I", len(tri)) + record.tobytes()
 
 
 # --------------------------------------------------------------------------------------------------
@@ -250,16 +206,8 @@ class _Stage:
 # --------------------------------------------------------------------------------------------------
 
 
-@dataclass
-class _Part:
-    component: Component
-    solid: Any  # mm, part frame, mirror baked in
-    location: Any  # proper Pose
-    mesh: Any = None  # trimesh, m, part frame
-
-
 def _no_solid_reason(c: Component) -> str:
-    if c.shape.kind == "point":
+    if isinstance(c.shape, PointMass):
         return "point mass: no solid"
     return f"open mesh, display only ({getattr(c.shape, 'problem', '')})"
 
@@ -316,7 +264,7 @@ def export_model(
     if not with_solid:
         raise ValueError(f"selection of model '{model.name}' holds no solid to export "
                          f"({len(left_out)} point masses or open meshes)")
-    parts: list[_Part] = []
+    parts: list[ExportPart] = []
     cache: dict[Any, Any] = {}
     used: set[int] = set()
     for k, c in enumerate(with_solid):
@@ -324,7 +272,7 @@ def export_model(
         if id(solid) in used:  # a patterned copy: its own solid, so that STEP names it by its own path
             solid = _copy_shape(solid)
         used.add(id(solid))
-        parts.append(_Part(c, solid, location))
+        parts.append(ExportPart(c, solid, location))
         tick("solids", k + 1, len(with_solid))
     if Format.STL in opts.formats or Format.GLB in opts.formats:
         for k, p in enumerate(parts):
@@ -336,27 +284,27 @@ def export_model(
     try:
         if Format.STEP in opts.formats:
             target = out / f"{stem}.step"
-            _write_step(model, parts, stage.temp_for(target), target.name)
+            write_step(model, parts, stage.temp_for(target), target.name)
             files["step"] = target.name
             tick("STEP", 1, 1)
         if Format.STL in opts.formats:
             header = f"massmodel | {model.name} | mm | model axes"
             if opts.stl_layout in (StlLayout.MODEL, StlLayout.BOTH):
-                v, f = _placed_mesh_arrays(parts)
+                v, f = placed_mesh_arrays(parts)
                 target = out / f"{stem}.stl"
                 stage.write_bytes(target, stl_bytes(v * 1e3, f, header))
                 files["stl"] = target.name
             if opts.stl_layout in (StlLayout.PARTS, StlLayout.BOTH):
                 files["stl_parts"] = {}
                 for p in parts:
-                    v, f = _placed_mesh_arrays([p])
+                    v, f = placed_mesh_arrays([p])
                     target = out / f"{stem}_parts" / f"{p.component.path}.stl"
                     stage.write_bytes(target, stl_bytes(v * 1e3, f, f"massmodel | {p.component.path} | mm"))
                     files["stl_parts"][p.component.path] = str(target.relative_to(out))
             tick("STL", 1, 1)
         if Format.GLB in opts.formats:
             target = out / f"{stem}.glb"
-            stage.write_bytes(target, _glb_bytes(model, parts))
+            stage.write_bytes(target, glb_bytes(model, parts))
             files["glb"] = target.name
             tick("GLB", 1, 1)
         sidecar = _sidecar(model, selected, parts, left_out, opts, files)
@@ -376,148 +324,6 @@ def _copy_shape(solid: Any) -> Any:
     return cq.Shape.cast(BRepBuilderAPI_Copy(solid.wrapped, True, False).Shape())
 
 
-def _placed_mesh_arrays(parts: Sequence[_Part]) -> tuple[np.ndarray, np.ndarray]:
-    """Vertices (m, model frame) and faces of the parts' meshes, concatenated (vertices kept per part)."""
-    verts, faces, offset = [], [], 0
-    for p in parts:
-        v = p.location.apply(np.asarray(p.mesh.vertices, dtype=float))
-        verts.append(v)
-        faces.append(np.asarray(p.mesh.faces, dtype=np.int64) + offset)
-        offset += len(v)
-    return np.vstack(verts), np.vstack(faces)
-
-
-def _group_chain(path: str) -> list[str]:
-    segs = path.split("/")
-    return ["/".join(segs[:k]) for k in range(1, len(segs))]
-
-
-def _tree(paths: Sequence[str]) -> tuple[dict[str, list[str]], dict[str, list[int]]]:
-    """Children groups and member part indices of every group ('' is the root)."""
-    groups: dict[str, list[str]] = {"": []}
-    members: dict[str, list[int]] = {"": []}
-    for i, path in enumerate(paths):
-        parent = ""
-        for g in _group_chain(path):
-            if g not in groups:
-                groups[g] = []
-                members[g] = []
-                groups[parent].append(g)
-            parent = g
-        members[parent].append(i)
-    return groups, members
-
-
-def _write_step(model: Model, parts: Sequence[_Part], path: Path, file_name: str) -> None:
-    import cadquery as cq
-    from cadquery.occ_impl.assembly import toCAF
-    from OCP.APIHeaderSection import APIHeaderSection_MakeHeader
-    from OCP.IFSelect import IFSelect_ReturnStatus
-    from OCP.Interface import Interface_Static
-    from OCP.STEPCAFControl import STEPCAFControl_Writer
-    from OCP.STEPControl import STEPControl_StepModelType
-    from OCP.TCollection import TCollection_HAsciiString
-    from OCP.XSControl import XSControl_WorkSession
-
-    from .imported import _native_output
-    from .solids import pose_trsf
-
-    groups, members = _tree([p.component.path for p in parts])
-
-    def build(group: str) -> Any:
-        node = cq.Assembly(name=group or model.name)
-        for i in members[group]:
-            p = parts[i]
-            node.add(p.solid, name=p.component.path, color=cq.Color(*_rgb(p.component.colour)),
-                     loc=cq.Location(pose_trsf(p.location)))
-        for child in groups[group]:
-            node.add(build(child))
-        return node
-
-    _, doc = toCAF(build(""), True)
-    session = XSControl_WorkSession()
-    writer = STEPCAFControl_Writer(session, False)
-    writer.SetColorMode(True)
-    writer.SetNameMode(True)
-    writer.SetLayerMode(False)
-    Interface_Static.SetCVal_s("write.step.schema", "AP214IS")
-    Interface_Static.SetCVal_s("xstep.cascade.unit", "MM")
-    Interface_Static.SetCVal_s("write.step.unit", "MM")
-    Interface_Static.SetIVal_s("write.surfacecurve.mode", 1)
-    Interface_Static.SetIVal_s("write.precision.mode", 0)
-    writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
-    step_model = writer.ChangeWriter().Model()
-    header = APIHeaderSection_MakeHeader(step_model)
-    header.SetName(TCollection_HAsciiString(file_name))
-    header.SetDescriptionValue(1, TCollection_HAsciiString(
-        f"massmodel export of '{model.name}': one solid per component, lengths in mm, model axes"))
-    header.SetOriginatingSystem(TCollection_HAsciiString("massmodel"))
-    header.SetAuthorValue(1, TCollection_HAsciiString(""))
-    header.SetOrganizationValue(1, TCollection_HAsciiString(""))
-    header.SetAuthorisation(TCollection_HAsciiString(""))
-    header.Apply(step_model)
-    with _native_output() as said:
-        status = writer.Write(str(path))
-    if status != IFSelect_ReturnStatus.IFSelect_RetDone:
-        raise ExportError(f"the STEP writer failed for '{path}' ({said[0] if said else status.name})")
-
-
-def _glb_bytes(model: Model, parts: Sequence[_Part]) -> bytes:
-    import trimesh
-    from trimesh.visual.material import PBRMaterial
-
-    scene = trimesh.Scene()
-    root = slug(model.name)
-    axes = np.eye(4)
-    axes[:3, :3] = gltf_axes(model)
-    scene.graph.update(frame_from=scene.graph.base_frame, frame_to=root, matrix=axes)
-    groups, members = _tree([p.component.path for p in parts])
-
-    def attach(group: str, parent: str) -> None:
-        for i in members[group]:
-            p = parts[i]
-            mesh = trimesh.Trimesh(vertices=np.asarray(p.mesh.vertices), faces=np.asarray(p.mesh.faces), process=False)
-            mesh.visual = trimesh.visual.TextureVisuals(
-                material=PBRMaterial(name=p.component.colour, baseColorFactor=[*_rgb(p.component.colour), 1.0],
-                                     metallicFactor=0.0, roughnessFactor=0.8))
-            scene.add_geometry(mesh, node_name=p.component.path, geom_name=p.component.path, parent_node_name=parent,
-                               transform=p.location.matrix4())
-        for child in groups[group]:
-            scene.graph.update(frame_from=parent, frame_to=child, matrix=np.eye(4))
-            attach(child, child)
-
-    attach("", root)
-    data = scene.export(file_type="glb")
-    return _exact_base_colours(bytes(data))
-
-
-def _exact_base_colours(glb: bytes) -> bytes:
-    """Set each material's baseColorFactor to the exact linear value of the sRGB colour in its name (trimesh
-    stores material colours as 8-bit values; glTF base colours are linear, so the sRGB colour is converted).
-
-    References
-    ----------
-    Khronos glTF 2.0 specification, §5.19 material.pbrMetallicRoughness.baseColorFactor (linear) and §4.4 GLB
-    container layout (12-byte header, 4-byte aligned JSON chunk padded with spaces, BIN chunk).
-    """
-    magic, version, _ = struct.unpack_from("<4sII", glb, 0)
-    json_len, json_type = struct.unpack_from("<II", glb, 12)
-    if magic != b"glTF" or json_type != 0x4E4F534A:
-        raise ExportError("the GLB writer produced an unexpected container")
-    doc = json.loads(glb[20 : 20 + json_len].decode("utf-8"))
-    rest = glb[20 + json_len :]
-    for mat in doc.get("materials", []):
-        name = mat.get("name", "")
-        if re.fullmatch(r"#[0-9a-f]{6}", name):
-            lin = srgb_to_linear(np.array(_rgb(name)))
-            mat.setdefault("pbrMetallicRoughness", {})["baseColorFactor"] = [*map(float, lin), 1.0]
-    doc.setdefault("asset", {})["generator"] = "massmodel (through trimesh)"
-    text = json.dumps(doc, separators=(",", ":")).encode("utf-8")
-    text += b" " * (-len(text) % 4)
-    body = struct.pack("<II", len(text), 0x4E4F534A) + text + rest
-    return struct.pack("<4sII", b"glTF", version, 12 + len(body)) + body
-
-
 def _props_dict(mp: MassProperties) -> dict[str, Any]:
     return {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
 
@@ -534,7 +340,7 @@ def _combine(props: Sequence[MassProperties]) -> MassProperties:
 def _sidecar(
     model: Model,
     selected: Sequence[Component],
-    parts: Sequence[_Part],
+    parts: Sequence[ExportPart],
     left_out: Sequence[tuple[str, str]],
     opts: ExportOptions,
     files: dict[str, Any],

@@ -1,704 +1,91 @@
-"""Geometry realisation of the primitive solids: surface samples, triangle meshes and CAD solids.
+"""CAD solids and trimesh meshes of the shapes: `to_solid(shape)` and `to_mesh(shape, chord_tolerance)`.
 
-This module holds the geometry behind `massmodel.core.shapes`: meridian profiles of solids of revolution, prisms
-over planar polygons, polygon predicates and area moments, triangle meshes (with a chord-error budget),
-surface samples, and the builders that realise each primitive kind (dispatching on `shape.kind`) as a
-sample set, a mesh or a CAD solid. It imports numpy only; trimesh and cadquery are imported inside the
-functions that need them, so `import massmodel.core.shapes` stays light.
+The shapes themselves (`massmodel.core.shapes`) are numpy only; this module realises them with the CAD kernel
+(cadquery/OCP) and trimesh, both imported inside the functions that need them. Both functions dispatch on the
+shape's type (`functools.singledispatch`): the builder of each primitive class is registered here, and other
+shape types (the STEP and mesh shapes of `massmodel.cad.imported`) register theirs where they are defined.
 
 Conventions
 -----------
-- Lengths are metres except in the CAD adaptors, which work in millimetres (the CAD kernel's unit here).
-- A meridian profile is a closed loop in the half plane (r >= 0, z) traversed counter-clockwise (the
-  material on the left when r points right and z points up). Loop edges lying on the axis r = 0 are
-  interior to the solid: they sweep no surface.
-- Meshes are returned as (vertices, faces) arrays with outward-facing counter-clockwise triangles.
-
-References
-----------
-.. [1] Sagitta of a circular chord: a chord spanning the angle 2·α on a circle of radius r lies at most
-   r·(1 − cos α) from the arc (elementary geometry).
-.. [2] Pappus's centroid theorem: the area swept by a plane curve revolved about an axis in its plane is the
-   curve length times the distance travelled by its centroid.
+- `to_solid` gives a cadquery solid in MILLIMETRES (coordinates = metres × 1000), shape frame (the CAD
+  kernel's unit here; STEP files are written in mm).
+- `to_mesh` gives a `trimesh.Trimesh` in METRES, shape frame, watertight with outward normals.
 """
 
 from __future__ import annotations
 
-import math
-from collections.abc import Sequence
-from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+import functools
+from typing import Any
 
 import numpy as np
 
-if TYPE_CHECKING:
-    from massmodel.core.shapes import Shape
-
-# Fewest facets used around a full circle, whatever the tolerance (keeps coarse meshes recognisable).
-MIN_SEGMENTS_PER_TURN = 12
-# Refuse tolerances that would need more facets than this around one circle (memory guard).
-MAX_SEGMENTS_PER_TURN = 100_000
-
-
-class ToleranceTooSmall(ValueError):
-    """The requested chord tolerance needs more facets than `MAX_SEGMENTS_PER_TURN` around one circle."""
-
-
-def segments_for_arc(radius: float, sweep: float, chord_tolerance: float) -> int:
-    """Number of equal chords approximating an arc within a chord error.
-
-    Parameters
-    ----------
-    radius : float
-        Arc radius, any length unit.
-    sweep : float
-        Swept angle, rad, > 0.
-    chord_tolerance : float
-        Largest allowed distance between a chord and its arc, same unit as `radius`.
-
-    Returns
-    -------
-    int
-        Smallest count m with radius·(1 − cos(sweep / (2 m))) <= chord_tolerance [1]_, but at least the
-        share of `MIN_SEGMENTS_PER_TURN` for this sweep.
-
-    Raises
-    ------
-    ToleranceTooSmall
-        If more than `MAX_SEGMENTS_PER_TURN` chords per full turn would be needed.
-    """
-    floor = max(1, math.ceil(MIN_SEGMENTS_PER_TURN * sweep / (2.0 * math.pi) - 1e-9))
-    if radius <= 0.0 or chord_tolerance >= radius:
-        return floor
-    half_angle = math.acos(1.0 - chord_tolerance / radius)
-    count = max(floor, math.ceil(sweep / (2.0 * half_angle) - 1e-12))
-    while radius * (1.0 - math.cos(sweep / (2.0 * count))) > chord_tolerance:
-        count += 1  # guard against rounding in acos
-    if count * 2.0 * math.pi / sweep > MAX_SEGMENTS_PER_TURN:
-        raise ToleranceTooSmall(
-            f"a chord tolerance of {chord_tolerance:g} on a radius of {radius:g} needs about "
-            f"{count} facets over {math.degrees(sweep):g} degrees (limit {MAX_SEGMENTS_PER_TURN} per turn)"
-        )
-    return count
-
-
-# --------------------------------------------------------------------------------------------------
-# Meridian profiles
-# --------------------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True, slots=True)
-class ProfileLine:
-    """Straight meridian edge from `start` to `end`, each (r, z)."""
-
-    start: tuple[float, float]
-    end: tuple[float, float]
-
-    def on_axis(self) -> bool:
-        """True when both ends lie on the axis (the edge sweeps no surface)."""
-        return self.start[0] == 0.0 and self.end[0] == 0.0
-
-    def length(self) -> float:
-        """Edge length."""
-        return math.hypot(self.end[0] - self.start[0], self.end[1] - self.start[1])
-
-    def swept_area(self) -> float:
-        """Area of the surface swept by one full turn about the axis (Pappus [2]_)."""
-        return math.pi * (self.start[0] + self.end[0]) * self.length()
-
-    def points(self, count: int) -> np.ndarray:
-        """`count` + 1 points from start to end inclusive, (count + 1, 2)."""
-        t = np.linspace(0.0, 1.0, count + 1)[:, None]
-        pts = (1.0 - t) * np.asarray(self.start) + t * np.asarray(self.end)
-        pts[0], pts[-1] = self.start, self.end
-        return pts
-
-    def chords(self, chord_tolerance: float) -> int:
-        """Chords needed for the tolerance: a line needs one."""
-        return 1
-
-
-@dataclass(frozen=True, slots=True)
-class ProfileArc:
-    """Circular meridian arc: centre (r, z), radius, from angle `angle_start` to `angle_end` (rad).
-
-    The point at angle φ is centre + radius·(cos φ, sin φ); the arc runs counter-clockwise when
-    `angle_end` > `angle_start`. `start` and `end` are the exact end points (given, not recomputed, so
-    that end points on the axis have r exactly 0).
-    """
-
-    centre: tuple[float, float]
-    radius: float
-    angle_start: float
-    angle_end: float
-    start: tuple[float, float]
-    end: tuple[float, float]
-
-    def on_axis(self) -> bool:
-        """Arcs always sweep a surface."""
-        return False
-
-    def length(self) -> float:
-        """Arc length."""
-        return self.radius * abs(self.angle_end - self.angle_start)
-
-    def swept_area(self) -> float:
-        """Area swept by one full turn about the axis: 2π ∫ r ds (Pappus [2]_)."""
-        a0, a1 = sorted((self.angle_start, self.angle_end))
-        return (
-            2.0
-            * math.pi
-            * self.radius
-            * (self.centre[0] * (a1 - a0) + self.radius * (math.sin(a1) - math.sin(a0)))
-        )
-
-    def points(self, count: int) -> np.ndarray:
-        """`count` + 1 points along the arc, end points exact, (count + 1, 2)."""
-        phi = np.linspace(self.angle_start, self.angle_end, count + 1)
-        pts = np.column_stack(
-            (self.centre[0] + self.radius * np.cos(phi), self.centre[1] + self.radius * np.sin(phi))
-        )
-        pts[0], pts[-1] = self.start, self.end
-        pts[:, 0] = np.maximum(pts[:, 0], 0.0)
-        return pts
-
-    def chords(self, chord_tolerance: float) -> int:
-        """Chords needed to stay within `chord_tolerance` of the arc [1]_."""
-        return segments_for_arc(self.radius, abs(self.angle_end - self.angle_start), chord_tolerance)
-
-
-ProfileSegment = ProfileLine | ProfileArc
-
-
-def arc(centre: tuple[float, float], radius: float, angle_start: float, angle_end: float) -> ProfileArc:
-    """Build a `ProfileArc`, snapping end points within 1e-15·radius of the axis onto it."""
-
-    def point(phi: float) -> tuple[float, float]:
-        r = centre[0] + radius * math.cos(phi)
-        z = centre[1] + radius * math.sin(phi)
-        return (0.0 if abs(r) <= 1e-15 * radius else r, z)
-
-    return ProfileArc(centre, radius, angle_start, angle_end, point(angle_start), point(angle_end))
-
-
-def profile_area(profile: Sequence[ProfileSegment]) -> float:
-    """Area of the surface of revolution swept by a profile (axis edges excluded)."""
-    return sum(seg.swept_area() for seg in profile if not seg.on_axis())
-
-
-def _loop_points(profile: Sequence[ProfileSegment], chord_tolerance: float) -> np.ndarray:
-    """Closed profile loop as (K, 2) points (last point not repeated), chords within the tolerance."""
-    parts = [seg.points(seg.chords(chord_tolerance))[:-1] for seg in profile]
-    return np.concatenate(parts, axis=0)
-
-
-def revolve_mesh(profile: Sequence[ProfileSegment], chord_tolerance: float) -> tuple[np.ndarray, np.ndarray]:
-    """Triangle mesh of the solid swept by a closed meridian profile about the z axis.
-
-    Parameters
-    ----------
-    profile : sequence of ProfileLine | ProfileArc
-        Closed counter-clockwise loop in the (r, z) half plane, m.
-    chord_tolerance : float
-        Largest distance between the mesh and the exact surface, m.
-
-    Returns
-    -------
-    vertices : (V, 3) float
-        m, solid frame.
-    faces : (F, 3) int
-        Outward counter-clockwise triangles.
-
-    Notes
-    -----
-    The budget is split: curved profile edges get half of the tolerance and the facets around the axis
-    the other half (all of it when the profile is straight). Each planar trapezoid between two rings lies
-    within (ring sagitta) of the exact polygonal surface of revolution, which lies within the profile's chord
-    error of the true surface, so the two errors add at most to the tolerance [1]_.
-    """
-    curved = any(isinstance(seg, ProfileArc) for seg in profile)
-    profile_tol = 0.5 * chord_tolerance if curved else chord_tolerance
-    around_tol = chord_tolerance - profile_tol if curved else chord_tolerance
-    loop = _loop_points(profile, profile_tol)
-    r_max = float(loop[:, 0].max())
-    n = segments_for_arc(r_max, 2.0 * math.pi, around_tol)
-    theta = 2.0 * math.pi * np.arange(n) / n
-    cos_t, sin_t = np.cos(theta), np.sin(theta)
-
-    vertices: list[np.ndarray] = []
-    rings: list[np.ndarray] = []  # per loop point: vertex indices (n,) or a single axis index (1,)
-    count = 0
-    for r, z in loop:
-        if r == 0.0:
-            vertices.append(np.array([[0.0, 0.0, z]]))
-            rings.append(np.array([count]))
-            count += 1
-        else:
-            vertices.append(np.column_stack((r * cos_t, r * sin_t, np.full(n, z))))
-            rings.append(count + np.arange(n))
-            count += n
-
-    faces: list[np.ndarray] = []
-    k_count = len(loop)
-    for k in range(k_count):
-        ring_a, ring_b = rings[k], rings[(k + 1) % k_count]
-        if ring_a.size == 1 and ring_b.size == 1:
-            continue  # edge on the axis: interior, sweeps nothing
-        if ring_a.size == 1:
-            p = np.full(n, ring_a[0])
-            faces.append(np.column_stack((p, np.roll(ring_b, -1), ring_b)))
-        elif ring_b.size == 1:
-            q = np.full(n, ring_b[0])
-            faces.append(np.column_stack((ring_a, np.roll(ring_a, -1), q)))
-        else:
-            a, b = ring_a, np.roll(ring_a, -1)
-            c, d = np.roll(ring_b, -1), ring_b
-            faces.append(np.column_stack((a, b, c)))
-            faces.append(np.column_stack((a, c, d)))
-    return np.concatenate(vertices, axis=0), np.concatenate(faces, axis=0).astype(np.int64)
-
-
-def revolve_samples(profile: Sequence[ProfileSegment], n: int) -> np.ndarray:
-    """About `n` points evenly spread over the surface swept by a profile, rims and poles included.
-
-    Points are laid along each profile edge at a spacing h = sqrt(area / n) (edge end points included)
-    and each such point is swept into a ring of round(2π r / h) points (one point on the axis).
-
-    Returns
-    -------
-    (M, 3) float
-        m, solid frame, each point exactly on the surface (to rounding).
-    """
-    spacing = math.sqrt(profile_area(profile) / max(n, 1))
-    meridian = []
-    for seg in profile:
-        if seg.on_axis():
-            continue
-        meridian.append(seg.points(max(1, math.ceil(seg.length() / spacing))))
-    pts_2d = np.concatenate(meridian, axis=0)
-    out = []
-    for r, z in pts_2d:
-        m = max(3, round(2.0 * math.pi * r / spacing)) if r > 0.0 else 1
-        theta = 2.0 * math.pi * np.arange(m) / m
-        out.append(np.column_stack((r * np.cos(theta), r * np.sin(theta), np.full(m, z))))
-    return _unique_rows(np.concatenate(out, axis=0))
-
-
-def _unique_rows(points: np.ndarray) -> np.ndarray:
-    """Drop exact duplicate rows, keeping the first occurrence in order (deterministic)."""
-    _, index = np.unique(points, axis=0, return_index=True)
-    return points[np.sort(index)]
-
-
-# --------------------------------------------------------------------------------------------------
-# Planar polygons and prisms
-# --------------------------------------------------------------------------------------------------
-
-
-def signed_area(xy: np.ndarray) -> float:
-    """Shoelace signed area of a closed polygon (N, 2); positive when counter-clockwise."""
-    x, y = xy[:, 0], xy[:, 1]
-    return 0.5 * float(np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y))
-
-
-def drop_collinear(xy: np.ndarray, eps: float) -> np.ndarray:
-    """Remove vertices whose two edges are collinear and continue straight on (|cross| <= eps)."""
-    keep = []
-    n = len(xy)
-    for i in range(n):
-        prev, cur, nxt = xy[i - 1], xy[i], xy[(i + 1) % n]
-        d1, d2 = cur - prev, nxt - cur
-        cross = d1[0] * d2[1] - d1[1] * d2[0]
-        if abs(cross) > eps or float(np.dot(d1, d2)) < 0.0:
-            keep.append(i)
-    return xy[keep]
-
-
-def polygon_problem(xy: np.ndarray) -> str | None:
-    """Why a closed polygon (N >= 3, 2) is not simple, or None when it is.
-
-    Rejected, in this order: repeated corners (any two), all corners on one line, adjacent edges folding back
-    over each other, any pair of non-adjacent edges that cross or touch, zero area. Coincidence and
-    collinearity are judged with tolerances relative to the outline size (1e-12 of it, of its square for
-    areas).
-    """
-    n = len(xy)
-    scale = float(np.ptp(xy, axis=0).max())
-    gaps = np.linalg.norm(xy[:, None, :] - xy[None, :, :], axis=2)
-    i_idx, j_idx = np.triu_indices(n, k=1)
-    same = gaps[i_idx, j_idx] <= 1e-12 * max(scale, 1e-300)
-    if np.any(same):
-        i, j = int(i_idx[same][0]), int(j_idx[same][0])
-        return f"corners {i} and {j} coincide at ({xy[i, 0]:g}, {xy[i, 1]:g}) m"
-    eps = 1e-12 * scale * scale
-    centred = xy - xy.mean(axis=0)
-    if np.linalg.svd(centred, compute_uv=False)[-1] <= 1e-12 * scale:
-        return "the corners are collinear (the outline encloses no area)"
-    for k in range(n):
-        d1, d2 = xy[k] - xy[k - 1], xy[(k + 1) % n] - xy[k]
-        if abs(d1[0] * d2[1] - d1[1] * d2[0]) <= eps and float(np.dot(d1, d2)) < 0.0:
-            return f"the edges meeting at corner {k} fold back over each other"
-    ei, ej = np.triu_indices(n, k=2)
-    keep = ~((ei == 0) & (ej == n - 1))
-    ei, ej = ei[keep], ej[keep]
-    if len(ei):
-        start, end = xy, np.roll(xy, -1, axis=0)
-        hit = segments_intersect(start[ei], end[ei], start[ej], end[ej], eps)
-        if np.any(hit):
-            a, b = int(ei[hit][0]), int(ej[hit][0])
-            return f"edge {a}-{(a + 1) % n} meets edge {b}-{(b + 1) % n} (the outline must not cross itself)"
-    if abs(signed_area(xy)) <= eps:
-        return "the outline encloses no area"
-    return None
-
-
-def polygon_moments(xy: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
-    """Area, centroid and centroidal second moments of a counter-clockwise simple polygon.
-
-    Parameters
-    ----------
-    xy : (N, 2) float
-        Corners, counter-clockwise, m.
-
-    Returns
-    -------
-    area : float
-        m².
-    centroid : (2,) float
-        m.
-    second : (2, 2) float
-        [[S_xx, S_xy], [S_xy, S_yy]] with S_xx = ∫(x − x̄)² dA, S_xy = ∫(x − x̄)(y − ȳ) dA, m⁴.
-
-    Notes
-    -----
-    Green's-theorem (shoelace) sums, evaluated about the corner mean to limit cancellation, then shifted
-    to the centroid by the parallel-axis theorem.
-
-    References
-    ----------
-    .. [4] Steger, C. (1996). On the calculation of arbitrary moments of polygons. Technical report
-       FGBV-96-05, TU München.
-    """
-    ref = xy.mean(axis=0)
-    x, y = (xy - ref).T
-    x1, y1 = np.roll(x, -1), np.roll(y, -1)
-    c = x * y1 - x1 * y
-    area = 0.5 * float(np.sum(c))
-    cx = float(np.sum((x + x1) * c)) / 6.0 / area
-    cy = float(np.sum((y + y1) * c)) / 6.0 / area
-    sxx = float(np.sum((x * x + x * x1 + x1 * x1) * c)) / 12.0 - area * cx * cx
-    syy = float(np.sum((y * y + y * y1 + y1 * y1) * c)) / 12.0 - area * cy * cy
-    sxy = float(np.sum((x * y1 + 2.0 * x * y + 2.0 * x1 * y1 + x1 * y) * c)) / 24.0 - area * cx * cy
-    return area, np.array([cx, cy]) + ref, np.array([[sxx, sxy], [sxy, syy]])
-
-
-def point_in_polygon(points_xy: np.ndarray, polygon: np.ndarray) -> np.ndarray:
-    """Even-odd crossing test of points (N, 2) against a closed polygon (K, 2); boundary undefined."""
-    x, y = points_xy[:, 0:1], points_xy[:, 1:2]
-    x0, y0 = polygon[:, 0], polygon[:, 1]
-    x1, y1 = np.roll(x0, -1), np.roll(y0, -1)
-    straddle = (y0 > y) != (y1 > y)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        x_cross = x0 + (y - y0) * (x1 - x0) / (y1 - y0)
-    crossings = straddle & (x < x_cross)
-    return np.asarray(np.count_nonzero(crossings, axis=1) % 2 == 1)
-
-
-def distance_to_polygon_boundary(points_xy: np.ndarray, polygon: np.ndarray) -> np.ndarray:
-    """Euclidean distance from points (N, 2) to the edges of a closed polygon (K, 2), (N,)."""
-    a = polygon[None, :, :]
-    b = np.roll(polygon, -1, axis=0)[None, :, :]
-    p = points_xy[:, None, :]
-    ab = b - a
-    t = np.clip(np.sum((p - a) * ab, axis=2) / np.sum(ab * ab, axis=2), 0.0, 1.0)
-    nearest = a + t[:, :, None] * ab
-    return np.asarray(np.min(np.linalg.norm(p - nearest, axis=2), axis=1))
-
-
-def segments_intersect(
-    p1: np.ndarray, p2: np.ndarray, q1: np.ndarray, q2: np.ndarray, eps: float
-) -> np.ndarray:
-    """Whether closed segments p1p2 and q1q2 meet (touching counts), vectorised over rows (N, 2).
-
-    Orientation values with magnitude <= eps count as zero (collinear).
-    """
-
-    def orient(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
-        value = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
-        return np.where(np.abs(value) <= eps, 0.0, np.sign(value))
-
-    o1, o2 = orient(p1, p2, q1), orient(p1, p2, q2)
-    o3, o4 = orient(q1, q2, p1), orient(q1, q2, p2)
-    collinear = (o1 == 0.0) & (o2 == 0.0)
-    general = (o1 * o2 <= 0.0) & (o3 * o4 <= 0.0) & ~collinear
-    overlap = np.all(
-        (np.maximum(p1, p2) >= np.minimum(q1, q2)) & (np.maximum(q1, q2) >= np.minimum(p1, p2)), axis=1
-    )
-    return np.asarray(general | (collinear & overlap))
-
-
-def triangulate_polygon(xy: np.ndarray) -> np.ndarray:
-    """Ear-clipping triangulation of a simple counter-clockwise polygon without collinear vertices.
-
-    Parameters
-    ----------
-    xy : (N, 2) float
-        Vertices, counter-clockwise, N >= 3.
-
-    Returns
-    -------
-    (N - 2, 3) int
-        Counter-clockwise triangles as vertex indices.
-
-    References
-    ----------
-    .. [3] Meisters, G. H. (1975). Polygons have ears. American Mathematical Monthly 82(6), 648-651.
-    """
-    remaining = list(range(len(xy)))
-    scale = float(np.ptp(xy, axis=0).max())
-    eps = 1e-14 * scale * scale
-    triangles: list[tuple[int, int, int]] = []
-    while len(remaining) > 3:
-        m = len(remaining)
-        best, best_cross = -1, -math.inf
-        for pos in range(m):
-            i, j, k = remaining[pos - 1], remaining[pos], remaining[(pos + 1) % m]
-            a, b, c = xy[i], xy[j], xy[k]
-            cross = (b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0])
-            if cross <= eps:
-                continue  # reflex or flat corner: not an ear
-            idx = np.asarray(remaining)
-            others = idx[(idx != i) & (idx != j) & (idx != k)]
-            if len(others) and _any_in_triangle(xy[others], a, b, c, eps):
-                continue
-            best, best_cross = pos, cross
-            break
-        if best < 0:  # only reachable through rounding on nearly degenerate input: clip the widest corner
-            for pos in range(m):
-                i, j, k = remaining[pos - 1], remaining[pos], remaining[(pos + 1) % m]
-                a, b, c = xy[i], xy[j], xy[k]
-                cross = (b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0])
-                if cross > best_cross:
-                    best, best_cross = pos, cross
-        i, j, k = remaining[best - 1], remaining[best], remaining[(best + 1) % m]
-        triangles.append((i, j, k))
-        del remaining[best]
-    triangles.append((remaining[0], remaining[1], remaining[2]))
-    return np.asarray(triangles, dtype=np.int64)
-
-
-def _any_in_triangle(pts: np.ndarray, a: np.ndarray, b: np.ndarray, c: np.ndarray, eps: float) -> bool:
-    """Whether any point (N, 2) lies inside or on the counter-clockwise triangle abc."""
-
-    def side(p: np.ndarray, q: np.ndarray) -> np.ndarray:
-        return (q[0] - p[0]) * (pts[:, 1] - p[1]) - (q[1] - p[1]) * (pts[:, 0] - p[0])
-
-    return bool(np.any((side(a, b) >= -eps) & (side(b, c) >= -eps) & (side(c, a) >= -eps)))
-
-
-def prism_mesh(xy: np.ndarray, z0: float, z1: float) -> tuple[np.ndarray, np.ndarray]:
-    """Exact triangle mesh of a prism: counter-clockwise polygon (N, 2) swept from z0 to z1 (z1 > z0).
-
-    Returns
-    -------
-    vertices : (2N, 3) float
-        Bottom ring then top ring, m.
-    faces : (F, 3) int
-        Outward counter-clockwise triangles.
-    """
-    n = len(xy)
-    vertices = np.vstack((np.column_stack((xy, np.full(n, z0))), np.column_stack((xy, np.full(n, z1)))))
-    cap = triangulate_polygon(xy)
-    bottom = cap[:, ::-1]  # normal −z
-    top = cap + n  # normal +z
-    i = np.arange(n)
-    j = np.roll(i, -1)
-    sides = np.vstack((np.column_stack((i, j, j + n)), np.column_stack((i, j + n, i + n))))
-    return vertices, np.vstack((bottom, top, sides)).astype(np.int64)
-
-
-def prism_samples(xy: np.ndarray, z0: float, z1: float, n: int) -> np.ndarray:
-    """About `n` points spread over a prism's surface, corners and edges included.
-
-    The outline is sampled at a spacing h = sqrt(area / n) with every vertex kept; the side walls get
-    these points at z levels spaced <= h (z0 and z1 included); each cap adds the points of a square grid
-    of pitch h that fall strictly inside the polygon.
-
-    Returns
-    -------
-    (M, 3) float
-        m, prism frame, on the surface.
-    """
-    perimeter = float(np.sum(np.linalg.norm(np.roll(xy, -1, axis=0) - xy, axis=1)))
-    cap_area = abs(signed_area(xy))
-    height = z1 - z0
-    spacing = math.sqrt((2.0 * cap_area + perimeter * height) / max(n, 1))
-    outline = []
-    for k in range(len(xy)):
-        a, b = xy[k], xy[(k + 1) % len(xy)]
-        count = max(1, math.ceil(float(np.linalg.norm(b - a)) / spacing))
-        t = np.arange(count)[:, None] / count
-        outline.append(a + t * (b - a))
-    ring = np.concatenate(outline, axis=0)
-    z_levels = np.linspace(z0, z1, max(2, math.ceil(height / spacing) + 1))
-    walls = np.column_stack((np.tile(ring, (len(z_levels), 1)), np.repeat(z_levels, len(ring))))
-    lo, hi = xy.min(axis=0), xy.max(axis=0)
-    gx = np.arange(lo[0] + 0.5 * spacing, hi[0], spacing)
-    gy = np.arange(lo[1] + 0.5 * spacing, hi[1], spacing)
-    grid = np.array(np.meshgrid(gx, gy, indexing="ij")).reshape(2, -1).T
-    if len(grid):
-        inside = point_in_polygon(grid, xy) & (distance_to_polygon_boundary(grid, xy) > 1e-6 * spacing)
-        grid = grid[inside]
-    caps = np.vstack(
-        (np.column_stack((grid, np.full(len(grid), z0))), np.column_stack((grid, np.full(len(grid), z1))))
-    )
-    return _unique_rows(np.vstack((walls, caps)))
-
-
-# --------------------------------------------------------------------------------------------------
-# Realisation of each primitive kind (dispatch on `shape.kind`; frames as documented in massmodel.core.shapes)
-# --------------------------------------------------------------------------------------------------
-
-
-def _lines(corners: list[tuple[float, float]]) -> list[ProfileSegment]:
-    return [ProfileLine(corners[i], corners[(i + 1) % len(corners)]) for i in range(len(corners))]
-
-
-def meridian_profile(shape: Shape) -> list[ProfileSegment] | None:
-    """Closed counter-clockwise (r, z) profile of a solid of revolution about local z, else None."""
-    s: Any = shape
-    half_turn = 0.5 * math.pi
-    if s.kind == "cylinder":
-        h = 0.5 * s.length
-        return _lines([(0.0, -h), (s.radius, -h), (s.radius, h), (0.0, h)])
-    if s.kind == "tube":
-        h = 0.5 * s.length
-        return _lines([(s.inner_radius, -h), (s.outer_radius, -h), (s.outer_radius, h), (s.inner_radius, h)])
-    if s.kind == "cone":
-        return _lines([(0.0, 0.0), (s.radius, 0.0), (0.0, s.height)])
-    if s.kind == "frustum":
-        return _lines([(0.0, 0.0), (s.base_radius, 0.0), (s.top_radius, s.height), (0.0, s.height)])
-    if s.kind == "sphere":
-        return [
-            arc((0.0, 0.0), s.radius, -half_turn, half_turn),
-            ProfileLine((0.0, s.radius), (0.0, -s.radius)),
-        ]
-    if s.kind == "spherical_shell":
-        ro, ri = s.outer_radius, s.inner_radius
-        return [
-            arc((0.0, 0.0), ro, -half_turn, half_turn),
-            ProfileLine((0.0, ro), (0.0, ri)),
-            arc((0.0, 0.0), ri, half_turn, -half_turn),
-            ProfileLine((0.0, -ri), (0.0, -ro)),
-        ]
-    if s.kind == "hemisphere":
-        r = s.radius
-        return [
-            ProfileLine((0.0, 0.0), (r, 0.0)),
-            arc((0.0, 0.0), r, 0.0, half_turn),
-            ProfileLine((0.0, r), (0.0, 0.0)),
-        ]
-    if s.kind == "torus":
-        return [arc((s.ring_radius, 0.0), s.tube_radius, -math.pi, math.pi)]
-    return None
-
-
-def prism_outline(shape: Shape) -> tuple[np.ndarray, float, float] | None:
-    """(counter-clockwise outline (N, 2) without collinear corners, z0, z1) of a prism-like solid, else None."""
-    s: Any = shape
-    if s.kind == "box":
-        hx, hy, hz = 0.5 * s.size_x, 0.5 * s.size_y, 0.5 * s.size_z
-        return np.array([[-hx, -hy], [hx, -hy], [hx, hy], [-hx, hy]]), -hz, hz
-    if s.kind == "wedge":
-        return np.array([[0.0, 0.0], [s.leg_x, 0.0], [0.0, s.leg_y]]), 0.0, s.length
-    if s.kind == "extrusion":
-        xy = s.outline_ccw()
-        scale = float(np.ptp(xy, axis=0).max())
-        return drop_collinear(xy, 1e-13 * scale * scale), 0.0, s.thickness
-    return None
-
-
-def _unit_sphere_profile() -> list[ProfileSegment]:
-    return [arc((0.0, 0.0), 1.0, -0.5 * math.pi, 0.5 * math.pi), ProfileLine((0.0, 1.0), (0.0, -1.0))]
-
-
-def surface_samples(shape: Shape, n: int) -> np.ndarray:
-    """About `n` deterministic points on the surface of `shape`, (M, 3) float, m, shape frame."""
-    profile = meridian_profile(shape)
-    if profile is not None:
-        return revolve_samples(profile, n)
-    prism = prism_outline(shape)
-    if prism is not None:
-        return prism_samples(prism[0], prism[1], prism[2], n)
-    if shape.kind == "ellipsoid":
-        return revolve_samples(_unit_sphere_profile(), n) * np.asarray(shape.semi_axes())  # type: ignore[attr-defined]
-    raise TypeError(f"no surface sampler for kind {shape.kind!r}")
-
-
-def mesh_arrays(shape: Shape, chord_tolerance: float) -> tuple[np.ndarray, np.ndarray]:
-    """(vertices (V, 3) m, faces (F, 3)) of a watertight outward mesh within `chord_tolerance` (m)."""
-    profile = meridian_profile(shape)
-    if profile is not None:
-        return revolve_mesh(profile, chord_tolerance)
-    prism = prism_outline(shape)
-    if prism is not None:
-        return prism_mesh(prism[0], prism[1], prism[2])
-    if shape.kind == "ellipsoid":
-        # A point within e of the unit sphere maps within max(s)·e of the ellipsoid (linear map of norm max s).
-        semi = np.asarray(shape.semi_axes())  # type: ignore[attr-defined]
-        vertices, faces = revolve_mesh(_unit_sphere_profile(), chord_tolerance / float(semi.max()))
-        return vertices * semi, faces
-    raise TypeError(f"no mesher for kind {shape.kind!r}")
-
-
-def cad_solid_mm(shape: Shape) -> Any:
-    """cadquery solid of `shape` in millimetres (coordinates = metres × 1000), shape frame.
+from massmodel.core.shapes import (
+    Box,
+    Cone,
+    Cylinder,
+    Ellipsoid,
+    Frustum,
+    Hemisphere,
+    PointMass,
+    PrismShape,
+    Shape,
+    Sphere,
+    SphericalShell,
+    Torus,
+    Tube,
+)
+
+__all__ = ["MM_PER_M", "make_trimesh", "to_mesh", "to_solid"]
+
+#: CAD solids are built in millimetres.
+MM_PER_M = 1000.0
+
+
+@functools.singledispatch
+def to_solid(shape: Any) -> Any:
+    """CAD solid (cadquery) of a shape in MILLIMETRES (coordinates = metres × 1000), shape frame.
 
     Exact B-rep primitives where the kernel has them (box, cylinder, cone, sphere, torus), an extruded
     outline for prisms, a boolean difference for the spherical shell, and an affinely mapped sphere (NURBS)
     for the ellipsoid.
-    """
-    import cadquery as cq
 
-    s: Any = shape
-    mm = 1000.0
-    if s.kind == "box":
-        a, b, c = mm * s.size_x, mm * s.size_y, mm * s.size_z
-        return cq.Solid.makeBox(a, b, c, pnt=cq.Vector(-a / 2.0, -b / 2.0, -c / 2.0))
-    if s.kind == "cylinder":
-        return cq.Solid.makeCylinder(
-            mm * s.radius, mm * s.length, pnt=cq.Vector(0.0, 0.0, -mm * s.length / 2.0)
-        )
-    if s.kind == "tube":
-        wp = cq.Workplane("XY", origin=(0.0, 0.0, -mm * s.length / 2.0))
-        return wp.circle(mm * s.outer_radius).circle(mm * s.inner_radius).extrude(mm * s.length).val()
-    if s.kind == "sphere":
-        return _cad_sphere_mm(s.radius)
-    if s.kind == "spherical_shell":
-        solids = _cad_sphere_mm(s.outer_radius).cut(_cad_sphere_mm(s.inner_radius)).Solids()
-        if len(solids) != 1:
-            raise RuntimeError(f"boolean cut gave {len(solids)} solids instead of one")
-        return solids[0]
-    if s.kind == "hemisphere":  # latitude 0..90 degrees: the upper half, z >= 0
-        return cq.Solid.makeSphere(mm * s.radius, angleDegrees1=0.0, angleDegrees2=90.0, angleDegrees3=360.0)
-    if s.kind == "cone":
-        return cq.Solid.makeCone(mm * s.radius, 0.0, mm * s.height)
-    if s.kind == "frustum":
-        if s.base_radius == s.top_radius:  # the kernel refuses a cone with two equal radii: it is a cylinder
-            return cq.Solid.makeCylinder(mm * s.base_radius, mm * s.height)
-        return cq.Solid.makeCone(mm * s.base_radius, mm * s.top_radius, mm * s.height)
-    if s.kind == "torus":
-        return cq.Solid.makeTorus(mm * s.ring_radius, mm * s.tube_radius)
-    if s.kind == "ellipsoid":
-        return _cad_ellipsoid_mm(tuple(s.semi_axes()))
-    prism = prism_outline(shape)
-    if prism is not None:
-        xy, z0, z1 = prism
-        pts = [(mm * float(x), mm * float(y)) for x, y in xy]
-        return (
-            cq.Workplane("XY", origin=(0.0, 0.0, mm * z0)).polyline(pts).close().extrude(mm * (z1 - z0)).val()
-        )
-    raise TypeError(f"no CAD builder for kind {shape.kind!r}")
+    Parameters
+    ----------
+    shape : Shape, or a registered shape type (e.g. `massmodel.cad.imported.StepShape`)
+
+    Returns
+    -------
+    cadquery.Solid
+        mm, shape frame.
+
+    Raises
+    ------
+    TypeError
+        No CAD builder is registered for the shape's type.
+    """
+    raise TypeError(f"no CAD builder for {type(shape).__name__} (kind {getattr(shape, 'kind', '?')!r})")
+
+
+@functools.singledispatch
+def to_mesh(shape: Any, chord_tolerance: float, **options: Any) -> Any:
+    """Watertight triangle mesh (trimesh) of a shape, in METRES, shape frame.
+
+    The default for every `Shape` wraps `shape.mesh_arrays(chord_tolerance, **options)` (e.g. `marker_radius`
+    for a point mass) without merging or reordering; other shape types register their own.
+
+    Parameters
+    ----------
+    shape : Shape or a registered shape type
+    chord_tolerance : float
+        Largest distance between the mesh and the exact surface, m, > 0.
+
+    Returns
+    -------
+    trimesh.Trimesh
+    """
+    if not isinstance(shape, Shape):
+        raise TypeError(f"no mesher for {type(shape).__name__} (kind {getattr(shape, 'kind', '?')!r})")
+    return make_trimesh(*shape.mesh_arrays(chord_tolerance, **options))
 
 
 def make_trimesh(vertices: np.ndarray, faces: np.ndarray) -> Any:
@@ -708,16 +95,87 @@ def make_trimesh(vertices: np.ndarray, faces: np.ndarray) -> Any:
     return trimesh.Trimesh(vertices=vertices, faces=faces, process=False)
 
 
-def _cad_sphere_mm(radius_m: float) -> Any:
-    """Full CAD sphere (mm) centred on the origin (cadquery's default latitude range is a half sphere)."""
+@to_solid.register
+def _box(s: Box) -> Any:
     import cadquery as cq
 
-    return cq.Solid.makeSphere(
-        1000.0 * radius_m, angleDegrees1=-90.0, angleDegrees2=90.0, angleDegrees3=360.0
+    a, b, c = MM_PER_M * s.size_x, MM_PER_M * s.size_y, MM_PER_M * s.size_z
+    return cq.Solid.makeBox(a, b, c, pnt=cq.Vector(-a / 2.0, -b / 2.0, -c / 2.0))
+
+
+@to_solid.register
+def _prism(s: PrismShape) -> Any:
+    import cadquery as cq
+
+    xy, z0, z1 = s.prism_outline()
+    pts = [(MM_PER_M * float(x), MM_PER_M * float(y)) for x, y in xy]
+    wp = cq.Workplane("XY", origin=(0.0, 0.0, MM_PER_M * z0))
+    return wp.polyline(pts).close().extrude(MM_PER_M * (z1 - z0)).val()
+
+
+@to_solid.register
+def _cylinder(s: Cylinder) -> Any:
+    import cadquery as cq
+
+    return cq.Solid.makeCylinder(
+        MM_PER_M * s.radius, MM_PER_M * s.length, pnt=cq.Vector(0.0, 0.0, -MM_PER_M * s.length / 2.0)
     )
 
 
-def _cad_ellipsoid_mm(semi_axes_m: tuple[float, float, float]) -> Any:
+@to_solid.register
+def _tube(s: Tube) -> Any:
+    import cadquery as cq
+
+    wp = cq.Workplane("XY", origin=(0.0, 0.0, -MM_PER_M * s.length / 2.0))
+    return wp.circle(MM_PER_M * s.outer_radius).circle(MM_PER_M * s.inner_radius).extrude(MM_PER_M * s.length).val()
+
+
+@to_solid.register
+def _sphere(s: Sphere) -> Any:
+    return _cad_sphere_mm(s.radius)
+
+
+@to_solid.register
+def _spherical_shell(s: SphericalShell) -> Any:
+    solids = _cad_sphere_mm(s.outer_radius).cut(_cad_sphere_mm(s.inner_radius)).Solids()
+    if len(solids) != 1:
+        raise RuntimeError(f"boolean cut gave {len(solids)} solids instead of one")
+    return solids[0]
+
+
+@to_solid.register
+def _hemisphere(s: Hemisphere) -> Any:
+    import cadquery as cq
+
+    # latitude 0..90 degrees: the upper half, z >= 0
+    return cq.Solid.makeSphere(MM_PER_M * s.radius, angleDegrees1=0.0, angleDegrees2=90.0, angleDegrees3=360.0)
+
+
+@to_solid.register
+def _cone(s: Cone) -> Any:
+    import cadquery as cq
+
+    return cq.Solid.makeCone(MM_PER_M * s.radius, 0.0, MM_PER_M * s.height)
+
+
+@to_solid.register
+def _frustum(s: Frustum) -> Any:
+    import cadquery as cq
+
+    if s.base_radius == s.top_radius:  # the kernel refuses a cone with two equal radii: it is a cylinder
+        return cq.Solid.makeCylinder(MM_PER_M * s.base_radius, MM_PER_M * s.height)
+    return cq.Solid.makeCone(MM_PER_M * s.base_radius, MM_PER_M * s.top_radius, MM_PER_M * s.height)
+
+
+@to_solid.register
+def _torus(s: Torus) -> Any:
+    import cadquery as cq
+
+    return cq.Solid.makeTorus(MM_PER_M * s.ring_radius, MM_PER_M * s.tube_radius)
+
+
+@to_solid.register
+def _ellipsoid(s: Ellipsoid) -> Any:
     """CAD ellipsoid (mm): unit sphere under the affine map diag(semi-axes), through OCP GTransform.
 
     The kernel has no ellipsoid primitive, so the result is a NURBS solid; its mass properties need the
@@ -727,8 +185,23 @@ def _cad_ellipsoid_mm(semi_axes_m: tuple[float, float, float]) -> Any:
     from OCP.BRepBuilderAPI import BRepBuilderAPI_GTransform
     from OCP.gp import gp_GTrsf, gp_Mat
 
-    a, b, c = (1000.0 * float(v) for v in semi_axes_m)
+    a, b, c = (MM_PER_M * float(v) for v in s.semi_axes())
     transform = gp_GTrsf()
     transform.SetVectorialPart(gp_Mat(a, 0.0, 0.0, 0.0, b, 0.0, 0.0, 0.0, c))
     shape = BRepBuilderAPI_GTransform(_cad_sphere_mm(1e-3).wrapped, transform, True).Shape()
     return cq.Shape.cast(shape)
+
+
+@to_solid.register
+def _point(s: PointMass, marker_radius: float = 0.01) -> Any:
+    """Display marker: a CAD sphere of `marker_radius` (m), in millimetres."""
+    return to_solid(s.marker(marker_radius))
+
+
+def _cad_sphere_mm(radius_m: float) -> Any:
+    """Full CAD sphere (mm) centred on the origin (cadquery's default latitude range is a half sphere)."""
+    import cadquery as cq
+
+    return cq.Solid.makeSphere(
+        MM_PER_M * radius_m, angleDegrees1=-90.0, angleDegrees2=90.0, angleDegrees3=360.0
+    )

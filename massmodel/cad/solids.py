@@ -32,8 +32,10 @@ from OCP.TopExp import TopExp_Explorer
 from OCP.TopLoc import TopLoc_Location
 from OCP.TopoDS import TopoDS
 
+from massmodel.cad.primitives import to_mesh, to_solid
 from massmodel.core.frames import Pose
 from massmodel.core.model import Component, Slot
+from massmodel.core.shapes import PointMass
 
 __all__ = [
     "MM_PER_M",
@@ -172,9 +174,9 @@ def _part_frame_solid(component: Component, cache: dict[Any, Any] | None) -> Any
     key = ("solid", id(component.shape), id(component.cutouts))
     solid = cache.get(key) if cache is not None else None
     if solid is None:
-        solid = component.shape.to_solid()
+        solid = to_solid(component.shape)
         for cut in component.cutouts:
-            solid = solid.cut(place_solid(cut.shape.to_solid(), cut.pose))
+            solid = solid.cut(place_solid(to_solid(cut.shape), cut.pose))
         if cache is not None:
             cache[key] = solid
             cache[("keep",) + key] = (component.shape, component.cutouts)  # keeps the ids valid while cached
@@ -182,7 +184,7 @@ def _part_frame_solid(component: Component, cache: dict[Any, Any] | None) -> Any
 
 
 def _no_solid_reason(component: Component) -> str:
-    if component.shape.kind == "point":
+    if isinstance(component.shape, PointMass):
         return "a point mass"
     return "an open mesh, for display only"
 
@@ -198,7 +200,7 @@ def component_solid(component: Component) -> Any:
 
 def slot_solid(slot: Slot) -> Any:
     """The slot's envelope solid in mm, model frame."""
-    return place_solid(slot.shape.to_solid(), slot.pose)
+    return place_solid(to_solid(slot.shape), slot.pose)
 
 
 def _needs_adaptive(shape: Any) -> bool:
@@ -304,7 +306,7 @@ def component_local_mesh(component: Component, chord_m: float, cache: dict[Any, 
     """Watertight triangle mesh of the component in its part frame (mirror baked in, as
     :func:`component_local_solid`), in METRES.
 
-    A shape without cut-outs uses its own mesher (``shape.to_mesh``: closed form for primitives, OpenCascade for a
+    A shape without cut-outs uses its own mesher (``to_mesh(shape)``: closed form for primitives, OpenCascade for a
     STEP shape, the file's triangles for a mesh); otherwise the B-rep solid with its cut-outs is triangulated by
     OpenCascade at the same absolute chord tolerance.
 
@@ -328,7 +330,7 @@ def component_local_mesh(component: Component, chord_m: float, cache: dict[Any, 
     base = cache.get(key) if cache is not None else None
     if base is None:
         if not component.cutouts:
-            mesh = component.shape.to_mesh(chord_m)
+            mesh = to_mesh(component.shape, chord_m)
             base = trimesh.Trimesh(vertices=np.asarray(mesh.vertices, dtype=float),
                                    faces=np.asarray(mesh.faces, dtype=np.int64), process=True)
         else:

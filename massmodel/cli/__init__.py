@@ -1,9 +1,12 @@
 """The ``massmodel`` command line: a thin layer over the library.
 
 Each command group lives in a module of this package exposing ``register(subparsers)``; :data:`COMMAND_MODULES`
-lists them explicitly, in the order their commands appear in ``--help``, and they are imported when the parser is built, while heavy libraries (cadquery, pyvista) load
-only inside the command that needs them. User mistakes print one clear line and exit 2; set ``MASSMODEL_DEBUG=1`` to
-see the traceback.
+lists them explicitly, in the order their commands appear in ``--help``, and they are imported when the parser is
+built, while heavy libraries (cadquery, pyvista) load only inside the command that needs them. User mistakes print one
+clear line and exit 2; set ``MASSMODEL_DEBUG=1`` to see the traceback.
+
+May import: every layer below it (core up to pictures and page); never :mod:`massmodel.notebook`, its sibling at the top.
+Nothing in the library imports it (only ``massmodel/__main__.py``).
 """
 
 from __future__ import annotations

@@ -431,8 +431,9 @@ def _place(args: argparse.Namespace) -> int:
 def _check_load_cases(path: Path, overrides: dict[str, str]) -> bool:
     """The placement works on the model as loaded; the rules may also apply in other load cases (less fuel, ...).
     Check the ballasted model in every case its rules apply in (nominal densities) and say which fail."""
-    from massmodel.core.loadcases import check_rules_in_cases
     from massmodel.modelfile.loader import load_case_models
+    from massmodel.report.rules import rule_limit_text
+    from massmodel.vehicle.balance import check_rules_in_cases
 
     models = load_case_models(path, overrides=overrides)
     if len(models) < 2:
@@ -442,7 +443,7 @@ def _check_load_cases(path: Path, overrides: dict[str, str]) -> bool:
     print(f"rules of the ballasted model in every load case ({', '.join(models)}; nominal densities): "
           + ("all pass" if not failing else f"{len(failing)} FAIL"))
     for case, r in failing:
-        print(f"  FAIL in '{case}': {r.name}: {r.value:.4g} {r.unit}, limit {r.limit} {r.unit}, "
+        print(f"  FAIL in '{case}': {r.name}: {r.value:.4g} {r.unit}, limit {rule_limit_text(r)}, "
               f"margin {r.margin:+.4g} {r.unit}")
     return not failing
 

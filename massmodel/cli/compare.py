@@ -177,7 +177,7 @@ def _load_estimate(args: argparse.Namespace, model: Any) -> Any:
 
 
 def _run(args: argparse.Namespace) -> int:
-    from massmodel.compare.check import check_estimate
+    from massmodel.compare.crosscheck import check_estimate
     from massmodel.report.summary import write_json_atomic
 
     tol = _tolerances(args)
@@ -262,7 +262,7 @@ def _side_by_side(raw: Any, corrected: Any) -> list[str]:
 
 
 def format_check(result: Any, inertia_mm: bool = False, details: bool = False) -> str:
-    """Readable text of an :class:`massmodel.compare.check.EstimateCheck` (every item in detail with ``details``)."""
+    """Readable text of an :class:`massmodel.compare.crosscheck.EstimateCheck` (every item in detail with ``details``)."""
     from massmodel.report.summary import table
 
     est = result.estimate

@@ -187,7 +187,8 @@ def _report_cases(args: argparse.Namespace) -> int:
 
 
 def _check(args: argparse.Namespace) -> int:
-    from massmodel.core.loadcases import check_rules_in_cases
+    from massmodel.report.rules import rule_limit_text
+    from massmodel.vehicle.balance import check_rules_in_cases
 
     models = load_cases_from_args(args)
     model = next(iter(models.values()))
@@ -198,7 +199,7 @@ def _check(args: argparse.Namespace) -> int:
           f"{len(model.slots)} slots{cases} · {len(results)} rule checks ({len(failed)} failing)")
     for case, r in failed:
         where = f" [{case}]" if len(models) > 1 else ""
-        print(f"  FAIL{where} {r.name}: {r.value:.4g} {r.unit}, limit {r.limit} {r.unit}, margin {r.margin:+.4g} {r.unit}")
+        print(f"  FAIL{where} {r.name}: {r.value:.4g} {r.unit}, limit {rule_limit_text(r)}, margin {r.margin:+.4g} {r.unit}")
     return 0
 
 

@@ -67,7 +67,8 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 def _run(args: argparse.Namespace) -> int:
     from massmodel.report.summary import write_json_atomic
-    from massmodel.vehicle.transfer import Condition, build_transfer_report, format_transfer_report
+    from massmodel.report.transfer import format_transfer_report
+    from massmodel.vehicle.transfer import Condition, build_transfer_report
 
     if not args.conditions:
         raise ValueError("give at least one of --brake, --drive, --corner or --accel")

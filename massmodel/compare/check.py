@@ -24,6 +24,8 @@ Checks, each a ratio of the difference to its tolerance (an item passes when eve
 Default tolerances are common practice for a mass model against a CAD estimate, no source: 1 % mass, 5 mm CG,
 2 % of the largest moment for each tensor term, 2 % for each principal moment, 3° between principal axes, which are
 not compared for moments within 5 % of the largest moment of each other.
+
+The whole job (comparison plus diagnosis of a failure) is :func:`massmodel.compare.crosscheck.check_estimate`.
 """
 
 from __future__ import annotations
@@ -51,10 +53,6 @@ __all__ = [
     "compare",
     "compare_item",
     "model_side",
-    "check_estimate",
-    "EstimateCheck",
-    "CHECK_FORMAT",
-    "FRAME",
 ]
 
 FloatArray = npt.NDArray[np.float64]
@@ -373,77 +371,3 @@ def _item_dict(it: ItemComparison) -> dict[str, Any]:
         "principal_axis_note": it.axis_note,
         "ratio_to_tolerance": {name: tol[name] for name in CHECKS},
     }
-
-
-FRAME = ("model axes and model origin; each tensor about its item's CG with axes parallel to the model axes; "
-         "off-diagonal I_xy = -integral(x*y dm) (tensor / negative product convention); differences are "
-         "estimate - model")
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class EstimateCheck:
-    """The whole job: the comparison as declared and, when it fails, the diagnosis (see :mod:`massmodel.compare.diagnose`).
-
-    ``passed`` is the comparison *as declared*: an explained mix-up still fails, since the file is wrong as it
-    stands.
-    """
-
-    model: Model
-    estimate: Estimate
-    selection: str
-    as_declared: Comparison
-    diagnosis: Any  # Diagnosis or None
-
-    @property
-    def passed(self) -> bool:
-        return self.as_declared.passed
-
-    @property
-    def cautions(self) -> list[str]:
-        """The general caution, and the ballast one when the compared parts include ballast in a slot."""
-        from massmodel.core import cautions
-
-        ballast = any(c.slot for c in self.model.select([self.selection]))
-        return cautions.for_report("ballast") if ballast else cautions.for_report()
-
-    def to_dict(self) -> dict[str, Any]:
-        """JSON-ready (SI, units in the keys)."""
-        est = self.estimate
-        return {
-            "format": CHECK_FORMAT,
-            "model": self.model.name,
-            "model_source": self.model.source,
-            "selection": self.selection or WHOLE,
-            "estimate": {"source": est.source, "kind": est.kind, "description": est.description,
-                         "declared": est.conventions.to_dict(), "open_to_doubt": sorted(est.doubtful),
-                         "notes": list(est.notes)},
-            "frame": FRAME,
-            "tolerances": self.as_declared.tolerances.to_dict(),
-            "passed": self.passed,
-            "as_declared": self.as_declared.to_dict(),
-            "diagnosis": None if self.diagnosis is None else self.diagnosis.to_dict(),
-            "cautions": self.cautions,
-        }
-
-
-#: Format tag of the JSON output of :meth:`EstimateCheck.to_dict`.
-CHECK_FORMAT = "massmodel-crossweigh/1"
-
-
-def check_estimate(model: Model, estimate: Estimate, selection: str = "", tol: Tolerances | None = None,
-                   *, diagnose_failures: bool = True, pairs: bool = True) -> EstimateCheck:
-    """Compare the model (or its group ``selection``) with an estimate; diagnose a failure.
-
-    Raises
-    ------
-    EstimateError, ValueError
-        For items or a selection naming nothing in the model, and impossible tensors as declared.
-    """
-    from .diagnose import diagnose
-    from .estimate import normalise
-
-    tol = tol or Tolerances()
-    model_props = model_side(model, estimate, selection)
-    raw = compare(estimate.groups, model_props, normalise(estimate), tol)
-    diagnosis = diagnose(estimate, model_props, raw, tol, pairs=pairs) if diagnose_failures and not raw.passed else None
-    return EstimateCheck(model, estimate, selection, raw, diagnosis)

@@ -11,23 +11,19 @@ The model as the file describes it, with no case, is the case named ``"base"`` (
 every case whose ``general_rules`` is true. The model-file syntax is in docs/modelfile.md ("Load cases").
 
 This module holds the plain data and the selection rules; the file loader (:mod:`massmodel.modelfile.loader`) builds one
-:class:`~massmodel.core.model.Model` per case with them, and :func:`check_rules_in_cases` evaluates every rule in its case.
+:class:`~massmodel.core.model.Model` per case with them, and :func:`massmodel.vehicle.balance.check_rules_in_cases`
+evaluates every rule in its case. It imports no other model module (the model refers to its load cases).
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import Protocol
 
-from .model import Rule, in_group
+from .groups import in_group
 
-if TYPE_CHECKING:
-    from massmodel.vehicle.balance import RuleResult
-
-    from .model import Model
-
-__all__ = ["BASE_CASE", "LoadCase", "case_includes", "rule_applies", "check_rules_in_cases"]
+__all__ = ["BASE_CASE", "LoadCase", "case_includes", "rule_applies"]
 
 BASE_CASE = "base"
 
@@ -81,7 +77,14 @@ def case_includes(path: str, optional: bool, case: LoadCase | None) -> bool:
     return not optional or any(in_group(path, g) for g in case.switch_on)
 
 
-def rule_applies(rule: Rule, case: LoadCase | None) -> bool:
+class _CaseBound(Protocol):
+    """Anything limited to some load cases (a `massmodel.core.model.Rule`): the case names, empty for all."""
+
+    @property
+    def cases(self) -> tuple[str, ...]: ...
+
+
+def rule_applies(rule: _CaseBound, case: LoadCase | None) -> bool:
     """Whether ``rule`` is checked in ``case`` (None: the base model)."""
     name = BASE_CASE if case is None else case.name
     if rule.cases:
@@ -114,21 +117,3 @@ def check_cases(cases: Sequence[LoadCase], paths: Iterable[str], optional: Itera
                                                 "with optional = true to switch it on only in some cases"))
     return problems
 
-
-def check_rules_in_cases(models: Mapping[str, Model]) -> list[tuple[str, RuleResult]]:
-    """Evaluate every rule in each case it applies in.
-
-    Parameters
-    ----------
-    models : mapping of str to Model
-        Case name → the model of that case (as given by :func:`massmodel.modelfile.loader.load_case_models`); each model
-        holds only the rules that apply in its case.
-
-    Returns
-    -------
-    list of (str, RuleResult)
-        Case name and result, cases in the order given, rules in file order.
-    """
-    from massmodel.vehicle.balance import check_rules
-
-    return [(name, result) for name, model in models.items() for result in check_rules(model)]

@@ -12,16 +12,15 @@ import enum
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
 from .frames import Pose
+from .groups import in_group
+from .loadcases import LoadCase
 from .massprops import MassProperties, combine_arrays, parallel_axis_shift, validate_inertia
-
-if TYPE_CHECKING:
-    from .loadcases import LoadCase
 
 __all__ = [
     "Maturity",
@@ -223,11 +222,6 @@ class Component:
 def group_of(path: str) -> str:
     """Parent path of a part path ('' at top level)."""
     return path.rpartition("/")[0]
-
-
-def in_group(path: str, group: str) -> bool:
-    """Whether ``path`` lies in ``group`` (a path prefix on '/' boundaries; '' contains everything)."""
-    return group == "" or path == group or path.startswith(group + "/")
 
 
 @dataclass(frozen=True, slots=True, eq=False)

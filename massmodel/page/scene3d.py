@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core.model import Model
+from massmodel.core.shapes import PointMass
 from massmodel.pictures.scene import (
     CG_COLOUR,
     INK,
@@ -108,7 +109,7 @@ def scene_payload(model: Model, chord_tolerance: float = 0.002) -> tuple[dict[st
     -------
     (dict, list of ViewGroup) or None
     """
-    if not any(c.shape.kind != "point" for c in model.components):
+    if all(isinstance(c.shape, PointMass) for c in model.components):
         return None
     scene = build_scene(model, SceneOptions(chord_tolerance=chord_tolerance, group_cgs=False, labels=False))
     groups = view_groups(scene)

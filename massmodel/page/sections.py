@@ -15,6 +15,7 @@ import numpy as np
 
 from massmodel.core import cautions
 from massmodel.page.html import chip, esc, num, table, tile
+from massmodel.report.rules import dict_limit_text
 
 __all__ = ["PageInputs", "Section", "SECTION_BUILDERS", "summary_line"]
 
@@ -70,8 +71,7 @@ def _rules(inputs: PageInputs) -> list[tuple[str, dict[str, Any]]]:
 
 
 def _limit_text(rule: dict[str, Any]) -> str:
-    limit = rule.get("limit")
-    return esc(limit) if isinstance(limit, str) else esc(str(limit))
+    return esc(dict_limit_text(rule))
 
 
 def summary_line(inputs: PageInputs) -> str:

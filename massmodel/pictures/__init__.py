@@ -2,5 +2,6 @@
 
 VTK/pyvista and matplotlib are imported inside the functions that need them.
 
-May import: everything but :mod:`massmodel.cli`.
+May import: every layer below it (core up to report); never :mod:`massmodel.page`, :mod:`massmodel.cli`
+or :mod:`massmodel.notebook`.
 """

@@ -28,6 +28,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.model import Model, RuleCheck
+from massmodel.core.shapes import PointMass
 
 from .scene import CG_COLOUR, INK, PALETTE, group_key
 from .sheet import write_png_atomic
@@ -126,17 +127,15 @@ def _hull(points: FloatArray) -> FloatArray:
 
 def _side_outlines(model: Model, chord: float = 0.01) -> list[tuple[str, FloatArray]]:
     """(top-level group, hull (K, 2) in (station, height above ground)) of every part with a volume."""
-    from massmodel.cad.primitives import mesh_arrays
-
     v = model.vehicle
     assert v is not None
     out = []
     cache: dict[Any, FloatArray] = {}
     for c in model.components:
-        if c.shape.kind == "point":
+        if isinstance(c.shape, PointMass):
             continue
         if c.shape not in cache:
-            cache[c.shape] = np.asarray(mesh_arrays(c.shape, chord)[0], float)
+            cache[c.shape] = np.asarray(c.shape.mesh_arrays(chord)[0], float)
         pts = c.pose.apply(cache[c.shape])
         xy = np.stack([pts @ v.forward, pts @ v.up - v.ground_level], axis=1)
         out.append((group_key(c.path, 1), _hull(xy)))
@@ -354,6 +353,7 @@ class _LabelPlacer:
 def _notes(model: Model, station: float, height: float, bands: list[StationBand], hmax: float | None) -> list[str]:
     import textwrap
 
+    from massmodel.report.rules import rule_limit_text
     from massmodel.vehicle.balance import check_rules
 
     lines = ["RULE LIMITS AT THE CURRENT MASS"]
@@ -373,7 +373,7 @@ def _notes(model: Model, station: float, height: float, bands: list[StationBand]
         lines.append(f"• max CG height {hmax:.4f} m · margin {(hmax - height) * 1e3:+.1f} mm")
     for r in check_rules(model):
         if r.check in ("min_mass", "min_group_mass"):
-            lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {r.limit} {r.unit})")
+            lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {rule_limit_text(r)})")
     lines.append("")
     wrapped: list[str] = []
     for line in lines:

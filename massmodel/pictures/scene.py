@@ -1,7 +1,7 @@
 """Display geometry of a mass model: one merged triangle mesh with per-part colours, markers and references.
 
 This is the renderer-free half of the picture (numpy, plus manifold3d for cut-outs): every part is meshed in its
-part frame, its cut-outs removed by a mesh boolean, placed by its pose and appended to one mesh whose faces
+part frame, its cut-outs removed by a mesh boolean (:mod:`massmodel.pictures.meshes`), placed by its pose and appended to one mesh whose faces
 remember their owner (one actor draws all parts; colours are per cell). The scene also holds what the sheet
 annotates: the total CG with its principal axes, group CGs, ballast, slots, ground, axles and wheel contact points,
 the vehicle axis triad and the legend. :mod:`massmodel.pictures.viewer` turns it into pictures.
@@ -27,7 +27,10 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.massprops import MassProperties, combine_arrays, principal_axes, radii_of_gyration
-from massmodel.core.model import Component, Model
+from massmodel.core.model import Model
+from massmodel.core.shapes import PointMass, Sphere
+
+from .meshes import part_mesh, place_mesh, sharp_edges
 
 __all__ = [
     "ColourBy",
@@ -315,116 +318,6 @@ def _legend_and_colours(
     return colours, legend, title, group_colour
 
 
-# --- meshes ----------------------------------------------------------------------------------------------------
-
-def _to_manifold(vertices: FloatArray, faces: IntArray) -> Any:
-    import manifold3d
-
-    return manifold3d.Manifold(
-        manifold3d.Mesh(
-            vert_properties=np.ascontiguousarray(vertices, dtype=np.float32),
-            tri_verts=np.ascontiguousarray(faces, dtype=np.uint32),
-        )
-    )
-
-
-def _cad_part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray, IntArray]:
-    """Fallback: the B-rep solid minus its cut-outs (OpenCascade), tessellated, in the part frame."""
-    import trimesh
-
-    from massmodel.cad.solids import place_solid
-
-    solid = component.shape.to_solid()
-    for cut in component.cutouts:
-        solid = solid.cut(place_solid(cut.shape.to_solid(), cut.pose))
-    verts, tris = solid.tessellate(chord_tolerance * 1e3, 0.3)
-    mesh = trimesh.Trimesh(np.array([v.toTuple() for v in verts]) * 1e-3, np.array(tris))
-    return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
-
-
-def part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray, IntArray, bool]:
-    """Display mesh of one part in its part frame: the shape minus its cut-outs.
-
-    The cut-outs are removed by a manifold3d boolean difference; when that fails (an error status, or a volume
-    more than 2 % + chord error away from the exact net volume) the OpenCascade solid is tessellated instead.
-
-    Returns
-    -------
-    vertices : (V, 3) float
-        m, part frame.
-    faces : (F, 3) int
-        Outward triangles.
-    fallback : bool
-        True when OpenCascade made the mesh.
-    """
-    from massmodel.cad.primitives import (
-        mesh_arrays,  # the arrays behind Shape.to_mesh, without the trimesh wrapper
-    )
-
-    v, f = mesh_arrays(component.shape, chord_tolerance)
-    if not component.cutouts:
-        return np.asarray(v, float), np.asarray(f, np.int64), False
-    import manifold3d
-
-    body = _to_manifold(v, f)
-    for cut in component.cutouts:
-        cv, cf = mesh_arrays(cut.shape, chord_tolerance)
-        body = body - _to_manifold(cut.pose.apply(cv), cf)
-    ok = body.status() == manifold3d.Error.NoError
-    if ok:
-        out = body.to_mesh()
-        verts = np.asarray(out.vert_properties[:, :3], float)
-        tris = np.asarray(out.tri_verts, np.int64)
-        area_scale = float(np.ptp(verts, axis=0).max()) if len(verts) else 0.0
-        slack = 0.02 * component.volume + 6.0 * chord_tolerance * area_scale**2
-        ok = len(tris) > 0 and abs(_mesh_volume(verts, tris) - component.volume) <= slack
-    if ok:
-        return verts, tris, False
-    verts, tris = _cad_part_mesh(component, chord_tolerance)
-    return verts, tris, True
-
-
-def _mesh_volume(vertices: FloatArray, faces: IntArray) -> float:
-    """Signed volume of a closed triangle mesh (divergence theorem), m³."""
-    a, b, c = (vertices[faces[:, k]] for k in range(3))
-    return float(np.einsum("ij,ij->i", a, np.cross(b, c)).sum() / 6.0)
-
-
-def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0) -> IntArray:
-    """Vertex index pairs (E, 2) of the edges whose two faces meet at more than ``angle_deg`` (or are open)."""
-    if len(faces) == 0:
-        return np.zeros((0, 2), np.int64)
-    a, b, c = (vertices[faces[:, k]] for k in range(3))
-    normals = np.cross(b - a, c - a)
-    norms = np.linalg.norm(normals, axis=1)
-    normals = normals / np.where(norms > 0, norms, 1.0)[:, None]
-    e = np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]])
-    face_of = np.tile(np.arange(len(faces)), 3)
-    # weld coincident vertices (meshes may duplicate seams) before pairing edges
-    keys = np.round(vertices / 1e-7).astype(np.int64)
-    _, weld = np.unique(keys, axis=0, return_inverse=True)
-    weld = weld.reshape(-1)
-    we = np.sort(weld[e], axis=1)
-    order = np.lexsort((we[:, 1], we[:, 0]))
-    we, e, face_of = we[order], e[order], face_of[order]
-    same = np.all(we[1:] == we[:-1], axis=1)
-    keep = np.ones(len(we), bool)
-    # a pair (i, i+1) with the same key is one interior edge: keep the first only when sharp
-    pair = np.flatnonzero(same)
-    cosang = np.einsum("ij,ij->i", normals[face_of[pair]], normals[face_of[pair + 1]])
-    sharp = cosang < math.cos(math.radians(angle_deg))
-    keep[pair + 1] = False
-    keep[pair[~sharp]] = False
-    degenerate = we[:, 0] == we[:, 1]
-    return e[keep & ~degenerate]
-
-
-def _place(vertices: FloatArray, faces: IntArray, component: Component) -> tuple[FloatArray, IntArray]:
-    v = component.pose.apply(vertices)
-    f = faces[:, ::-1] if component.pose.is_mirrored else faces  # a mirror turns the winding inside out
-    return v, f
-
-
 def cg_in_material(center: FloatArray, boxes: FloatArray, grow: float = 0.1) -> bool:
     """Whether ``center`` lies inside one of the boxes ((N, 2, 3) low/high corners, m), each grown by ``grow``
     times the diagonal of all of them together (see :class:`GroupMarker`)."""
@@ -481,17 +374,14 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     points: list[int] = []
     offset = 0
     part_boxes = np.zeros((len(model.components), 2, 3))
-    from massmodel.core.shapes import Sphere
 
     marker = Sphere(opts.point_radius)
     for i, comp in enumerate(model.components):
-        is_point = comp.shape.kind == "point"
+        is_point = isinstance(comp.shape, PointMass)
         key = ("point",) if is_point else (comp.shape, tuple((c.shape, c.pose.matrix4().tobytes()) for c in comp.cutouts))
         if key not in cache:
             if is_point:
-                from massmodel.cad.primitives import mesh_arrays
-
-                mv, mf = mesh_arrays(marker, min(opts.chord_tolerance, opts.point_radius / 4))
+                mv, mf = marker.mesh_arrays(min(opts.chord_tolerance, opts.point_radius / 4))
                 lv, lf, used_cad = np.asarray(mv, float), np.asarray(mf, np.int64), False
             else:
                 lv, lf, used_cad = part_mesh(comp, opts.chord_tolerance)
@@ -503,7 +393,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
             points.append(i)
             v, f = lv + comp.props.center, lf
         else:
-            v, f = _place(lv, lf, comp)
+            v, f = place_mesh(lv, lf, comp)
         part_boxes[i] = v.min(axis=0), v.max(axis=0)
         verts.append(v)
         faces.append(f + offset)
@@ -515,10 +405,8 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
 
     slot_edges: list[tuple[str, FloatArray]] = []
     if opts.slots:
-        from massmodel.cad.primitives import mesh_arrays
-
         for s in model.slots:
-            sv, sf = mesh_arrays(s.shape, opts.chord_tolerance)
+            sv, sf = s.shape.mesh_arrays(opts.chord_tolerance)
             sv = np.asarray(sv, float)
             sf = np.asarray(sf, np.int64)
             slot_edges.append((s.name, s.pose.apply(sv)[sharp_edges(sv, sf)]))

@@ -21,6 +21,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.atomic import write_atomic
+from massmodel.report.rules import dict_limit_text
 
 from .scene import BALLAST_COLOUR, CG_COLOUR, INK, SLOT_COLOUR, Scene
 from .viewer import (
@@ -600,7 +601,7 @@ def _caution_lines(scene: Scene, cw: float, u: float) -> list[str]:
     lines: list[str] = []
     for failed in (r for r in scene.report["rules"] if not r["passed"]):
         lines.extend(textwrap.wrap(f"FAIL {failed['name']}: {failed['value']['value']:.4g} "
-                                   f"{failed['value']['unit']} (limit {failed['limit']})", width))
+                                   f"{failed['value']['unit']} (limit {dict_limit_text(failed)})", width))
     for c in scene.report["cautions"]:
         lines.extend(textwrap.wrap(c, width))
     return lines

@@ -11,6 +11,7 @@ from massmodel.ballast.block import AXES
 from massmodel.ballast.sizing import BlockSizing, denser_materials
 from massmodel.core import cautions
 from massmodel.core.materials import Material
+from massmodel.report.rules import rule_dict
 
 from .summary import table
 
@@ -226,9 +227,7 @@ def placement_dict(result: Any) -> dict[str, Any]:
                             "nominal": a.nominal, "worst_of_band": a.worst, "margin_nominal": a.margin_nominal,
                             "margin_worst": a.margin_worst, "binding": bool(a.binding), "passed": bool(a.passed)}
                            for a in result.assessments]
-    out["rules"] = [{"name": r.name, "passed": bool(r.passed), "value": {"value": r.value, "unit": r.unit},
-                     "limit": f"{r.limit} {r.unit}", "margin": {"value": r.margin, "unit": r.unit}}
-                    for r in result.rules]
+    out["rules"] = [rule_dict(r) for r in result.rules]
     return out
 
 

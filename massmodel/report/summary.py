@@ -28,7 +28,8 @@ from massmodel.core.massprops import (
     radii_of_gyration,
 )
 from massmodel.core.model import Maturity, Model
-from massmodel.vehicle.balance import ASSUMPTIONS, Balance, RuleResult, check_rules, static_balance
+from massmodel.report.rules import DECIMALS, dict_limit_text, rule_dict
+from massmodel.vehicle.balance import ASSUMPTIONS, Balance, check_rules, static_balance
 
 __all__ = [
     "DisplayUnits",
@@ -160,7 +161,7 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
             "yaw": float(model.vehicle.up @ total.inertia @ model.vehicle.up),
         }
     out["inertia_about_points"] = [inertia_about_entry(total, r) for r in inertia_requests]
-    out["rules"] = [_rule_dict(r) for r in check_rules(model)]
+    out["rules"] = [rule_dict(r) for r in check_rules(model)]
     out["rules_passed"] = all(r["passed"] for r in out["rules"])
     out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in _group_rollups(model)]
     out["maturity_kg"] = {
@@ -228,18 +229,6 @@ def _balance_dict(bal: Balance) -> dict[str, Any]:
         "cg_behind_front_axle_m": bal.cg_behind_front_axle,
         "cg_left_of_centre_m": bal.cg_left_of_centre,
         "load_assumptions": ASSUMPTIONS,
-    }
-
-
-def _rule_dict(r: RuleResult) -> dict[str, Any]:
-    return {
-        "name": r.name,
-        "check": r.check,
-        "passed": r.passed,
-        "value": {"value": r.value, "unit": r.unit},
-        "limit": f"{r.limit} {r.unit}",
-        "margin": {"value": r.margin, "unit": r.unit},
-        "detail": r.detail,
     }
 
 
@@ -374,10 +363,10 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
             val = r["value"]["value"]
             mar = r["margin"]["value"]
             unit = r["value"]["unit"]
-            fmt = ".4f" if unit in ("fraction", "m") else ".2f"
+            fmt = f".{DECIMALS.get(unit, 4)}f"
             # a failing rule keeps its minus sign even when the margin rounds to zero
             margin = _num(mar, "+" + fmt) if r["passed"] else format(mar, "+" + fmt)
-            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{_num(val, fmt)} {unit}", r["limit"],
+            rows.append(["pass" if r["passed"] else "FAIL", r["name"], f"{_num(val, fmt)} {unit}", dict_limit_text(r),
                          f"{margin} {unit}"])
         out.append(table(["", "rule", "value", "limit", "margin"], rows, "llrrr"))
         out.append("  " + ("all rules pass" if report["rules_passed"] else "SOME RULES FAIL"))

@@ -16,6 +16,8 @@ References
 
 from __future__ import annotations
 
+import enum
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -24,7 +26,10 @@ import numpy.typing as npt
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck, Vehicle
 
-__all__ = ["Balance", "RuleResult", "static_balance", "check_rules", "ASSUMPTIONS", "AT_LIMIT_RTOL"]
+__all__ = [
+    "Balance", "Bound", "RuleResult", "static_balance", "check_rules", "check_rules_in_cases", "ASSUMPTIONS",
+    "AT_LIMIT_RTOL",
+]
 
 ASSUMPTIONS = (
     "level flat ground; rigid chassis; no diagonal (cross) preload in the suspension, so each axle's load is split "
@@ -128,22 +133,41 @@ def static_balance(mp: MassProperties, vehicle: Vehicle) -> Balance:
     return Balance(m, a1, a2, y, h, front, rear, np.array(corners))
 
 
+class Bound(enum.Enum):
+    """How a rule's value is compared with its limits."""
+
+    AT_LEAST = "at_least"  # value >= limit_min
+    AT_MOST = "at_most"  # value <= limit_max
+    BETWEEN = "between"  # limit_min <= value <= limit_max
+
+
 @dataclass(frozen=True, slots=True)
 class RuleResult:
-    """Outcome of one rule check.
+    """Outcome of one rule check (numbers only; `massmodel.report.rules` writes them as text).
 
-    ``value`` and ``limit`` are in ``unit``; ``margin`` is how far inside the limit the value lies (negative when
-    the rule fails), also in ``unit``. A value within :data:`AT_LIMIT_RTOL` of its limit passes.
+    ``value``, ``limit_min``, ``limit_max`` and ``margin`` are in ``unit`` (SI: "kg", "m", or "fraction" for a
+    dimensionless share). ``bound`` says which limits apply: ``limit_min`` for :attr:`Bound.AT_LEAST`,
+    ``limit_max`` for :attr:`Bound.AT_MOST`, both for :attr:`Bound.BETWEEN`; the unused one is None. ``margin`` is
+    how far inside the limits the value lies (negative when the rule fails). A value within :data:`AT_LIMIT_RTOL`
+    of its limit passes.
     """
 
     name: str
     check: str
     passed: bool
     value: float
-    limit: str
+    bound: Bound
+    limit_min: float | None
+    limit_max: float | None
     margin: float
     unit: str
     detail: str
+
+
+def _at_least_result(rule: Rule, value: float, unit: str, detail: str) -> RuleResult:
+    limit = float(rule.limit or 0.0)
+    return RuleResult(rule.name, rule.check.value, _at_least(value, limit), value, Bound.AT_LEAST, limit, None,
+                      value - limit, unit, detail)
 
 
 def _mass_of(model: Model, include: tuple[str, ...] = ("",), exclude: tuple[str, ...] = ()) -> float:
@@ -155,40 +179,30 @@ def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
     """Evaluate one rule on a model (``balance`` of the whole model, needed by the vehicle rules)."""
     kind = rule.check
     if kind is RuleCheck.MIN_MASS:
-        value = _mass_of(model, exclude=rule.exclude)
-        limit = float(rule.limit or 0.0)
         detail = "whole model" + (f" without {', '.join(rule.exclude)}" if rule.exclude else "")
-        return RuleResult(rule.name, kind.value, _at_least(value, limit), value, f">= {limit:.2f}", value - limit, "kg",
-                          detail)
+        return _at_least_result(rule, _mass_of(model, exclude=rule.exclude), "kg", detail)
     if kind is RuleCheck.MIN_GROUP_MASS:
-        value = _mass_of(model, include=rule.groups)
-        limit = float(rule.limit or 0.0)
-        detail = " + ".join(rule.groups)
-        return RuleResult(rule.name, kind.value, _at_least(value, limit), value, f">= {limit:.2f}", value - limit, "kg",
-                          detail)
+        return _at_least_result(rule, _mass_of(model, include=rule.groups), "kg", " + ".join(rule.groups))
     if balance is None:
         raise ValueError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
     if kind is RuleCheck.MIN_AXLE_LOAD:
         value = balance.front if rule.axle == "front" else balance.rear
-        limit = float(rule.limit or 0.0)
-        return RuleResult(
-            rule.name, kind.value, _at_least(value, limit), value, f">= {limit:.2f}", value - limit, "kg",
-            f"{rule.axle} axle",
-        )
+        return _at_least_result(rule, value, "kg", f"{rule.axle} axle")
     if kind is RuleCheck.FRONT_FRACTION:
         value = balance.front_fraction
         lo = rule.minimum if rule.minimum is not None else 0.0
         hi = rule.maximum if rule.maximum is not None else 1.0
         margin = min(value - lo, hi - value)
         return RuleResult(
-            rule.name, kind.value, _at_least(value, lo) and _at_most(value, hi), value, f"{lo:.4f} .. {hi:.4f}", margin,
+            rule.name, kind.value, _at_least(value, lo) and _at_most(value, hi), value, Bound.BETWEEN, lo, hi, margin,
             "fraction", "front/total",
         )
     if kind is RuleCheck.MAX_CG_HEIGHT:
         value = balance.cg_height
         limit = float(rule.limit or 0.0)
         return RuleResult(
-            rule.name, kind.value, _at_most(value, limit), value, f"<= {limit:.4f}", limit - value, "m", "above ground"
+            rule.name, kind.value, _at_most(value, limit), value, Bound.AT_MOST, None, limit, limit - value, "m",
+            "above ground",
         )
     raise ValueError(f"unknown rule check {kind!r}")
 
@@ -197,3 +211,20 @@ def check_rules(model: Model) -> list[RuleResult]:
     """Evaluate every rule of the model."""
     balance = static_balance(model.mass_properties(), model.vehicle) if model.vehicle is not None else None
     return [check_rule(model, r, balance) for r in model.rules]
+
+
+def check_rules_in_cases(models: Mapping[str, Model]) -> list[tuple[str, RuleResult]]:
+    """Evaluate every rule in each case it applies in.
+
+    Parameters
+    ----------
+    models : mapping of str to Model
+        Case name → the model of that case (as given by :func:`massmodel.modelfile.loader.load_case_models`); each model
+        holds only the rules that apply in its case (see :mod:`massmodel.core.loadcases`).
+
+    Returns
+    -------
+    list of (str, RuleResult)
+        Case name and result, cases in the order given, rules in file order.
+    """
+    return [(name, result) for name, model in models.items() for result in check_rules(model)]
