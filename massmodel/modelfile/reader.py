@@ -222,15 +222,15 @@ def _unbracket(text: str) -> str:
     return text
 
 
-def split_vector(value: Any, n: int = 3, what: str = "point") -> list[Any]:
+def split_vector(value: Any, n: int | None = 3, what: str = "point") -> list[Any]:
     """The ``n`` entries of a vector written in one of the accepted forms (see the module docstring).
 
     Parameters
     ----------
     value : list or str
         ``["10 mm", "20 mm", "-265 mm"]``, ``[10, 20, -265]``, ``"10 mm, 20 mm, -265 mm"`` or ``"10, 20, -265 mm"``.
-    n : int
-        How many entries.
+    n : int or None
+        How many entries (None: any number, at least one).
     what : str
         What the vector is, for the message (``"point"``, ``"size"``).
 
@@ -251,22 +251,23 @@ def split_vector(value: Any, n: int = 3, what: str = "point") -> list[Any]:
     >>> split_vector(["1 m", 0, "x"])
     ['1 m', 0, 'x']
     """
-    example = ", ".join(f"{10 * (k + 1)}" for k in range(n)) + " mm"
-    usage = f"expected a {what}: a list of {n} values or a text such as '{example}', got {value!r}"
+    example = ", ".join(f"{10 * (k + 1)}" for k in range(n or 2)) + " mm"
+    count = "values" if n is None else f"{n} values"
+    usage = f"expected a {what}: a list of {count} or a text such as '{example}', got {value!r}"
     if isinstance(value, (list, tuple)):
-        if len(value) != n:
+        if (n is not None and len(value) != n) or not value:
             raise ValueError(usage)
         return list(value)
     if not isinstance(value, str):
         raise ValueError(usage)
     parts = _split_top(_unbracket(value.strip()))
-    if len(parts) == 1 and n > 1:  # "10 20 -265" (numbers separated by spaces, as some CAD tools write them)
+    if len(parts) == 1 and n is not None and n > 1:  # "10 20 -265" (numbers separated by spaces, as some CAD tools write them)
         words = value.split()
         if len(words) in (n, n + 1) and all(_PLAIN.fullmatch(w) for w in words[:n]):
             parts = words[:n]
             if len(words) == n + 1:
                 parts[-1] += " " + words[n]
-    if len(parts) != n or not all(parts):
+    if (n is not None and len(parts) != n) or not all(parts):
         raise ValueError(usage)
     last = _NUMBER_UNIT.fullmatch(parts[-1])
     if last and all(_PLAIN.fullmatch(p) for p in parts[:-1]):
