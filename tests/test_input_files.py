@@ -302,3 +302,21 @@ def test_cli_unreadable_input_is_one_line_exit_2(tmp_path, capsys, name, argv, c
     assert err.startswith(f"massmodel {command}: error: {path}: ") and err.count("\n") == 1
     assert ("not UTF-8 text" if content == "non-utf8" else "nest too deep") in err
     assert "Traceback" not in err
+
+
+def test_options_documented_in_mm_take_a_bare_number_or_any_length():
+    from massmodel.cli.args import in_unit
+
+    mm = in_unit("length", "mm")
+    assert (mm("0.1"), mm("100 um"), mm("0.0001 m")) == pytest.approx((0.1, 0.1, 0.1), rel=1e-12)  # SI prefixes
+    with pytest.raises(Exception, match="expected length"):
+        mm("2 kg")
+
+
+def test_accelerations_in_g_from_a_number_or_a_quantity():
+    from massmodel.cli.args import acceleration_in_g
+
+    # g_n = 9.80665 m/s² exactly (NIST SP 811): 9.80665 m/s^2 is 1 g
+    assert [acceleration_in_g(t) for t in ("1.2", "1.2 g", "9.80665 m/s^2", "-0.5g")] == pytest.approx(
+        [1.2, 1.2, 1.0, -0.5], rel=1e-15)
+    assert main(["load-transfer", str(CAR), "--brake", "2 kg"]) == EXIT_USAGE

@@ -23,7 +23,7 @@ from massmodel.core import expr, units
 from massmodel.core.shapes import MAX_LENGTH_M
 from massmodel.modelfile.reader import split_vector
 
-__all__ = ["KINDS", "PointArg", "quantity", "lengths", "point", "point_or_cg", "keyed", "override", "share",
+__all__ = ["KINDS", "PointArg", "quantity", "in_unit", "acceleration_in_g", "lengths", "point", "point_or_cg", "keyed", "override", "share",
            "density_or_material"]
 
 #: Quantity kinds of the options: dimension and an example.
@@ -74,6 +74,45 @@ def quantity(kind: str, example: str | None = None) -> Callable[[str], float]:
 
     parse.__name__ = kind
     return parse
+
+
+def in_unit(kind: str, unit: str) -> Callable[[str], float]:
+    """A ``type=`` for an option documented in ``unit`` (``--chord`` in mm): a bare number is in ``unit``, a
+    quantity with its own unit is converted to it (``"0.1"`` and ``"100 um"`` both give 0.1 for mm).
+
+    Examples
+    --------
+    >>> in_unit("length", "mm")("0.1 m")
+    100.0
+    """
+    size = units.parse_unit(unit).value
+
+    def parse(text: str) -> float:
+        q = _evaluate(text)
+        if q.dim == units.DIMENSIONLESS:
+            return float(q.value)
+        return _si(text, kind) / size
+
+    parse.__name__ = f"{kind} in {unit}"
+    return parse
+
+
+def acceleration_in_g(text: str) -> float:
+    """A ``type=`` for an acceleration in g: a bare number (``1.2``), ``"1.2 g"`` or a quantity (``"11.8 m/s^2"``,
+    ``"1.2 gee"``) divided by standard gravity g_n = 9.80665 m/s² (exact by definition, NIST SP 811)."""
+    t = text.strip()
+    if t.endswith("g") and not t.endswith("kg"):
+        t = t.removesuffix("g").strip()
+    q = _evaluate(t)
+    if q.dim == units.DIMENSIONLESS:
+        value = q.value
+    elif q.dim == units.ACCELERATION:
+        value = q.value / units.STANDARD_GRAVITY_M_S2
+    else:
+        raise _error(f"expected an acceleration in g such as 1.2 (or '11.8 m/s^2'), got {text!r}")
+    if not math.isfinite(value):
+        raise _error(f"{text!r} is not a finite number")
+    return float(value)
 
 
 def lengths(n: int | None = None) -> Callable[[str], tuple[float, ...]]:

@@ -167,7 +167,7 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
         if args.hole_diameter is None:
             raise ValueError("--holes needs --hole-diameter")
         kind = args.hole_pattern or ("grid" if args.hole_columns else "line")
-        pitch = args.hole_pitch or ()
+        pitch: tuple[float, ...] = args.hole_pitch or ()
         cb = None
         if args.counterbore:
             d, depth = args.counterbore
