@@ -320,3 +320,21 @@ def test_accelerations_in_g_from_a_number_or_a_quantity():
     assert [acceleration_in_g(t) for t in ("1.2", "1.2 g", "9.80665 m/s^2", "-0.5g")] == pytest.approx(
         [1.2, 1.2, 1.0, -0.5], rel=1e-15)
     assert main(["load-transfer", str(CAR), "--brake", "2 kg"]) == EXIT_USAGE
+
+
+def test_modelfile_modules_import_in_one_direction():
+    # reader <- extends <- fields <- parts, cases, driver <- loader: no module reaches back into the loader
+    import ast
+
+    order = ["reader", "extends", "fields", "parts", "cases", "driver", "loader"]
+    folder = ROOT / "massmodel" / "modelfile"
+    for k, name in enumerate(order):
+        tree = ast.parse((folder / f"{name}.py").read_text(encoding="utf-8"))
+        imported = set()
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ImportFrom) and node.level == 1:
+                imported |= {node.module} if node.module else {a.name for a in node.names}
+            elif isinstance(node, ast.ImportFrom) and (node.module or "").startswith("massmodel.modelfile."):
+                imported.add(node.module.rsplit(".", 1)[1])
+        later = imported & set(order[k:])
+        assert not later, f"modelfile.{name} imports {sorted(later)}"
