@@ -88,6 +88,10 @@ def in_unit(kind: str, unit: str) -> Callable[[str], float]:
     size = units.parse_unit(unit).value
 
     def parse(text: str) -> float:
+        try:
+            return float(text)  # a bare number, as before (the command checks its range)
+        except ValueError:
+            pass
         q = _evaluate(text)
         if q.dim == units.DIMENSIONLESS:
             return float(q.value)
