@@ -237,10 +237,10 @@ def test_invalid_json_and_wrong_suffix(tmp_path):
     p.write_text("{}")
     with pytest.raises(EstimateError, match="must end in .json or .csv"):
         load_estimate(p)
-    with pytest.raises(EstimateError, match=r"nothere.json: no such file"):
+    with pytest.raises(EstimateError, match=r"nothere.json: cannot read the file \(no such file\)"):
         load_estimate(tmp_path / "nothere.json")
     (tmp_path / "folder.json").mkdir()
-    with pytest.raises(EstimateError, match=r"folder.json: cannot be read \(Is a directory\)"):
+    with pytest.raises(EstimateError, match=r"folder.json: cannot read the file \(Is a directory\)"):
         load_estimate(tmp_path / "folder.json")
 
 

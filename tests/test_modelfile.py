@@ -293,7 +293,7 @@ def test_cli_bad_override_and_missing_file(tmp_path: Path) -> None:
     write(tmp_path, HEAD + '[parameters]\nthick = "20 mm"\n' + PLATE, "car.toml")
     result = run_cli("report", "car.toml", "--set", "thick", cwd=tmp_path)
     assert result.returncode == 2 and "Traceback" not in result.stderr
-    assert result.stderr.strip() == ("massmodel report: error: expected name=value, e.g. wheelbase=2.6 m; "
+    assert result.stderr.strip() == ("massmodel report: error: --set: expected name=value, e.g. wheelbase=2.6 m; "
                                      "got 'thick'")
     result = run_cli("check", "absent.toml", cwd=tmp_path)
     assert result.returncode == 2 and "Traceback" not in result.stderr

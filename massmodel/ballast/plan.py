@@ -2,14 +2,15 @@
 
 A plan is read against a model: its candidates name the model's ``[[slot]]`` tables (or define box slots of their
 own), its values may use the model's parameters, and its materials come from the model's library. Every value with
-a dimension carries its unit (there is no default unit in a plan). Errors name the file, the item and the field.
+a dimension carries its unit, unless the plan's ``[units]`` table declares a default length or mass unit; points and
+sizes take the syntax of every input file (:mod:`massmodel.modelfile.reader`: ``"120, 100, 40 mm"`` or a list).
+Errors name the file, the item and the field (:class:`PlanError`, an :class:`massmodel.core.errors.InputError`).
 """
 
 from __future__ import annotations
 
 import enum
 import math
-import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -18,9 +19,11 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import expr, units
+from massmodel.core.errors import InputError
 from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, in_group
+from massmodel.modelfile.reader import TableReader, parse_toml, read_text, read_units
 
 from .block import BlockError
 from .sizing import BlockSpec, Envelope, Fill, SizingError, spec_from_parts
@@ -28,7 +31,8 @@ from .sizing import BlockSpec, Envelope, Fill, SizingError, spec_from_parts
 __all__ = ["PlanError", "Objective", "Targets", "Candidate", "Plan", "load_plan", "loads_plan", "PLAN_FORMAT"]
 
 PLAN_FORMAT = 1
-TOP_KEYS = {"plan", "targets", "defaults", "candidate"}
+TOP_KEYS = {"plan", "units", "targets", "defaults", "candidate"}
+_UNIT_KINDS = {"length": units.LENGTH, "mass": units.MASS}
 TARGET_FIELDS = {"mass_margin", "front_fraction", "fraction_margin", "cg_height_margin", "lateral_offset_max",
                  "objective", "weights", "ballast_allowance", "max_ballast"}
 SPEC_FIELDS = {"material", "fill", "fixed", "increment", "holes", "chamfer", "stock", "max_segment_mass",
@@ -38,13 +42,8 @@ HOLE_FIELDS = {"pattern", "count", "diameter", "axis", "pitch", "columns", "rows
                "counterbore", "counterbore_end"}
 
 
-class PlanError(ValueError):
+class PlanError(InputError):
     """A problem in a ballast plan, naming the file, the item and the field."""
-
-    def __init__(self, file: str, item: str | None, field: str | None, message: str) -> None:
-        self.file, self.item, self.field, self.message = file, item, field, message
-        where = file + (f": {item}" if item else "") + (f", field '{field}'" if field else "")
-        super().__init__(f"{where}: {message}")
 
 
 class Objective(enum.Enum):
@@ -159,13 +158,13 @@ class Plan:
                                               for c in self.candidates))
 
 
-class _Reader:
-    def __init__(self, file: str, env: Mapping[str, units.Quantity]) -> None:
-        self.file = file
-        self.env = env
+class _Reader(TableReader):
+    error_type = PlanError
 
-    def error(self, item: str | None, field: str | None, message: str) -> PlanError:
-        return PlanError(self.file, item, field, message)
+    def __init__(self, file: str, env: Mapping[str, units.Quantity], defaults: Mapping[str, float]) -> None:
+        super().__init__(file)
+        self.env = env
+        self.defaults = defaults  # kind -> SI size of the [units] default
 
     def quantity(self, value: Any, dim: units.Dimension, what: str, item: str, field: str) -> float:
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
@@ -174,8 +173,11 @@ class _Reader:
             q = expr.evaluate(value, self.env)
         except (expr.ExpressionError, units.UnitError) as exc:
             raise self.error(item, field, str(exc)) from None
+        kind = next((k for k, d in _UNIT_KINDS.items() if d == dim), None)
+        if q.dim == units.DIMENSIONLESS and kind is not None and kind in self.defaults:
+            q = units.Quantity(q.value * self.defaults[kind], dim)
         if q.dim != dim:
-            hint = " (write the unit, e.g. '2 mm' or '1.5 kg': a plan has no default units)" \
+            hint = " (the plan's [units] declares no default units: write the unit, e.g. '2 mm' or '1.5 kg')" \
                 if q.dim == units.DIMENSIONLESS else ""
             raise self.error(item, field, f"expected a {what}, got {value!r} ({q.dim}){hint}")
         if not math.isfinite(q.value):
@@ -199,16 +201,11 @@ class _Reader:
         return self.quantity(value, units.DIMENSIONLESS, "plain number", item, field)
 
     def lengths(self, value: Any, n: int, item: str, field: str, positive: bool = True) -> list[float]:
-        if not isinstance(value, list) or len(value) != n:
-            raise self.error(item, field, f"expected a list of {n} lengths, got {value!r}")
-        return [self.length(v, item, f"{field}[{i}]", positive) for i, v in enumerate(value)]
+        entries = self.entries(value, n, item, field, "point" if n == 3 and not positive else "list of lengths")
+        return [self.length(v, item, f"{field}[{i}]", positive) for i, v in enumerate(entries)]
 
     def check(self, table: Any, allowed: set[str], item: str) -> None:
-        if not isinstance(table, dict):
-            raise self.error(item, None, "expected a table")
-        unknown = sorted(set(table) - allowed)
-        if unknown:
-            raise self.error(item, unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
+        self.check_fields(table, allowed, item)
 
 
 def load_plan(path: str | Path, model: Model) -> Plan:
@@ -226,21 +223,13 @@ def load_plan(path: str | Path, model: Model) -> Plan:
     PlanError
         Naming the file, the item and the field.
     """
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise PlanError(str(path), None, None, f"cannot read the file ({exc.strerror or exc})") from None
-    return loads_plan(text, model, label=str(path))
+    return loads_plan(read_text(Path(path), str(path), PlanError), model, label=str(path))
 
 
 def loads_plan(text: str, model: Model, label: str = "<plan>") -> Plan:
     """Like :func:`load_plan`, from a string."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise PlanError(label, None, None, f"not valid TOML: {exc}") from None
-    rd = _Reader(label, model.parameters)
+    data = parse_toml(text, label, PlanError)
+    rd = _Reader(label, model.parameters, read_units(data.get("units", {}), _UNIT_KINDS, label, PlanError))
     unknown = sorted(set(data) - TOP_KEYS)
     if unknown:
         raise rd.error(None, None, f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_KEYS))}")

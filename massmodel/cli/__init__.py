@@ -3,7 +3,8 @@
 Each command group lives in a module of this package exposing ``register(subparsers)``; :data:`COMMAND_MODULES`
 lists them explicitly, in the order their commands appear in ``--help``, and they are imported when the parser is
 built, while heavy libraries (cadquery, pyvista) load only inside the command that needs them. User mistakes print one
-clear line and exit 2; set ``MASSMODEL_DEBUG=1`` to see the traceback.
+clear line and exit 2 (a bad option value is refused by argparse through the ``type=`` callables of
+:mod:`massmodel.cli.args`); set ``MASSMODEL_DEBUG=1`` to see the traceback.
 
 May import: every layer below it (core up to pictures and page); never :mod:`massmodel.notebook`, its sibling at the top.
 Nothing in the library imports it (only ``massmodel/__main__.py``).
@@ -16,6 +17,7 @@ import importlib
 import os
 import sys
 from collections.abc import Sequence
+from typing import NoReturn
 
 __all__ = ["main", "build_parser", "command_modules", "COMMAND_MODULES", "EXIT_FAIL", "EXIT_USAGE"]
 
@@ -41,8 +43,15 @@ def command_modules() -> list[str]:
     return list(COMMAND_MODULES)
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with its error as one line naming the option (``massmodel report: error: --margin: ...``), exit 2."""
+
+    def error(self, message: str) -> NoReturn:
+        self.exit(EXIT_USAGE, f"{self.prog}: error: {message.removeprefix('argument ')}\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="massmodel",
         description="Vehicle mass models: mass, CG, inertia tensor, axle loads, rule checks, ballast, CAD export.",
     )
@@ -54,7 +63,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help (0) or a bad option (2, its one line already printed): the exit code
+        return exc.code if isinstance(exc.code, int) else EXIT_USAGE
     try:
         return int(args.run(args) or 0)
     except BrokenPipeError:  # the reader went away (e.g. `| head`): stop quietly

@@ -12,65 +12,50 @@ from typing import Any
 
 from massmodel.cli import EXIT_FAIL
 
+from .args import keyed, lengths, point, quantity
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register"]
 
 
-def _quantity(text: str, option: str, kind: str) -> float:
-    from massmodel.core import expr, units
+def _mass_or_rules(text: str) -> float | str:
+    """``--target``: a mass, or ``rules`` (what the mass rules need plus ``--margin``)."""
+    return "rules" if text.strip().lower() == "rules" else quantity("mass", "10.8 kg")(text)
 
-    dims = {"length": units.LENGTH, "mass": units.MASS}
+
+def _fraction_and_tolerance(text: str) -> tuple[float, float]:
+    """``--front-fraction TARGET[,TOL]``: plain numbers, a fraction in (0, 1) and a tolerance in [0, 0.5)."""
+    parts = text.split(",")
     try:
-        q = expr.evaluate(text.strip(), {})
-    except (expr.ExpressionError, units.UnitError) as exc:
-        raise ValueError(f"{option} {text!r}: {exc}") from None
-    if q.dim != dims[kind]:
-        raise ValueError(f"{option} {text!r}: expected a {kind} with its unit, e.g. "
-                         f"{'5 mm' if kind == 'length' else '1.5 kg'}")
-    return float(q.value)
-
-
-def _lengths(text: str, option: str, n: int | None = None) -> list[float]:
-    parts = [p for p in text.split(",") if p.strip()]
-    if n is not None and len(parts) != n:
-        raise ValueError(f"{option} {text!r}: expected {n} comma-separated lengths with units")
-    return [_quantity(p, option, "length") for p in parts]
-
-
-def _number(text: str, option: str) -> float:
-    try:
-        return float(text)
+        target = float(parts[0])
+        tol = float(parts[1]) if len(parts) > 1 else 0.0
     except ValueError:
-        raise ValueError(f"{option} {text!r}: expected a plain number") from None
-
-
-def _overrides(args: argparse.Namespace) -> dict[str, str]:
-    from massmodel.core.expr import parse_override
-
-    return dict(parse_override(t) for t in args.overrides)
+        raise argparse.ArgumentTypeError(f"expected plain numbers TARGET[,TOL] such as 0.45,0.005, got {text!r}") from None
+    if len(parts) > 2 or not 0.0 < target < 1.0 or not 0.0 <= tol < 0.5:
+        raise argparse.ArgumentTypeError(f"{text!r}: a fraction in (0, 1) and a tolerance in [0, 0.5)")
+    return target, tol
 
 
 def _add_block_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("block (override the plan's candidate, or give everything here)")
     g.add_argument("--material", help="material key (e.g. tungsten_b777_class3); `massmodel materials` lists them")
     g.add_argument("--fill", help='how the block grows: +z (from the -z wall upwards), -x, ..., or z (about the centre)')
-    g.add_argument("--fix", action="append", default=[], metavar="AXIS=LENGTH",
+    g.add_argument("--fix", action="append", default=[], metavar="AXIS=LENGTH", type=keyed("length", "AXIS"),
                    help="fix a size across the fill axis, e.g. --fix x=180mm (repeatable)")
-    g.add_argument("--increment", help="manufacturing increment, e.g. 0.5mm")
+    g.add_argument("--increment", type=quantity("length"), help="manufacturing increment, e.g. 0.5mm")
     g.add_argument("--holes", type=int, metavar="N", help="number of fastener holes")
-    g.add_argument("--hole-diameter", metavar="D", help="hole diameter, e.g. 8.5mm")
+    g.add_argument("--hole-diameter", metavar="D", type=quantity("length"), help="hole diameter, e.g. 8.5mm")
     g.add_argument("--hole-pattern", choices=["line", "grid", "circle"], default=None)
-    g.add_argument("--hole-pitch", metavar="P[,P2]", help="hole spacing (grid: along the two face axes)")
+    g.add_argument("--hole-pitch", metavar="P[,P2]", type=lengths(), help="hole spacing (grid: along the two face axes)")
     g.add_argument("--hole-columns", type=int, help="grid columns")
-    g.add_argument("--hole-pcd", metavar="D", help="pitch-circle diameter of a circle pattern")
+    g.add_argument("--hole-pcd", metavar="D", type=quantity("length"), help="pitch-circle diameter of a circle pattern")
     g.add_argument("--hole-axis", choices=["x", "y", "z"], help="axis the holes run along (default: the fill axis)")
-    g.add_argument("--counterbore", metavar="DIA,DEPTH", help="counterbore at the exposed end, e.g. 14mm,5mm")
-    g.add_argument("--chamfer", metavar="SIZE", help="45 deg edge chamfer, e.g. 1mm")
+    g.add_argument("--counterbore", metavar="DIA,DEPTH", type=lengths(2), help="counterbore at the exposed end, e.g. 14mm,5mm")
+    g.add_argument("--chamfer", metavar="SIZE", type=quantity("length"), help="45 deg edge chamfer, e.g. 1mm")
     g.add_argument("--chamfer-edges", default=None, help='edges chamfered, by axis letters (default "xyz": all)')
-    g.add_argument("--stock", metavar="T1,T2,...", help="stock plate thicknesses; the block is a stack of them")
-    g.add_argument("--max-segment", metavar="MASS", help="largest mass of one plate at the high end of the band")
-    g.add_argument("--min-thickness", metavar="LENGTH", help="thinnest block along the fill axis")
+    g.add_argument("--stock", metavar="T1,T2,...", type=lengths(), help="stock plate thicknesses; the block is a stack of them")
+    g.add_argument("--max-segment", metavar="MASS", type=quantity("mass"), help="largest mass of one plate at the high end of the band")
+    g.add_argument("--min-thickness", metavar="LENGTH", type=quantity("length"), help="thinnest block along the fill axis")
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -81,14 +66,14 @@ def register(sub: argparse._SubParsersAction) -> None:
     where = p.add_argument_group("slot")
     where.add_argument("--slot", help="a [[slot]] of the model, or a candidate of --plan")
     where.add_argument("--plan", type=Path, help="ballast plan whose candidate gives the block settings")
-    where.add_argument("--box", metavar="SX,SY,SZ", help="a box slot given here instead (model axes), e.g. 120mm,100mm,40mm")
-    where.add_argument("--at", metavar="X,Y,Z", help="centre of the --box, model frame")
-    where.add_argument("--clearance", metavar="LENGTH", help="clearance of the --box to every wall")
+    where.add_argument("--box", metavar="SX,SY,SZ", type=lengths(3), help="a box slot given here instead (model axes), e.g. 120mm,100mm,40mm")
+    where.add_argument("--at", metavar="X,Y,Z", type=point, help="centre of the --box, model frame, e.g. 375, 0, -185 mm")
+    where.add_argument("--clearance", metavar="LENGTH", type=quantity("length"), help="clearance of the --box to every wall")
     _add_block_options(p)
     tg = p.add_argument_group("target")
-    tg.add_argument("--target", default=None, help="mass to reach at the low end of the band (e.g. 10.8kg), 'rules' "
+    tg.add_argument("--target", default=None, type=_mass_or_rules, help="mass to reach at the low end of the band (e.g. 10.8kg), 'rules' "
                     "(what the mass rules need plus --margin), or leave out for the heaviest block")
-    tg.add_argument("--margin", help="with --target rules: mass kept above each minimum")
+    tg.add_argument("--margin", type=quantity("mass"), help="with --target rules: mass kept above each minimum")
     tg.add_argument("--replace-existing", action="store_true",
                     help="with --target rules: the parts now in the slot come out first")
     out = p.add_argument_group("output")
@@ -105,15 +90,15 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("plan", type=Path, help="ballast plan (TOML, see docs/ballast.md)")
     ov = p.add_argument_group("overrides of the plan")
     ov.add_argument("--objective", choices=["cg_height", "yaw_inertia", "mix"])
-    ov.add_argument("--margin", help="mass margin above every minimum, e.g. 0.5kg")
-    ov.add_argument("--front-fraction", metavar="TARGET[,TOL]", help="target front fraction and tolerance")
-    ov.add_argument("--allowance", help="ballast beyond the least the objective may use, e.g. 0.2kg")
+    ov.add_argument("--margin", type=quantity("mass"), help="mass margin above every minimum, e.g. 0.5kg")
+    ov.add_argument("--front-fraction", metavar="TARGET[,TOL]", type=_fraction_and_tolerance, help="target front fraction and tolerance")
+    ov.add_argument("--allowance", type=quantity("mass"), help="ballast beyond the least the objective may use, e.g. 0.2kg")
     ov.add_argument("--material", action="append", default=[], metavar="[SLOT=]KEY",
                     help="material of every candidate, or of one (repeatable)")
-    ov.add_argument("--capacity", action="append", default=[], metavar="SLOT=MASS",
+    ov.add_argument("--capacity", action="append", default=[], metavar="SLOT=MASS", type=keyed("mass", "SLOT"),
                     help="most ballast in a slot at the high end of the band (repeatable)")
     ov.add_argument("--without", action="append", default=[], metavar="SLOT", help="leave a candidate out")
-    ov.add_argument("--increment", help="manufacturing increment of every candidate")
+    ov.add_argument("--increment", type=quantity("length"), help="manufacturing increment of every candidate")
     out = p.add_argument_group("output")
     out.add_argument("--out-model", type=Path, help="write the ballasted model: a NEW file that extends the input")
     out.add_argument("--step", type=Path, help="write the STEP of all blocks (mm, model frame)")
@@ -128,13 +113,13 @@ def register(sub: argparse._SubParsersAction) -> None:
                                    "the car's CG height against the height of that ballast in the seat structure.")
     add_model_arguments(p)
     p.add_argument("--material", required=True, help="ballast material key")
-    p.add_argument("--margin", required=True, help="mass kept above the rule's limit, e.g. 0.5kg")
+    p.add_argument("--margin", required=True, type=quantity("mass"), help="mass kept above the rule's limit, e.g. 0.5kg")
     p.add_argument("--rule", help="the min_group_mass rule (default: the first one that is short)")
     p.add_argument("--seat-group", help="group the ballast joins (default: the rule's seat group)")
-    p.add_argument("--plate", default="150mm,100mm", metavar="FORWARD,LEFT", help="plate footprint (default 150mm,100mm)")
-    p.add_argument("--increment", default="0.5mm", help="manufacturing increment (default 0.5mm)")
-    p.add_argument("--at", metavar="X,Y", help="forward and left position of the ballast, model frame")
-    p.add_argument("--heights", metavar="H1,H2,...", help="ballast heights above the ground to tabulate")
+    p.add_argument("--plate", default="150mm,100mm", metavar="FORWARD,LEFT", type=lengths(2), help="plate footprint (default 150mm,100mm)")
+    p.add_argument("--increment", default="0.5mm", type=quantity("length"), help="manufacturing increment (default 0.5mm)")
+    p.add_argument("--at", metavar="X,Y", type=lengths(2), help="forward and left position of the ballast, model frame")
+    p.add_argument("--heights", metavar="H1,H2,...", type=lengths(), help="ballast heights above the ground to tabulate")
     p.add_argument("--steps", type=int, default=7, help="number of heights across the seat structure (default 7)")
     p.add_argument("--plot", type=Path, help="write the plot (PNG)")
     p.add_argument("--json", type=Path, help="write the result as JSON (SI)")
@@ -153,24 +138,23 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
             raise ValueError("--material is needed (or take the block settings from --plan)")
         if not args.fill:
             raise ValueError("--fill is needed, e.g. --fill +z (or take the block settings from --plan)")
-        if not args.increment:
+        if args.increment is None:
             raise ValueError("--increment is needed, e.g. --increment 0.5mm (or take it from --plan)")
         spec = spec_from_parts(_material(model, args.material), args.fill,
-                               increment=_quantity(args.increment, "--increment", "length"))
+                               increment=args.increment)
     changes: dict[str, Any] = {}
     if args.material:
         changes["material"] = _material(model, args.material)
     if args.fill:
         changes["fill"] = Fill.parse(args.fill)
-    if args.increment:
-        changes["increment"] = _quantity(args.increment, "--increment", "length")
+    if args.increment is not None:
+        changes["increment"] = args.increment
     if args.fix:
         fixed = dict(spec.fixed)
-        for item in args.fix:
-            axis, _, value = item.partition("=")
-            if axis not in ("x", "y", "z") or not value:
-                raise ValueError(f"--fix {item!r}: expected AXIS=LENGTH, e.g. x=180mm")
-            fixed[axis] = _quantity(value, "--fix", "length")
+        for axis, value in args.fix:
+            if axis not in ("x", "y", "z"):
+                raise ValueError(f"--fix {axis}=...: expected AXIS=LENGTH with AXIS x, y or z, e.g. x=180mm")
+            fixed[axis] = value
         changes["fixed"] = fixed
     hole_options = {"--hole-diameter": args.hole_diameter, "--hole-pattern": args.hole_pattern,
                     "--hole-pitch": args.hole_pitch, "--hole-columns": args.hole_columns, "--hole-pcd": args.hole_pcd,
@@ -180,31 +164,31 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
         raise ValueError(f"{', '.join(stray)} describe holes given here and need --holes N (they would otherwise be "
                          "ignored; --holes replaces a plan's holes as a whole)")
     if args.holes is not None:
-        if not args.hole_diameter:
+        if args.hole_diameter is None:
             raise ValueError("--holes needs --hole-diameter")
         kind = args.hole_pattern or ("grid" if args.hole_columns else "line")
-        pitch = _lengths(args.hole_pitch, "--hole-pitch") if args.hole_pitch else []
+        pitch: tuple[float, ...] = args.hole_pitch or ()
         cb = None
         if args.counterbore:
-            d, depth = _lengths(args.counterbore, "--counterbore", 2)
+            d, depth = args.counterbore
             cb = Counterbore(d, depth)
         fill = changes.get("fill", spec.fill)
         axis = args.hole_axis or fill.letter
         changes["holes"] = HolePattern(
-            kind, args.holes, _quantity(args.hole_diameter, "--hole-diameter", "length"), axis=axis,
+            kind, args.holes, args.hole_diameter, axis=axis,
             pitch=pitch[0] if pitch else None, pitch2=pitch[1] if len(pitch) > 1 else None,
-            columns=args.hole_columns, pcd=_quantity(args.hole_pcd, "--hole-pcd", "length") if args.hole_pcd else None,
+            columns=args.hole_columns, pcd=args.hole_pcd,
             counterbore=cb, counterbore_end=(fill.sign or 1) if axis == fill.letter else 1)
-    if args.chamfer:
-        changes["chamfer"] = Chamfer(_quantity(args.chamfer, "--chamfer", "length"), args.chamfer_edges or "xyz")
+    if args.chamfer is not None:
+        changes["chamfer"] = Chamfer(args.chamfer, args.chamfer_edges or "xyz")
     elif args.chamfer_edges and spec.chamfer is not None:
         changes["chamfer"] = Chamfer(spec.chamfer.size, args.chamfer_edges)
     if args.stock:
-        changes["stock"] = tuple(_lengths(args.stock, "--stock"))
-    if args.max_segment:
-        changes["max_segment_mass"] = _quantity(args.max_segment, "--max-segment", "mass")
-    if args.min_thickness:
-        changes["min_thickness"] = _quantity(args.min_thickness, "--min-thickness", "length")
+        changes["stock"] = args.stock
+    if args.max_segment is not None:
+        changes["max_segment_mass"] = args.max_segment
+    if args.min_thickness is not None:
+        changes["min_thickness"] = args.min_thickness
     return replace(spec, **changes) if changes else spec
 
 
@@ -241,14 +225,10 @@ def _size_block(args: argparse.Namespace) -> int:
         env, spec, path, replace_paths = cand.envelope, cand.spec, cand.path, cand.replace
         margin_default = plan.targets.mass_margin
     elif args.box:
-        if not (args.at and args.clearance):
+        if args.at is None or args.clearance is None:
             raise ValueError("--box needs --at (centre, model frame) and --clearance")
-        size = _lengths(args.box, "--box", 3)
-        at = _lengths(args.at, "--at", 3) if "," in args.at else None
-        if at is None:
-            raise ValueError("--at: expected X,Y,Z with units, e.g. 375mm,0mm,-185mm")
-        env = Envelope(args.slot or "box", (size[0], size[1], size[2]), Pose(np.eye(3), np.array(at)),
-                       _quantity(args.clearance, "--clearance", "length"))
+        size = args.box
+        env = Envelope(args.slot or "box", (size[0], size[1], size[2]), Pose(np.eye(3), args.at), args.clearance)
     else:
         if not args.slot:
             raise ValueError("give --slot NAME (a model slot), --plan with --slot, or --box with --at and --clearance")
@@ -263,10 +243,10 @@ def _size_block(args: argparse.Namespace) -> int:
         rule_lines.append(f"note: the slot now holds {', '.join(held)}; the block is sized for the empty slot "
                           "(--replace-existing counts them out of the rules)")
     target = None
-    if args.target is not None and args.target.strip().lower() == "rules":
+    if args.target == "rules":
         if args.margin is None and margin_default is None:
             raise ValueError("--target rules needs --margin (or a plan's mass_margin)")
-        margin = _quantity(args.margin, "--margin", "mass") if args.margin else float(margin_default or 0.0)
+        margin = args.margin if args.margin is not None else float(margin_default or 0.0)
         target, needs = rules_target(model, margin, path, replace_paths)
         if replace_paths:
             rule_lines.append(f"replacing {', '.join(replace_paths)} "
@@ -280,7 +260,7 @@ def _size_block(args: argparse.Namespace) -> int:
                             + ["  the mass rules already pass with the margin: no block is needed"]))
             return 0
     elif args.target is not None:
-        target = _quantity(args.target, "--target", "mass")
+        target = args.target
     sizing = size_block(env, spec, target) if target is not None else heaviest_block(env, spec)
     fits = [] if args.no_fit else check_fit(sizing)
     others = []
@@ -337,26 +317,19 @@ def _place(args: argparse.Namespace) -> int:
         plan = plan.without(args.without)
     if args.objective:
         plan = plan.with_targets(objective=Objective(args.objective))
-    if args.margin:
-        plan = plan.with_targets(mass_margin=_quantity(args.margin, "--margin", "mass"))
-    if args.allowance:
-        plan = plan.with_targets(ballast_allowance=_quantity(args.allowance, "--allowance", "mass"))
+    if args.margin is not None:
+        plan = plan.with_targets(mass_margin=args.margin)
+    if args.allowance is not None:
+        plan = plan.with_targets(ballast_allowance=args.allowance)
     if args.front_fraction:
-        parts = args.front_fraction.split(",")
-        target = _number(parts[0], "--front-fraction")
-        tol = _number(parts[1], "--front-fraction") if len(parts) > 1 else 0.0
-        if not 0.0 < target < 1.0 or not 0.0 <= tol < 0.5:
-            raise ValueError(f"--front-fraction {args.front_fraction!r}: a fraction in (0, 1) and a tolerance in [0, 0.5)")
+        target, tol = args.front_fraction
         plan = plan.with_targets(fraction_target=target, fraction_tolerance=tol)
     if args.material:
         plan = material_override(plan, model, args.material)
-    for item in args.capacity:
-        slot, _, value = item.partition("=")
-        if not value:
-            raise ValueError(f"--capacity {item!r}: expected SLOT=MASS, e.g. floor_front=12kg")
-        plan = plan.with_candidate(slot, capacity=_quantity(value, "--capacity", "mass"))
-    if args.increment:
-        inc = _quantity(args.increment, "--increment", "length")
+    for slot, capacity in args.capacity:
+        plan = plan.with_candidate(slot, capacity=capacity)
+    if args.increment is not None:
+        inc = args.increment
         for c in plan.candidates:
             plan = plan.with_candidate(c.name, spec=replace(c.spec, increment=inc))
     if not plan.candidates:
@@ -390,7 +363,7 @@ def _place(args: argparse.Namespace) -> int:
                 print(f"  {path}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance {f.clearance * 1e3:.3f} mm "
                       f"(required {f.required_clearance * 1e3:.3f} mm)" + (f": {f.reason}" if f.reason else ""))
     if args.out_model:
-        overrides = _overrides(args)
+        overrides = dict(args.overrides)
         removed = [p for al in result.allocations for p in al.candidate.replace]
         new_slots = [al.candidate.envelope for al in result.allocations if al.candidate.from_plan and al.sizing]
         header = [f"{model.name} with ballast placed by massmodel place-ballast (plan '{plan.name}', "
@@ -458,14 +431,14 @@ def _seat(args: argparse.Namespace) -> int:
     from massmodel.report.summary import write_json_atomic
 
     model = load_from_args(args)
-    fx, fy = _lengths(args.plate, "--plate", 2)
-    at = tuple(_lengths(args.at, "--at", 2)) if args.at else None
-    heights = np.array(_lengths(args.heights, "--heights")) if args.heights else None
+    fx, fy = args.plate
+    at = args.at
+    heights = np.array(args.heights) if args.heights else None
     if args.steps < 2:
         raise ValueError("--steps must be at least 2")
-    study = seat_ballast_study(model, _material(model, args.material), _quantity(args.margin, "--margin", "mass"),
+    study = seat_ballast_study(model, _material(model, args.material), args.margin,
                                rule_name=args.rule, seat_group=args.seat_group, footprint=(fx, fy),
-                               increment=_quantity(args.increment, "--increment", "length"), at=at,  # type: ignore[arg-type]
+                               increment=args.increment, at=at,  # type: ignore[arg-type]
                                heights=heights, steps=args.steps)
     print(format_seat(study))
     if args.plot:

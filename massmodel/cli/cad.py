@@ -12,6 +12,7 @@ from typing import Any
 
 from massmodel.cli import EXIT_FAIL
 
+from .args import in_unit
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register"]
@@ -30,7 +31,7 @@ def register(sub: argparse._SubParsersAction) -> None:
                         "always written)")
     p.add_argument("--stl", choices=["model", "parts", "both"], default="model",
                    help="one STL of the whole selection, one STL per part, or both (default: model)")
-    p.add_argument("--chord", type=float, default=0.1, metavar="MM",
+    p.add_argument("--chord", type=in_unit("length", "mm"), default=0.1, metavar="MM",
                    help="largest distance between STL/GLB triangles and the exact surfaces, mm (default 0.1)")
     p.add_argument("--name", metavar="STEM", help="file name stem (default: the model name, plus the selection)")
     p.set_defaults(run=_export)
@@ -41,9 +42,9 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--near", action="append", metavar="PATH",
                    help="measure the clearance of this part or group to its neighbours (repeatable; default: every "
                         "part that names a slot)")
-    p.add_argument("--gap", type=float, metavar="MM",
+    p.add_argument("--gap", type=in_unit("length", "mm"), metavar="MM",
                    help="required clearance of those parts to any neighbour, mm (default: the part's slot clearance)")
-    p.add_argument("--reach", type=float, default=50.0, metavar="MM",
+    p.add_argument("--reach", type=in_unit("length", "mm"), default=50.0, metavar="MM",
                    help="neighbours farther than this are not measured, mm (default 50)")
     p.add_argument("--sliver", type=float, default=1.0, metavar="MM3",
                    help="common volumes below this count as touching, not interference, mm^3 (default 1)")

@@ -10,6 +10,8 @@ from typing import Any
 
 from massmodel.cli import EXIT_FAIL
 
+from .args import override, point_or_cg
+
 __all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from_args", "parse_point", "parse_axes"]
 
 
@@ -17,7 +19,7 @@ def add_model_arguments(p: argparse.ArgumentParser) -> None:
     """The model file argument and ``--set name=value`` overrides, shared by every command that reads a model."""
     p.add_argument("model", type=Path, help="model file (TOML)")
     p.add_argument(
-        "--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE",
+        "--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE", type=override,
         help="override a parameter without editing the file, e.g. --set fuel_mass='10 kg' (repeatable)",
     )
     p.add_argument("--case", metavar="NAME", help="evaluate the model in one of its load cases ([[case]] tables)")
@@ -25,22 +27,19 @@ def add_model_arguments(p: argparse.ArgumentParser) -> None:
 
 def load_from_args(args: argparse.Namespace):  # -> Model
     """Load the model named on the command line with its overrides."""
-    from massmodel.core.expr import parse_override
     from massmodel.modelfile.loader import load_model
 
-    overrides = dict(parse_override(text) for text in args.overrides)
-    return load_model(args.model, overrides=overrides, case=args.case)
+    return load_model(args.model, overrides=dict(args.overrides), case=args.case)
 
 
 def load_cases_from_args(args: argparse.Namespace):  # -> dict[str, Model]
     """The models of the base and of every load case (only the one named by ``--case`` when given)."""
-    from massmodel.core.expr import parse_override
     from massmodel.modelfile.loader import load_case_models
 
     if args.case is not None:
         model = load_from_args(args)
         return {model.case: model}
-    return load_case_models(args.model, overrides=dict(parse_override(text) for text in args.overrides))
+    return load_case_models(args.model, overrides=dict(args.overrides))
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -53,9 +52,10 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--all-cases", action="store_true",
                    help="the base and every load case side by side (mass, CG, axle and corner loads, inertia, rules)")
     p.add_argument(
-        "--inertia-about", dest="inertia_about", action="append", default=[], metavar="POINT",
+        "--inertia-about", dest="inertia_about", action="append", default=[], metavar="POINT", type=point_or_cg,
         help="also give the tensor of the whole model about POINT, model coordinates with units, e.g. "
-        "'0 mm, 0 mm, -265 mm' (model parameters may be used: '0, 0, ground_z'), or 'cg' (repeatable)",
+        "'0, 0, -265 mm' or '0 mm, 0 mm, -0.265 m' (model parameters may be used: '0, 0, ground_z'), or 'cg' "
+        "(repeatable)",
     )
     p.add_argument(
         "--inertia-axes", dest="inertia_axes", default="model", metavar="AXES",
@@ -73,38 +73,18 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 
 def parse_point(text: str, env: Mapping[str, Any]) -> Any:
-    """A point given on the command line: three lengths with units separated by commas (SI result, (3,) m).
+    """A point given on the command line (:func:`massmodel.cli.args.point_or_cg`), evaluated with the model's
+    parameters ``env``: (3,) m, or None for ``"cg"``.
 
-    Each coordinate is an expression of the model-file language and may use the model's parameters; a bare 0 needs
-    no unit. ``"cg"`` gives None (the model's CG).
+    Raises
+    ------
+    ValueError
+        One line naming ``--inertia-about`` and the coordinate.
     """
-    import numpy as np
-
-    from massmodel.core.expr import ExpressionError, evaluate
-    from massmodel.core.shapes import MAX_LENGTH_M
-    from massmodel.core.units import DIMENSIONLESS, LENGTH, UnitError
-
-    if text.strip().lower() == "cg":
-        return None
-    parts = text.split(",")
-    if len(parts) != 3:
-        raise ValueError(f"--inertia-about {text!r}: expected three coordinates with units, e.g. '0 mm, 0 mm, -265 mm'")
-    out = []
-    for axis, part in zip("xyz", parts, strict=True):
-        try:
-            q = evaluate(part.strip(), env)
-        except (ExpressionError, UnitError) as exc:
-            raise ValueError(f"--inertia-about {text!r}, {axis}: {exc.args[0].splitlines()[0]}") from None
-        if q.dim == DIMENSIONLESS and q.value == 0.0:
-            out.append(0.0)
-        elif q.dim == LENGTH:
-            if abs(q.value) > MAX_LENGTH_M:  # the parallel-axis term would overflow to a non-finite tensor
-                raise ValueError(f"--inertia-about {text!r}, {axis}: {q.value:g} m is farther than "
-                                 f"{MAX_LENGTH_M:g} m from the origin")
-            out.append(q.value)
-        else:
-            raise ValueError(f"--inertia-about {text!r}, {axis}: expected a length with a unit such as '250 mm'")
-    return np.array(out)
+    try:
+        return point_or_cg(text).resolve(env)
+    except (ValueError, argparse.ArgumentTypeError) as exc:
+        raise ValueError(f"--inertia-about {exc}") from None
 
 
 def parse_axes(text: str, vehicle: Any, env: Mapping[str, Any]) -> Any:
@@ -161,8 +141,8 @@ def _report(args: argparse.Namespace) -> int:
     model = load_from_args(args)
     axes = parse_axes(args.inertia_axes, model.vehicle, model.parameters)
     requests = [
-        InertiaRequest(parse_point(text, model.parameters), axes, label=text.strip(), axes_label=args.inertia_axes)
-        for text in args.inertia_about
+        InertiaRequest(_resolve(p, model.parameters), axes, label=p.text, axes_label=args.inertia_axes)
+        for p in args.inertia_about
     ]
     report = build_report(model, requests)
     print(format_report(report, DisplayUnits(args.units), components=not args.brief))
@@ -170,6 +150,13 @@ def _report(args: argparse.Namespace) -> int:
         write_json_atomic(report, args.json)
         print(f"\nreport written to {args.json}")
     return EXIT_FAIL if args.strict and not report["rules_passed"] else 0
+
+
+def _resolve(p: Any, env: Mapping[str, Any]) -> Any:
+    try:
+        return p.resolve(env)
+    except ValueError as exc:
+        raise ValueError(f"--inertia-about: {exc}") from None
 
 
 def _report_cases(args: argparse.Namespace) -> int:

@@ -6,6 +6,8 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from .args import override, quantity
+
 __all__ = ["register"]
 
 
@@ -13,7 +15,7 @@ def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("session", type=Path, help="measurement session file (TOML, docs/measure.md)")
     p.add_argument("--model", type=Path, metavar="FILE",
                    help="model file to compare with (default: the one named in the session's [session] model)")
-    p.add_argument("--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE",
+    p.add_argument("--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE", type=override,
                    help="override a model parameter, e.g. --set fuel_mass='10 kg' (repeatable)")
     p.add_argument("--json", type=Path, metavar="FILE", help="also write the machine-readable result (SI)")
 
@@ -23,7 +25,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     _common(p)
     p.add_argument("--write-model", type=Path, metavar="FILE",
                    help="write a model file that extends the model with the unaccounted item (never the input)")
-    p.add_argument("--item-height", default="auto", metavar="auto|model-cg|lift|LENGTH",
+    p.add_argument("--item-height", default="auto", metavar="auto|model-cg|lift|LENGTH", type=_height,
                    help="height of the unaccounted item above the ground in that file: from the axle lift "
                         "(auto when the session has one), at the model's CG height, or a length such as '300 mm'")
     p.set_defaults(run=_weigh)
@@ -38,10 +40,9 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 
 def _load(args: argparse.Namespace, need_model: bool = False):  # -> (Session, Model | None, overrides)
-    from massmodel.core.expr import parse_override
     from massmodel.measure.analysis import load_session_and_model
 
-    overrides = dict(parse_override(text) for text in args.overrides)
+    overrides = dict(args.overrides)
     session, model = load_session_and_model(args.session, args.model, overrides)
     if need_model and model is None:
         raise ValueError(f"{args.session}: no model to compare with: name one in [session] model or with --model")
@@ -49,17 +50,13 @@ def _load(args: argparse.Namespace, need_model: bool = False):  # -> (Session, M
 
 
 def _height(text: str) -> str | float:
+    """``--item-height``: ``auto``, ``model-cg``, ``lift`` or a length (SI)."""
     if text in ("auto", "model-cg", "lift"):
         return text
-    from massmodel.core import expr, units
-
     try:
-        q = expr.evaluate(text)
-    except (expr.ExpressionError, units.UnitError) as exc:
-        raise ValueError(f"--item-height: {exc}") from None
-    if q.dim != units.LENGTH:
-        raise ValueError(f"--item-height: expected auto, model-cg, lift or a length such as '300 mm', got {text!r}")
-    return q.value
+        return quantity("length", "300 mm")(text)
+    except argparse.ArgumentTypeError as exc:
+        raise argparse.ArgumentTypeError(f"expected auto, model-cg, lift or a length: {exc}") from None
 
 
 def _finish(args: argparse.Namespace, report: dict, text: str) -> int:
@@ -76,7 +73,7 @@ def _weigh(args: argparse.Namespace) -> int:
     from massmodel.measure.analysis import analyse_weighing, weighing_report, write_updated_model
     from massmodel.report.measure import format_weighing
 
-    height = _height(args.item_height)
+    height = args.item_height
     session, model, overrides = _load(args, need_model=args.write_model is not None)
     analysis = analyse_weighing(session, model)
     report = weighing_report(analysis)

@@ -6,17 +6,14 @@ import argparse
 from collections.abc import Callable
 from pathlib import Path
 
+from .args import acceleration_in_g
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register"]
 
 
 def _g_value(text: str) -> float:
-    try:
-        value = float(text.strip().removesuffix("g").strip())
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected an acceleration in g such as 1.2, got {text!r}") from None
-    return value
+    return acceleration_in_g(text)
 
 
 def _magnitude(label: str, sign_x: float, sign_y: float) -> Callable[[str], tuple[str, float, float]]:

@@ -6,6 +6,7 @@ import argparse
 import time
 from pathlib import Path
 
+from .args import in_unit
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register", "parse_size", "scene_options"]
@@ -61,7 +62,7 @@ def _picture_arguments(p: argparse.ArgumentParser) -> None:
                    help="group level of the legend and the group CG markers (1 = top-level groups)")
     p.add_argument("--hide", action="append", default=[], metavar="ITEM[,ITEM]",
                    help=f"leave out: {', '.join(HIDEABLE)} (repeatable or comma-separated)")
-    p.add_argument("--tolerance", type=float, default=2.0, metavar="MM",
+    p.add_argument("--tolerance", type=in_unit("length", "mm"), default=2.0, metavar="MM",
                    help="chord error of the display meshes, mm (default 2)")
 
 

@@ -10,18 +10,37 @@ Every error names the file, the item and the field (:class:`MeasurementFileError
 
 from __future__ import annotations
 
-import enum
-import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
-import numpy.typing as npt
 
 from massmodel.core import expr, units
-from massmodel.modelfile.loader import ModelFileError
+from massmodel.modelfile.reader import (
+    ModelFileError,
+    TableReader,
+    parse_toml,
+    read_toml,
+    read_units,
+    split_vector,
+)
+
+from .records import (
+    CORNERS,
+    DEFAULT_GEOMETRY_TOLERANCE_M,
+    CarGeometry,
+    Comparison,
+    Fixture,
+    FloatArray,
+    LiftDirection,
+    LiftReading,
+    LiftSeries,
+    PendulumKind,
+    PendulumTest,
+    Session,
+    Weighing,
+)
 
 __all__ = [
     "MeasurementFileError",
@@ -40,13 +59,6 @@ __all__ = [
     "CORNERS",
     "DEFAULT_GEOMETRY_TOLERANCE_M",
 ]
-
-FloatArray = npt.NDArray[np.float64]
-
-#: Corner order used everywhere: front-left, front-right, rear-left, rear-right.
-CORNERS = ("front_left", "front_right", "rear_left", "rear_right")
-#: How far the session's wheelbase and tracks may differ from the model's [vehicle] unless [car] tolerance says.
-DEFAULT_GEOMETRY_TOLERANCE_M = 0.010
 
 _KINDS: dict[str, units.Dimension] = {
     "mass": units.MASS,
@@ -73,7 +85,6 @@ PENDULUM_FIELDS = {"name", "kind", "body_mass", "wire_length", "wire_spacing", "
 FIXTURE_FIELDS = {"mass", "periods", "timing", "inertia", "pivot_to_cg", "note"}
 COMPARE_FIELDS = {"axis", "through", "groups", "exclude"}
 
-
 class MeasurementFileError(ModelFileError):
     """A problem in a measurement session file, naming the file, the item and the field.
 
@@ -81,190 +92,12 @@ class MeasurementFileError(ModelFileError):
     """
 
 
-@dataclass(frozen=True, slots=True)
-class Weighing:
-    """One weighing: the four corner loads with the car standing on the pads.
+class _Reader(TableReader):
+    error_type = MeasurementFileError
 
-    Attributes
-    ----------
-    label : str
-        Name of the weighing ("1", "2", ... by default).
-    loads : (4,) float
-        Mass-equivalent loads FL, FR, RL, RR, kg (each > 0).
-    pads : tuple of 4 str or None
-        Which pad stood under FL, FR, RL, RR (to see pad offsets when the pads were rotated between weighings).
-    note : str
-    origin : str
-        "file: weighing 'label'", for messages.
-    """
-
-    label: str
-    loads: FloatArray
-    pads: tuple[str, str, str, str] | None
-    note: str
-    origin: str
-
-
-@dataclass(frozen=True, slots=True)
-class CarGeometry:
-    """Geometry of the car measured on the day (each None when not given), m."""
-
-    wheelbase: float | None = None
-    track_front: float | None = None
-    track_rear: float | None = None
-    tyre_loaded_radius: float | None = None
-    tolerance: float = DEFAULT_GEOMETRY_TOLERANCE_M
-
-
-class LiftDirection(enum.Enum):
-    """Whether a reading was taken while lifting or while lowering the axle."""
-
-    LIFTING = "lifting"
-    LOWERING = "lowering"
-
-
-@dataclass(frozen=True, slots=True)
-class LiftReading:
-    """One reading of an axle-lift series.
-
-    Exactly one of ``angle`` (rad, 0 < θ < 90°) and ``rise`` (m, rise of the lifted wheel centres above their level
-    position, sin θ = rise / wheelbase) is given. ``load`` is the mass-equivalent load on the axle that stays on the
-    scales, kg.
-    """
-
-    angle: float | None
-    rise: float | None
-    load: float
-    direction: LiftDirection
-    field: str  # "reading[3]", for messages
-
-
-@dataclass(frozen=True, slots=True)
-class LiftSeries:
-    """One axle-lift series: one axle lifted in steps (and lowered again), the other on the scales.
-
-    Attributes
-    ----------
-    name : str
-    lifted : str
-        "front" or "rear": the axle that is lifted.
-    level_front, level_rear : float
-        Axle loads with the car level (before lifting), kg.
-    readings : tuple of LiftReading
-    wheelbase, tyre_loaded_radius : float or None
-        m; None → the session's [car] values (or the model's wheelbase).
-    uncertainty : mapping
-        Standard uncertainties of the inputs ('angle' rad, 'rise' m, 'wheelbase' m, 'tyre_loaded_radius' m,
-        'mass' kg), for the uncertainty budget.
-    origin : str
-    """
-
-    name: str
-    lifted: str
-    level_front: float
-    level_rear: float
-    readings: tuple[LiftReading, ...]
-    wheelbase: float | None
-    tyre_loaded_radius: float | None
-    uncertainty: Mapping[str, float]
-    note: str
-    origin: str
-
-    @property
-    def staying(self) -> str:
-        """The axle that stays on the scales."""
-        return "rear" if self.lifted == "front" else "front"
-
-
-class PendulumKind(enum.Enum):
-    """Kinds of pendulum test (formulas in :mod:`massmodel.measure.pendulum`)."""
-
-    BIFILAR = "bifilar"
-    TRIFILAR = "trifilar"
-    COMPOUND = "compound"
-
-
-@dataclass(frozen=True, slots=True)
-class Fixture:
-    """What swings with the body: a platform, a cradle or a swing frame.
-
-    Its inertia about the pendulum axis is given (``inertia``, kg·m²) or follows from its own periods swung empty
-    (``periods``, s). ``pivot_to_cg`` (m) is needed for a compound pendulum.
-    """
-
-    mass: float
-    periods: FloatArray | None
-    inertia: float | None
-    pivot_to_cg: float | None
-
-
-@dataclass(frozen=True, slots=True)
-class Comparison:
-    """Which part of the model to compare with and about which axis.
-
-    ``axis`` is a unit vector in model axes; ``axis_name`` what the user wrote ("up", "[0, 1, 0]").
-    ``through`` is a point in the model frame (m), or None for the CG of the selected components.
-    """
-
-    axis: FloatArray | None
-    axis_name: str
-    through: FloatArray | None
-    groups: tuple[str, ...]
-    exclude: tuple[str, ...]
-
-
-@dataclass(frozen=True, slots=True)
-class PendulumTest:
-    """One pendulum test (fields in SI; geometry fields used by its kind only, else None)."""
-
-    name: str
-    kind: PendulumKind
-    body_mass: float
-    periods: FloatArray
-    wire_length: float | None
-    wire_spacing: float | None
-    wire_radius: float | None
-    pivot_to_cg: float | None
-    fixture: Fixture | None
-    gravity: float
-    gravity_given: bool
-    amplitude: float | None
-    uncertainty: Mapping[str, float]
-    compare: Comparison | None
-    note: str
-    origin: str
-
-
-@dataclass(frozen=True, slots=True)
-class Session:
-    """A measurement session file, SI throughout."""
-
-    name: str
-    date: str
-    model_path: Path | None
-    car: CarGeometry
-    scale_uncertainty: float | None
-    weighings: tuple[Weighing, ...]
-    lifts: tuple[LiftSeries, ...]
-    pendulums: tuple[PendulumTest, ...]
-    note: str
-    source: str
-
-
-class _Reader:
     def __init__(self, file: str, defaults: Mapping[str, float]) -> None:
-        self.file = file
+        super().__init__(file)
         self.defaults = defaults
-
-    def error(self, item: str | None, field: str | None, message: str) -> MeasurementFileError:
-        return MeasurementFileError(self.file, item, field, message)
-
-    def check_fields(self, table: Any, allowed: set[str], item: str, field_prefix: str = "") -> None:
-        if not isinstance(table, dict):
-            raise self.error(item, field_prefix.rstrip(".") or None, "expected a table")
-        unknown = sorted(set(table) - allowed)
-        if unknown:
-            raise self.error(item, field_prefix + unknown[0], f"unknown field; allowed: {', '.join(sorted(allowed))}")
 
     def quantity(self, value: Any, kinds: tuple[str, ...], item: str, field: str) -> float:
         """A scalar of one of ``kinds``, SI; a force kind comes back as a mass-equivalent (divided by g_n)."""
@@ -310,12 +143,6 @@ class _Reader:
             raise self.error(item, key, f"expected text, got {value!r}")
         return value
 
-    def table_list(self, data: Mapping[str, Any], key: str, item: str) -> list[dict[str, Any]]:
-        value = data.get(key, [])
-        if not isinstance(value, list) or not all(isinstance(t, dict) for t in value):
-            raise self.error(item, None, f"write each entry as a [[{key}]] table")
-        return value
-
     def periods(self, table: Mapping[str, Any], item: str, prefix: str = "") -> FloatArray | None:
         """Periods from ``periods = [...]`` or ``timing = [{ cycles = N, time = ... }, ...]`` (one of them)."""
         has = [k for k in ("periods", "timing") if k in table]
@@ -342,21 +169,6 @@ class _Reader:
         return np.array(out)
 
 
-def _read_toml(path: Path, label: str) -> dict[str, Any]:
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise MeasurementFileError(label, None, None, f"cannot read the file ({exc.strerror or exc})") from None
-    return _parse(text, label)
-
-
-def _parse(text: str, label: str) -> dict[str, Any]:
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise MeasurementFileError(label, None, None, f"not valid TOML: {exc}") from None
-
-
 def load_session(path: str | Path) -> Session:
     """Read a measurement session file.
 
@@ -376,12 +188,12 @@ def load_session(path: str | Path) -> Session:
         Naming the file, the item and the field.
     """
     p = Path(path)
-    return _build(_read_toml(p, str(path)), str(path), p.parent)
+    return _build(read_toml(p, str(path), error=MeasurementFileError), str(path), p.parent)
 
 
 def loads_session(text: str, *, label: str = "<text>", base_dir: str | Path = ".") -> Session:
     """Like :func:`load_session`, from a string (for tests and tools)."""
-    return _build(_parse(text, label), label, Path(base_dir))
+    return _build(parse_toml(text, label, MeasurementFileError), label, Path(base_dir))
 
 
 def _build(data: dict[str, Any], label: str, base_dir: Path) -> Session:
@@ -389,20 +201,7 @@ def _build(data: dict[str, Any], label: str, base_dir: Path) -> Session:
     if unknown:
         raise MeasurementFileError(label, None, None,
                                    f"unknown section '{unknown[0]}'; sections: {', '.join(sorted(TOP_LEVEL_KEYS))}")
-    defaults: dict[str, float] = {}
-    unit_table = data.get("units", {})
-    if not isinstance(unit_table, dict):
-        raise MeasurementFileError(label, "[units]", None, "must be a table like { mass = \"kg\" }")
-    for kind, text in unit_table.items():
-        if kind not in _UNIT_KINDS:
-            raise MeasurementFileError(label, "[units]", kind, f"unknown quantity kind; known: {', '.join(_UNIT_KINDS)}")
-        try:
-            q = units.parse_unit(str(text))
-        except units.UnitError as exc:
-            raise MeasurementFileError(label, "[units]", kind, str(exc)) from None
-        if q.dim != _KINDS[kind]:
-            raise MeasurementFileError(label, "[units]", kind, f"'{text}' is not a {kind} unit")
-        defaults[kind] = q.value
+    defaults = read_units(data.get("units", {}), {k: _KINDS[k] for k in _UNIT_KINDS}, label, MeasurementFileError)
     rd = _Reader(label, defaults)
 
     head = data.get("session", {})
@@ -665,28 +464,34 @@ def _comparison(rd: _Reader, table: Any, item: str) -> Comparison:
                                              "vector [x, y, z] in model axes")
     raw = table["axis"]
     axis: FloatArray | None
-    if isinstance(raw, str):
+    if isinstance(raw, str) and "," not in raw:
         if raw not in _DIRECTIONS:
             raise rd.error(item, "compare.axis", f"expected one of {', '.join(_DIRECTIONS)} or [x, y, z], got {raw!r}")
         axis, name = None, raw
     else:
-        if not isinstance(raw, list) or len(raw) != 3:
-            raise rd.error(item, "compare.axis", f"expected a direction name or [x, y, z], got {raw!r}")
-        v = np.array([rd.quantity(x, ("number",), item, f"compare.axis[{i}]") for i, x in enumerate(raw)])
+        try:
+            entries = split_vector(raw, 3, "direction")
+        except ValueError:
+            raise rd.error(item, "compare.axis", f"expected a direction name or [x, y, z], got {raw!r}") from None
+        v = np.array([rd.quantity(x, ("number",), item, f"compare.axis[{i}]") for i, x in enumerate(entries)])
         n = float(np.linalg.norm(v))
         if n == 0.0:
             raise rd.error(item, "compare.axis", "the axis vector is zero")
         axis = v / n
-        name = "[" + ", ".join(str(x) for x in raw) + "]"
+        name = raw if isinstance(raw, str) else "[" + ", ".join(str(x) for x in raw) + "]"
     through = None
     if "through" in table:
         t = table["through"]
         if t == "cg":
             through = None
-        elif isinstance(t, list) and len(t) == 3:
-            through = np.array([rd.quantity(x, ("length",), item, f"compare.through[{i}]") for i, x in enumerate(t)])
         else:
-            raise rd.error(item, "compare.through", f"expected \"cg\" or a point [x, y, z] in the model frame, got {t!r}")
+            try:
+                entries = split_vector(t)
+            except ValueError:
+                raise rd.error(item, "compare.through", "expected \"cg\" or a point in the model frame such as "
+                                                        f"[x, y, z] or '0, 0, -265 mm', got {t!r}") from None
+            through = np.array([rd.quantity(x, ("length",), item, f"compare.through[{i}]")
+                                for i, x in enumerate(entries)])
 
     def paths(key: str, default: tuple[str, ...]) -> tuple[str, ...]:
         v = table.get(key, list(default))

@@ -14,14 +14,16 @@ from massmodel.core import expr
 from massmodel.core.loadcases import BASE_CASE, LoadCase, case_includes, check_cases, rule_applies
 from massmodel.core.model import Component, Rule
 
+from .fields import PATH_RE, FieldReader, expression_message
+from .reader import ModelFileError
+
 __all__ = ["CASE_FIELDS", "read_cases", "find_case", "check_case_parameters", "rule_case_names", "select_case"]
 
 CASE_FIELDS = {"name", "description", "set", "switch_off", "switch_on", "general_rules", "note"}
 _NAME_RE = re.compile(r"^[A-Za-z0-9_.\-]+$")
-_PATH_RE = re.compile(r"^[A-Za-z0-9_.\-]+(/[A-Za-z0-9_.\-]+)*$")
 
 
-def read_cases(rd: Any, tables: Sequence[dict[str, Any]], parameters: Mapping[str, Any]) -> tuple[LoadCase, ...]:
+def read_cases(rd: FieldReader, tables: Sequence[dict[str, Any]], parameters: Mapping[str, Any]) -> tuple[LoadCase, ...]:
     """Parse the ``[[case]]`` tables (syntax only; paths are checked once the parts are built).
 
     Parameters
@@ -61,7 +63,7 @@ def read_cases(rd: Any, tables: Sequence[dict[str, Any]], parameters: Mapping[st
     return tuple(cases)
 
 
-def _overrides(rd: Any, value: Any, item: str, parameters: Mapping[str, Any]) -> tuple[tuple[str, str], ...]:
+def _overrides(rd: FieldReader, value: Any, item: str, parameters: Mapping[str, Any]) -> tuple[tuple[str, str], ...]:
     if not isinstance(value, dict):
         raise rd.error(item, "set", "expected a table of parameter = value, e.g. set = { fuel_mass = \"10 kg\" }")
     out = []
@@ -78,9 +80,9 @@ def _overrides(rd: Any, value: Any, item: str, parameters: Mapping[str, Any]) ->
     return tuple(out)
 
 
-def _paths(rd: Any, table: Mapping[str, Any], key: str, item: str) -> tuple[str, ...]:
+def _paths(rd: FieldReader, table: Mapping[str, Any], key: str, item: str) -> tuple[str, ...]:
     value = table.get(key, [])
-    if not isinstance(value, list) or not all(isinstance(p, str) and _PATH_RE.match(p) for p in value):
+    if not isinstance(value, list) or not all(isinstance(p, str) and PATH_RE.match(p) for p in value):
         raise rd.error(item, key, f"expected a list of part or group paths such as [\"driver\"], got {value!r}")
     return tuple(value)
 
@@ -92,8 +94,6 @@ def find_case(cases: Sequence[LoadCase], name: str | None, label: str) -> LoadCa
     for case in cases:
         if case.name == name:
             return case
-    from .reader import ModelFileError
-
     known = ", ".join([BASE_CASE, *(c.name for c in cases)])
     raise ModelFileError(label, f"case '{name}'", None, f"no such load case; the file defines: {known}")
 
@@ -102,8 +102,6 @@ def check_case_parameters(
     cases: Sequence[LoadCase], definitions: Mapping[str, Any], overrides: Mapping[str, str], skip: LoadCase | None
 ) -> None:
     """Evaluate the parameters of every case once, so that a bad value is reported whichever case is loaded."""
-    from .reader import ModelFileError
-
     for case in cases:
         if case is skip:
             continue
@@ -111,15 +109,13 @@ def check_case_parameters(
         try:
             expr.evaluate_parameters(definitions, overrides={**mine, **overrides})
         except expr.ParameterError as exc:
-            from .loader import _one_line
-
             field = f"set.{exc.name}" if exc.name in mine else "set"
             # the expression error as one line with its position (not the text and a caret line run together)
-            why = _one_line(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
+            why = expression_message(exc.__cause__) if isinstance(exc.__cause__, expr.ExpressionError) else exc.message
             raise ModelFileError(case.file, f"case '{case.name}'", field, f"parameter '{exc.name}': {why}") from None
 
 
-def rule_case_names(rd: Any, value: Any, item: str) -> tuple[str, ...]:
+def rule_case_names(rd: FieldReader, value: Any, item: str) -> tuple[str, ...]:
     """The ``case`` field of a [[rule]]: one case name or a list of them."""
     names = [value] if isinstance(value, str) else value
     if not isinstance(names, list) or not names or not all(isinstance(n, str) and _NAME_RE.match(n) for n in names):
@@ -136,8 +132,6 @@ def select_case(
     rules: Sequence[Rule],
 ) -> tuple[list[Component], tuple[Rule, ...]]:
     """Check every case's part selection, then keep the parts and rules of ``active`` (None: the base model)."""
-    from .reader import ModelFileError
-
     for case, field, message in check_cases(cases, (c.path for c in components), optional):
         raise ModelFileError(case.file, f"case '{case.name}'", field, message)
     kept = [c for c in components if case_includes(c.path, c.path in optional, active)]

@@ -19,6 +19,8 @@ from massmodel.vehicle.driver import (
     segment_fractions,
 )
 
+from .fields import PALETTE, FieldReader, GroupFrame, colour_of, enclosing_groups, flag, path_of
+
 __all__ = ["DRIVER_FIELDS", "driver_components"]
 
 DRIVER_FIELDS = {"path", "segment_data", "mass", "measured", "stature", "seat_back_angle", "neck_angle", "hip_point",
@@ -27,16 +29,14 @@ _REQUIRED = ("segment_data", "mass", "stature", "seat_back_angle", "hip_point", 
 
 
 def driver_components(
-    rd: Any, table: Mapping[str, Any], index: int, groups: Mapping[str, Any], vehicle: Vehicle | None
+    rd: FieldReader, table: Mapping[str, Any], index: int, groups: Mapping[str, GroupFrame], vehicle: Vehicle | None
 ) -> list[Component]:
     """The body-segment parts of one ``[[driver]]`` table.
 
     The points are in the frame of the group ``path`` (the declared groups enclosing it, and ``path`` itself if
     declared, composed as for parts); the vehicle's forward, left and up directions give "vertical" and "rearwards".
     """
-    from .loader import PALETTE, _colour, _enclosing, _flag, _path
-
-    path = _path(rd, table, "driver", index)
+    path = path_of(rd, table, "driver", index)
     item = f"driver '{path}'"
     rd.check_fields(table, DRIVER_FIELDS, item)
     for key in _REQUIRED:
@@ -44,7 +44,7 @@ def driver_components(
             raise rd.error(item, key, "is missing")
     if vehicle is None:
         raise rd.error(item, None, "a seated driver needs a [vehicle] section (for the forward and up directions)")
-    enclosing = _enclosing(f"{path}/segment", groups)
+    enclosing = enclosing_groups(f"{path}/segment", groups)
     if any(g.mirror for g in enclosing):
         raise rd.error(item, "path", "a driver cannot lie in a mirrored group (it makes both sides itself)")
     key = table["segment_data"]
@@ -71,9 +71,9 @@ def driver_components(
         segments = seated_segments(posture, data)
     except DriverError as exc:
         raise rd.error(item, exc.field, exc.message) from None
-    measured = _flag(rd, table, "measured", item)
+    measured = flag(rd, table, "measured", item)
     if "colour" in table:
-        colour = _colour(rd, table["colour"], item)
+        colour = colour_of(rd, table["colour"], item)
     else:
         colour = next((g.colour for g in reversed(enclosing) if g.colour is not None), None) or PALETTE[
             sum(map(ord, path.split("/")[0])) % len(PALETTE)]
