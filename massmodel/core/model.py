@@ -8,6 +8,7 @@ which the loader checks).
 
 from __future__ import annotations
 
+import copy
 import enum
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -22,6 +23,7 @@ from .massprops import MassProperties, combine_arrays, parallel_axis_shift, vali
 
 if TYPE_CHECKING:
     from .loadcases import LoadCase
+    from .uncertainty import PartUncertainty
 
 __all__ = [
     "Maturity",
@@ -140,6 +142,9 @@ class Component:
         Free text.
     origin : str
         Where the part was defined ("file, item"), for messages.
+    uncertainty : PartUncertainty or None
+        Standard uncertainties of mass, CG and inertia and the growth allowance (None: the defaults by maturity of
+        :mod:`massmodel.uncertainty` apply).
     """
 
     path: str
@@ -157,6 +162,7 @@ class Component:
     slot: str | None = None
     note: str = ""
     origin: str = ""
+    uncertainty: PartUncertainty | None = None
     volume: float = field(init=False)
     props: MassProperties = field(init=False)
     props_local: MassProperties = field(init=False)
@@ -195,6 +201,12 @@ class Component:
         if self.cutouts:
             return MassProperties(mass, center, tensor)
         return MassProperties._valid_tensor(mass, center, tensor)
+
+    def with_uncertainty(self, uncertainty: PartUncertainty | None) -> Component:
+        """The same part with another uncertainty record (the mass properties are shared, not recomputed)."""
+        other = copy.copy(self)
+        object.__setattr__(other, "uncertainty", uncertainty)
+        return other
 
     @property
     def group(self) -> str:

@@ -42,12 +42,13 @@ from massmodel.core.shapes import MAX_LENGTH_M, SHAPE_KINDS, ShapeError
 from . import cases as modelfile_cases
 from . import driver as modelfile_driver
 from .reader import SOURCE_KEY, ModelFileError, parse_toml, read_toml, resolve_extends
+from .uncertainty import attach_uncertainty
 
 __all__ = ["ModelFileError", "ModelSource", "build_model", "load_model", "loads_model", "load_case_models", "read_source",
            "source_from_text", "SHAPE_FILE_FIELDS", "PALETTE"]
 
 TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule", "case",
-                  "driver", "allowed_contact"}
+                  "driver", "allowed_contact", "uncertainty"}
 UNIT_KINDS: dict[str, units.Dimension] = {
     "length": units.LENGTH,
     "mass": units.MASS,
@@ -605,6 +606,7 @@ def _build(
             if name not in case_names:
                 raise ModelFileError(*where, "case", f"the model defines no load case '{name}'; cases: "
                                      f"{', '.join(sorted(case_names))}")
+    components = attach_uncertainty(rd, data.get("uncertainty"), components)  # [uncertainty]: modelfile/uncertainty.py
     components, rules = modelfile_cases.select_case(cases, active, components, optional, rules)
     if not components:  # nothing to weigh: the fractions and the CG of no mass are undefined
         empty = f"case '{active.name}'" if active else "[[part]]"
