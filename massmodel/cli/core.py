@@ -62,6 +62,9 @@ def register(sub: argparse._SubParsersAction) -> None:
         help="axes of the --inertia-about tensors: 'model' (default), 'vehicle' (forward, left, up) or a rotation "
         "of the model axes such as 'extrinsic y: 10 deg' or 'intrinsic zyx: 30 deg, 0, 5 deg'",
     )
+    from massmodel.cli.uncertainty import add_report_options
+
+    add_report_options(p)
     p.set_defaults(run=_report)
 
     p = sub.add_parser("check", help="validate a model file and its rules without a report")
@@ -165,11 +168,14 @@ def _report(args: argparse.Namespace) -> int:
         for text in args.inertia_about
     ]
     report = build_report(model, requests)
+    from massmodel.cli.uncertainty import add_report_uncertainty
+
+    sure = add_report_uncertainty(report, model, args)
     print(format_report(report, DisplayUnits(args.units), components=not args.brief))
     if args.json:
         write_json_atomic(report, args.json)
         print(f"\nreport written to {args.json}")
-    return EXIT_FAIL if args.strict and not report["rules_passed"] else 0
+    return EXIT_FAIL if args.strict and not (report["rules_passed"] and sure) else 0
 
 
 def _report_cases(args: argparse.Namespace) -> int:

@@ -328,7 +328,10 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append("MASS BY MATURITY  " + "   ".join(f"{k}: {v:.2f} kg" for k, v in mat.items()))
     out.append("")
     out.append("TOTAL")
-    out.append(f"  mass            {report['mass_kg']:.3f} kg")
+    # ± u beside the totals when the report carries an uncertainty member
+    from .uncertainty import plus_minus, uncertainty_lines
+
+    out.append(f"  mass            {report['mass_kg']:.3f}{plus_minus(report, 'mass')} kg")
     out.append(f"  CG              {_vec(report['cg_m'], ls, ld)} {lu}")
     if "inertia_cg_kg_m2" in report:
         out.append(f"  inertia about CG ({iu}, model axes, tensor convention):")
@@ -366,6 +369,7 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
              ["rear", _num(c["rear_left"], ".2f"), _num(c["rear_right"], ".2f"), _num(a["rear"], ".2f")]],
         ))
         out.append(f"  assumptions: {report['load_assumptions']}")
+    out.extend(uncertainty_lines(report, units))
     if report["rules"]:
         out.append("")
         out.append("RULE CHECKS")
