@@ -199,3 +199,28 @@ def test_cli_bad_input_is_one_line_and_exit_2(capsys, tmp_path: Path) -> None:
         _run(capsys, "how-sure", p, "--confidence", "1.2")
     assert stop.value.code == 2
     assert "confidence" in capsys.readouterr().err
+
+
+def test_extends_merges_the_section(tmp_path: Path) -> None:
+    base = tmp_path / "base.toml"
+    base.write_text(BASE + '[uncertainty]\nscale_resolution = "0.2 kg"\n[uncertainty.maturity.calculated]\n'
+                    'mass = "4 %"\n[[uncertainty.item]]\npath = "body"\nmass = "10 %"\n'
+                    '[[uncertainty.item]]\npath = "frame"\nmass = "1 kg"\n', encoding="utf-8")
+    child = tmp_path / "child.toml"
+    child.write_text('[model]\nname = "child"\nextends = "base.toml"\nremove = ["body"]\n[units]\nlength = "mm"\n'
+                     'mass = "kg"\n[uncertainty]\n[[uncertainty.item]]\npath = "frame"\ncg = "7 mm"\n',
+                     encoding="utf-8")
+    from massmodel.modelfile.loader import load_model
+
+    u = {c.path: c.uncertainty for c in load_model(child).components}
+    assert "body/panel" not in u  # removed, and its base item with it (no "no part lies at" error)
+    assert u["frame"].mass == pytest.approx(4.0)  # the child's item replaced the base's 1 kg; base maturity table
+    assert u["frame"].cg == pytest.approx((0.007,) * 3)
+    assert u["engine"].mass == pytest.approx(0.2 / (2 * np.sqrt(3)))  # base scale resolution kept
+    # a base item naming a missing path is reported against the base file
+    base.write_text(BASE + '[uncertainty]\n[[uncertainty.item]]\npath = "nothing"\nmass = "1 %"\n', encoding="utf-8")
+    child.write_text('[model]\nname = "child"\nextends = "base.toml"\n[units]\nlength = "mm"\nmass = "kg"\n',
+                     encoding="utf-8")
+    with pytest.raises(ModelFileError) as err:
+        load_model(child)
+    assert err.value.file == str(base) and err.value.field == "path"

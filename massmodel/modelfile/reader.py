@@ -81,6 +81,7 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
     The child's parameters override the base's; its [vehicle] replaces the base's; materials must not clash; its
     groups, parts, slots and rules are added after the base's; ``remove`` (in [model]) drops base parts and groups
     by path (a group path removes everything in it). [units] must agree, so that bare numbers keep their meaning.
+    [uncertainty] merges as :func:`massmodel.modelfile.uncertainty.merge_uncertainty` says.
     """
     head = data.get("model", {})
     if not isinstance(head, dict):
@@ -138,6 +139,11 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
                                    and (t["path"] == path or t["path"].startswith(path + "/")))]
         if len(merged["part"]) + len(merged["group"]) + len(merged["driver"]) == before:
             raise ModelFileError(label, item, "remove", f"the base model has no part or group '{path}'")
+    if "uncertainty" in base or "uncertainty" in data:
+        from .uncertainty import merge_uncertainty  # [uncertainty] merging lives beside its parser
+
+        merged["uncertainty"] = merge_uncertainty(base.get("uncertainty"), data.get("uncertainty"), remove,
+                                                  str(base_path))
     for key in data:
         if key not in merged:
             merged[key] = data[key]

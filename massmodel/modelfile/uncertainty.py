@@ -32,7 +32,9 @@ from massmodel.core.model import Component, Maturity
 from massmodel.core.uncertainty import PartUncertainty
 from massmodel.uncertainty.inputs import MATURITY_DEFAULTS, RECTANGULAR
 
-__all__ = ["attach_uncertainty", "SECTION_FIELDS", "VALUE_FIELDS"]
+from .reader import SOURCE_KEY
+
+__all__ = ["attach_uncertainty", "merge_uncertainty", "SECTION_FIELDS", "VALUE_FIELDS"]
 
 SECTION_FIELDS = {"scale_resolution", "builtin_defaults", "maturity", "item"}
 VALUE_FIELDS = {"mass", "cg", "inertia", "growth"}
@@ -82,6 +84,39 @@ def _values(rd: Any, table: Mapping[str, Any], item: str, is_group: bool) -> dic
         out["scale_resolution"] = non_negative(
             "scale_resolution", rd.quantity(table["scale_resolution"], "mass", item, "scale_resolution"))
     return out
+
+
+def merge_uncertainty(base: Any, child: Any, removed: Sequence[str], base_file: str) -> Any:
+    """The ``[uncertainty]`` of a model that ``extends`` a base file.
+
+    The child's ``scale_resolution`` and ``builtin_defaults`` win; its table for a maturity replaces the base's for
+    that maturity; its items are added after the base's, replacing a base item of the same path. Base items under a
+    path the child removes are dropped. Base items keep the base file's name for messages. A section that is not a
+    table is passed on as it is (the loader reports it).
+    """
+    if base is None:
+        return child
+    child = {} if child is None else child
+    if not isinstance(base, dict) or not isinstance(child, dict):
+        return child or base
+    merged = {**base, **{k: v for k, v in child.items() if k not in ("maturity", "item")}}
+    if isinstance(base.get("maturity"), dict) and isinstance(child.get("maturity"), dict):
+        merged["maturity"] = {**base["maturity"], **child["maturity"]}
+    elif "maturity" in child:
+        merged["maturity"] = child["maturity"]
+    base_items, child_items = base.get("item", []), child.get("item", [])
+    if isinstance(base_items, list) and isinstance(child_items, list):
+        mine = {t.get("path") for t in child_items if isinstance(t, dict)}
+        kept = []
+        for t in base_items:
+            path = t.get("path") if isinstance(t, dict) else None
+            if isinstance(path, str) and (path in mine or any(path == r or path.startswith(r + "/") for r in removed)):
+                continue
+            kept.append({SOURCE_KEY: base_file, **t} if isinstance(t, dict) else t)
+        merged["item"] = kept + child_items
+    elif "item" in child:
+        merged["item"] = child_items
+    return merged
 
 
 def attach_uncertainty(rd: Any, section: Any, components: Sequence[Component]) -> list[Component]:
