@@ -116,6 +116,7 @@ def _fmt(value: float | None, unit: str) -> str:
 
 
 def _rule_table(rules: Sequence[Mapping[str, Any]], with_case: bool = True) -> str:
+    with_mc = any("probability_pass_mc" in r for r in rules)
     rows = []
     for r in rules:
         unit = r["unit"]
@@ -124,11 +125,16 @@ def _rule_table(rules: Sequence[Mapping[str, Any]], with_case: bool = True) -> s
         if "probability_pass_mc" in r:
             mc = f"{100 * r['probability_pass_mc']:.2f} ± {100 * r['probability_pass_mc_se']:.2f}"
         row = [verdict, r["name"], f"{_fmt(r['margin'], unit)} {unit}", f"{_fmt(r['standard_uncertainty'], unit)}",
-               f"{100 * r['probability_pass_rss']:.2f}", mc, _fmt(r["required_margin_rss"], unit),
-               _fmt(r.get("required_margin_mc"), unit)]
+               f"{100 * r['probability_pass_rss']:.2f}", _fmt(r["required_margin_rss"], unit)]
+        if with_mc:
+            row[5:5] = [mc]
+            row.append(_fmt(r.get("required_margin_mc"), unit))
         rows.append(([r["case"]] if with_case else []) + row)
-    head = ["verdict", "rule", "margin", "u", "P rss %", "P mc %", "need rss", "need mc"]
-    return table((["case"] if with_case else []) + head, rows, ("l" if with_case else "") + "llrrrrrr")
+    head = ["verdict", "rule", "margin", "u", "P rss %", "need rss"]
+    if with_mc:
+        head = ["verdict", "rule", "margin", "u", "P rss %", "P mc %", "need rss", "need mc"]
+    align = ("l" if with_case else "") + "ll" + "r" * (len(head) - 2)
+    return table((["case"] if with_case else []) + head, rows, align)
 
 
 def how_sure_data(models: Mapping[str, Model], samples: int = 20000, seed: int | None = 0,

@@ -116,6 +116,15 @@ def monte_carlo(
     draw_mass, draw_inertia = bool(inp.u_mass.any()), bool(inp.u_inertia.any())
     draw_cg = [bool(inp.u_cg[:, a].any()) for a in range(3)]
 
+    # single precision for the (samples × parts) blocks: they hold only the errors and the parts' moments about the
+    # nominal CG, whose sums are small against the totals they correct (those stay in double precision)
+    f32 = np.float32
+    m32, r32, two_r32 = m.astype(f32), r.astype(f32), (2.0 * r).astype(f32)
+    u_mass32, u_inertia32, u_cg32 = inp.u_mass.astype(f32), inp.u_inertia.astype(f32), inp.u_cg.T.astype(f32)
+    r2_32, diag32, masks32 = (r**2).astype(f32), inp.inertia_diag.astype(f32), masks.astype(f32)
+    second0 = (m * r**2).sum(axis=1)  # Σ m r_a², about the nominal CG
+    sub0 = m @ masks
+
     mass = np.empty(samples)
     first = np.empty((samples, 3))  # Σ m'(r + δc)
     second = np.empty((samples, 3))  # Σ m'(r + δc)²
@@ -125,25 +134,30 @@ def monte_carlo(
     for start in range(0, samples, step):
         ns = min(step, samples - start)
         rows = slice(start, start + ns)
-        dm = _normal(rng, (ns, n)) * inp.u_mass if draw_mass else np.zeros((ns, n))
-        ei = _normal(rng, (ns, n)) * inp.u_inertia if draw_inertia else np.zeros((ns, n))
+        dm = _scaled_normal(rng, ns, u_mass32) if draw_mass else np.zeros((ns, n), dtype=f32)
+        ei = _scaled_normal(rng, ns, u_inertia32) if draw_inertia else np.zeros((ns, n), dtype=f32)
         if len(in_group):
             eps = inp.density_low + width * rng.random((ns, len(width)))  # one error per material and sample
-            shared = eps[:, group_of]
-            dm[:, in_group] += shared * m[in_group]
+            shared = eps[:, group_of].astype(f32)
+            dm[:, in_group] += shared * m32[in_group]
             ei[:, in_group] += shared
-        mp = dm
-        mp += m  # m' = m + δm (in place: the block is not needed again)
-        mass[rows] = mp.sum(axis=1)
-        for a in range(3):
-            ra = r[a] + _normal(rng, (ns, n)) * inp.u_cg[:, a] if draw_cg[a] else r[a]
-            mr = mp * ra
-            first[rows, a] = mr.sum(axis=1)
-            mr *= ra
-            second[rows, a] = mr.sum(axis=1)
-        own[rows] = own0 + ei @ inp.inertia_diag  # (ns, N) @ (N, 3)
+        mass[rows] = total0 + dm.sum(axis=1, dtype=np.float64)
+        # the terms linear in δm as matrix products: (ns, N) @ (N, k)
+        first[rows] = dm @ r32.T  # Σ δm r
+        second[rows] = second0 + dm @ r2_32.T  # Σ m r² + Σ δm r²
+        own[rows] = own0 + ei @ diag32  # Σ I (1 + e)
         if masks.shape[1]:
-            sub[rows] = mp @ masks  # (ns, N) @ (N, R)
+            sub[rows] = sub0 + dm @ masks32
+        mp = dm
+        mp += m32  # m' = m + δm (in place: δm is not needed again)
+        for a in range(3):
+            if not draw_cg[a]:
+                continue
+            dc = _scaled_normal(rng, ns, u_cg32[a])
+            first[rows, a] += np.einsum("ij,ij->i", mp, dc)  # Σ m' δc
+            t = dc + two_r32[a]
+            t *= dc
+            second[rows, a] += np.einsum("ij,ij->i", mp, t)  # Σ m' (2 r δc + δc²)
     shift = first / mass[:, None]  # CG − nominal CG
     center = cg0 + shift
     values: dict[str, FloatArray] = {"mass": mass}
@@ -164,6 +178,9 @@ def monte_carlo(
     return MonteCarloResult(samples, seed, MappingProxyType(values), MappingProxyType(subs))
 
 
-def _normal(rng: np.random.Generator, shape: tuple[int, int]) -> npt.NDArray[np.float32]:
-    """Standard normal draws in single precision (twice as fast to make; they only scale small errors)."""
-    return rng.standard_normal(shape, dtype=np.float32)
+def _scaled_normal(rng: np.random.Generator, rows: int, scale: npt.NDArray[np.float32]) -> npt.NDArray[np.float32]:
+    """(rows, N) normal errors with standard deviations ``scale`` (N,), drawn in single precision (about twice as
+    fast to make as double; they only carry small errors)."""
+    z = rng.standard_normal((rows, len(scale)), dtype=np.float32)
+    z *= scale
+    return z
