@@ -31,7 +31,7 @@ __all__ = ["MonteCarloResult", "monte_carlo", "DEFAULT_CHUNK_ELEMENTS"]
 
 FloatArray = npt.NDArray[np.float64]
 
-#: Largest samples × parts block held at once (float64: 16 MiB per array, a handful of arrays live at a time).
+#: Largest samples × parts block held at once (float32: 8 MiB per array, a handful of arrays live at a time).
 DEFAULT_CHUNK_ELEMENTS = 1 << 21
 
 
