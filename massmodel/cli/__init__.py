@@ -35,6 +35,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "massmodel.cli.page",
     "massmodel.cli.transfer",
     "massmodel.cli.view",
+    "massmodel.cli.uncertainty",
 )
 
 

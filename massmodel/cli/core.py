@@ -10,36 +10,10 @@ from typing import Any
 
 from massmodel.cli import EXIT_FAIL
 
-from .args import override, point_or_cg
+from .args import point_or_cg
+from .model_args import add_model_arguments, load_cases_from_args, load_from_args
 
 __all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from_args", "parse_point", "parse_axes"]
-
-
-def add_model_arguments(p: argparse.ArgumentParser) -> None:
-    """The model file argument and ``--set name=value`` overrides, shared by every command that reads a model."""
-    p.add_argument("model", type=Path, help="model file (TOML)")
-    p.add_argument(
-        "--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE", type=override,
-        help="override a parameter without editing the file, e.g. --set fuel_mass='10 kg' (repeatable)",
-    )
-    p.add_argument("--case", metavar="NAME", help="evaluate the model in one of its load cases ([[case]] tables)")
-
-
-def load_from_args(args: argparse.Namespace):  # -> Model
-    """Load the model named on the command line with its overrides."""
-    from massmodel.modelfile.loader import load_model
-
-    return load_model(args.model, overrides=dict(args.overrides), case=args.case)
-
-
-def load_cases_from_args(args: argparse.Namespace):  # -> dict[str, Model]
-    """The models of the base and of every load case (only the one named by ``--case`` when given)."""
-    from massmodel.modelfile.loader import load_case_models
-
-    if args.case is not None:
-        model = load_from_args(args)
-        return {model.case: model}
-    return load_case_models(args.model, overrides=dict(args.overrides))
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -62,6 +36,9 @@ def register(sub: argparse._SubParsersAction) -> None:
         help="axes of the --inertia-about tensors: 'model' (default), 'vehicle' (forward, left, up) or a rotation "
         "of the model axes such as 'extrinsic y: 10 deg' or 'intrinsic zyx: 30 deg, 0, 5 deg'",
     )
+    from massmodel.cli.uncertainty import add_report_options
+
+    add_report_options(p)
     p.set_defaults(run=_report)
 
     p = sub.add_parser("check", help="validate a model file and its rules without a report")
@@ -145,11 +122,14 @@ def _report(args: argparse.Namespace) -> int:
         for p in args.inertia_about
     ]
     report = build_report(model, requests)
+    from massmodel.cli.uncertainty import add_report_uncertainty
+
+    sure = add_report_uncertainty(report, model, args)
     print(format_report(report, DisplayUnits(args.units), components=not args.brief))
     if args.json:
         write_json_atomic(report, args.json)
         print(f"\nreport written to {args.json}")
-    return EXIT_FAIL if args.strict and not report["rules_passed"] else 0
+    return EXIT_FAIL if args.strict and not (report["rules_passed"] and sure) else 0
 
 
 def _resolve(p: Any, env: Mapping[str, Any]) -> Any:

@@ -8,6 +8,7 @@ which the loader checks).
 
 from __future__ import annotations
 
+import copy
 import enum
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -21,6 +22,7 @@ from .frames import Pose
 from .groups import in_group
 from .loadcases import LoadCase
 from .massprops import MassProperties, combine_arrays, parallel_axis_shift, validate_inertia
+from .uncertainty import PartUncertainty
 
 __all__ = [
     "Maturity",
@@ -139,6 +141,9 @@ class Component:
         Free text.
     origin : str
         Where the part was defined ("file, item"), for messages.
+    uncertainty : PartUncertainty or None
+        Standard uncertainties of mass, CG and inertia and the growth allowance (None: the defaults by maturity of
+        :mod:`massmodel.uncertainty` apply).
     """
 
     path: str
@@ -156,6 +161,7 @@ class Component:
     slot: str | None = None
     note: str = ""
     origin: str = ""
+    uncertainty: PartUncertainty | None = None
     volume: float = field(init=False)
     props: MassProperties = field(init=False)
     props_local: MassProperties = field(init=False)
@@ -194,6 +200,12 @@ class Component:
         if self.cutouts:
             return MassProperties(mass, center, tensor)
         return MassProperties._valid_tensor(mass, center, tensor)
+
+    def with_uncertainty(self, uncertainty: PartUncertainty | None) -> Component:
+        """The same part with another uncertainty record (the mass properties are shared, not recomputed)."""
+        other = copy.copy(self)
+        object.__setattr__(other, "uncertainty", uncertainty)
+        return other
 
     @property
     def group(self) -> str:

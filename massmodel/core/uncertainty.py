@@ -16,7 +16,7 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["Estimate", "central_partials", "rss"]
+__all__ = ["Estimate", "PartUncertainty", "central_partials", "rss"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -36,6 +36,44 @@ class Estimate:
         if self.u is None:
             return f"{self.value * scale:.{digits}f}{tail} (uncertainty unknown)"
         return f"{self.value * scale:.{digits}f} ± {self.u * scale:.{digits}f}{tail}"
+
+
+@dataclass(frozen=True, slots=True)
+class PartUncertainty:
+    """Standard uncertainties (coverage factor k = 1) of one part's mass properties, and its growth allowance.
+
+    Every value is SI. The errors of different parts are independent; the density error shared by every part of one
+    material with a density band is not stored here (see :mod:`massmodel.uncertainty.inputs`).
+
+    Parameters
+    ----------
+    mass : float
+        Standard uncertainty of the part's mass, kg.
+    cg : (3,) tuple of float
+        Standard uncertainty of each CG coordinate, m, model axes.
+    inertia : float
+        Relative standard uncertainty of the part's own inertia tensor about its CG (a fraction: 0.1 for 10 %).
+    growth : float
+        Mass growth allowance, a fraction of the mass (a predicted change, not an uncertainty).
+    origin : str
+        Where the values came from ("file, item" or "default for <maturity>"), for messages and reports.
+    """
+
+    mass: float
+    cg: tuple[float, float, float]
+    inertia: float
+    growth: float
+    origin: str = ""
+
+    def __post_init__(self) -> None:
+        cg = tuple(float(v) for v in self.cg)
+        if len(cg) != 3:
+            raise ValueError(f"{self.origin or 'part uncertainty'}: cg needs three values (x, y, z)")
+        object.__setattr__(self, "cg", cg)
+        for name, value in (("mass", self.mass), ("inertia", self.inertia), ("growth", self.growth),
+                            ("cg", min(cg))):
+            if not (value >= 0.0 and np.isfinite(value)):
+                raise ValueError(f"{self.origin or 'part uncertainty'}: {name} must be a finite value >= 0")
 
 
 def central_partials(

@@ -9,13 +9,13 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from .reader import ModelFileError, read_toml
+from .reader import SOURCE_KEY, ModelFileError, read_toml
+from .uncertainty import merge_uncertainty
 
 __all__ = ["resolve_extends", "LIST_SECTIONS", "SOURCE_KEY"]
 
 
 LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver", "allowed_contact")
-SOURCE_KEY = "__file__"  # which file a merged table came from (set by resolve_extends, removed before use)
 
 
 _TABLE_SECTIONS = {"parameters": "must be a table of name = value", "materials": "must be a table",
@@ -95,6 +95,9 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
                                    and (t["path"] == path or t["path"].startswith(path + "/")))]
         if len(merged["part"]) + len(merged["group"]) + len(merged["driver"]) == before:
             raise ModelFileError(label, item, "remove", f"the base model has no part or group '{path}'")
+    if "uncertainty" in base or "uncertainty" in data:
+        merged["uncertainty"] = merge_uncertainty(base.get("uncertainty"), data.get("uncertainty"), remove,
+                                                  str(base_path))
     for key in data:
         if key not in merged:
             merged[key] = data[key]

@@ -59,6 +59,7 @@ from .fields import (
 )
 from .parts import part_components
 from .reader import ModelFileError, parse_toml, read_toml, read_units
+from .uncertainty import attach_uncertainty
 
 __all__ = ["ModelFileError", "ModelSource", "build_model", "load_model", "loads_model", "load_case_models", "read_source",
            "source_from_text", "SHAPE_FILE_FIELDS", "PALETTE"]
@@ -341,6 +342,7 @@ def _build(
             if name not in case_names:
                 raise ModelFileError(*where, "case", f"the model defines no load case '{name}'; cases: "
                                      f"{', '.join(sorted(case_names))}")
+    components = attach_uncertainty(rd, data.get("uncertainty"), components)  # [uncertainty]: modelfile/uncertainty.py
     components, rules = modelfile_cases.select_case(cases, active, components, optional, rules)
     if not components:  # nothing to weigh: the fractions and the CG of no mass are undefined
         empty = f"case '{active.name}'" if active else "[[part]]"

@@ -36,6 +36,7 @@ __all__ = [
     "InputError",
     "ModelFileError",
     "MAX_NESTING",
+    "SOURCE_KEY",
     "TableReader",
     "parse_json",
     "parse_toml",
@@ -52,6 +53,8 @@ __all__ = [
 #: Deepest nesting of tables and lists accepted in an input file (the deepest real one, a polygon of vertices in a
 #: part, nests 4 deep). Deeper files are refused by name before anything walks them recursively.
 MAX_NESTING = 32
+
+SOURCE_KEY = "__file__"  # which file a merged table came from (set by resolve_extends, removed before use)
 
 
 class ModelFileError(InputError):

@@ -6,7 +6,6 @@ lengths in mm and inertia in kg·mm² (:class:`DisplayUnits`); conversion happen
 
 from __future__ import annotations
 
-import enum
 import json
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -29,6 +28,7 @@ from massmodel.core.massprops import (
 )
 from massmodel.core.model import Maturity, Model
 from massmodel.report.rules import DECIMALS, dict_limit_text, rule_dict
+from massmodel.report.text import DisplayUnits, table
 from massmodel.vehicle.balance import ASSUMPTIONS, Balance, check_rules, static_balance
 
 __all__ = [
@@ -107,21 +107,6 @@ def inertia_about_entry(mp: MassProperties, request: InertiaRequest) -> dict[str
         "axes": axes.tolist(),
         "inertia_kg_m2": (0.5 * (tensor + tensor.T)).tolist(),
     }
-
-
-class DisplayUnits(enum.Enum):
-    """Units of the terminal tables (the JSON is always SI)."""
-
-    SI = "si"  # m, kg*m^2
-    MM = "mm"  # mm, kg*mm^2
-
-    @property
-    def length(self) -> tuple[str, float]:
-        return ("m", 1.0) if self is DisplayUnits.SI else ("mm", 1e3)
-
-    @property
-    def inertia(self) -> tuple[str, float]:
-        return ("kg*m^2", 1.0) if self is DisplayUnits.SI else ("kg*mm^2", 1e6)
 
 
 def _props_dict(mp: MassProperties) -> dict[str, Any]:
@@ -260,17 +245,6 @@ def write_json_atomic(data: Any, path: str | Path) -> None:
 
 # --- terminal text -------------------------------------------------------------------------------------------
 
-def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | None = None) -> str:
-    """A plain fixed-width table: header, a rule of '─', rows. ``align`` has one 'l' or 'r' per column."""
-    align = align or "l" + "r" * (len(headers) - 1)
-    widths = [max(len(str(h)), *(len(str(r[i])) for r in rows)) if rows else len(str(h)) for i, h in enumerate(headers)]
-
-    def line(cells: Sequence[str]) -> str:
-        return "  ".join(str(c).ljust(w) if a == "l" else str(c).rjust(w) for c, w, a in zip(cells, widths, align, strict=True)).rstrip()
-
-    return "\n".join([line(headers), "  ".join("─" * w for w in widths), *(line(r) for r in rows)])
-
-
 def _num(x: float, spec: str) -> str:
     """``format(x, spec)``, except that a value that rounds to zero shows no minus sign ("0.0000", not "-0.0000")."""
     text = format(x, spec)
@@ -317,7 +291,10 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append("MASS BY MATURITY  " + "   ".join(f"{k}: {v:.2f} kg" for k, v in mat.items()))
     out.append("")
     out.append("TOTAL")
-    out.append(f"  mass            {report['mass_kg']:.3f} kg")
+    # ± u beside the totals when the report carries an uncertainty member
+    from .uncertainty import plus_minus, uncertainty_lines
+
+    out.append(f"  mass            {report['mass_kg']:.3f}{plus_minus(report, 'mass')} kg")
     out.append(f"  CG              {_vec(report['cg_m'], ls, ld)} {lu}")
     if "inertia_cg_kg_m2" in report:
         out.append(f"  inertia about CG ({iu}, model axes, tensor convention):")
@@ -355,6 +332,7 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
              ["rear", _num(c["rear_left"], ".2f"), _num(c["rear_right"], ".2f"), _num(a["rear"], ".2f")]],
         ))
         out.append(f"  assumptions: {report['load_assumptions']}")
+    out.extend(uncertainty_lines(report, units))
     if report["rules"]:
         out.append("")
         out.append("RULE CHECKS")
