@@ -29,6 +29,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "massmodel.cli.measure",
     "massmodel.cli.transfer",
     "massmodel.cli.view",
+    "massmodel.cli.studies",
 )
 
 
