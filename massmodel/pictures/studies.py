@@ -238,5 +238,5 @@ def plot_waterfall(d: ModelDiff, path: str | Path, top: int = 15) -> Path:
     ax.set_xticks(range(len(labels)), labels, rotation=35, ha="right", fontsize=7.5)
     ax.set_ylabel("mass (kg)", fontsize=9)
     ax.grid(axis="y", alpha=0.3)
-    fig.subplots_adjust(bottom=0.38, top=0.85)
+    fig.subplots_adjust(bottom=0.33, top=0.85)
     return _save(fig, out)

@@ -131,12 +131,23 @@ def _fields(a: Component, b: Component) -> tuple[str, ...]:
         out.append("cg")
     if np.max(np.abs(a.props.inertia - b.props.inertia)) > TOLERANCE["inertia"]:
         out.append("inertia")
-    if type(a.shape) is not type(b.shape) or a.shape != b.shape or len(a.cutouts) != len(b.cutouts):
+    if not _same_shape(a, b):
         out.append("shape")
     for name in ("source", "maturity", "material"):
         if getattr(a, name) != getattr(b, name):
             out.append(name)
     return tuple(out)
+
+
+def _same_shape(a: Component, b: Component) -> bool:
+    """Same primitive with the same sizes and the same number of cut-outs (shapes holding arrays, such as imported
+    meshes, compare equal only when they are the same object)."""
+    if type(a.shape) is not type(b.shape) or len(a.cutouts) != len(b.cutouts):
+        return False
+    try:
+        return bool(a.shape == b.shape)
+    except (ValueError, TypeError):
+        return a.shape is b.shape
 
 
 def _about(mp: MassProperties | None, point: FloatArray) -> tuple[float, FloatArray, FloatArray]:
@@ -171,6 +182,7 @@ def diff_models(old: Model, new: Model, old_name: str = "old", new_name: str = "
     new_parts = {c.path: c for c in new.components}
     pivot = a.center
     changes = []
+    fields: tuple[str, ...]
     for path in list(old_parts) + [p for p in new_parts if p not in old_parts]:
         before, after = old_parts.get(path), new_parts.get(path)
         if before is None:

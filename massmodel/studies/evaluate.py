@@ -24,6 +24,7 @@ from typing import Any
 
 from massmodel.core import expr
 from massmodel.core.loadcases import BASE_CASE
+from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource, build_model
 from massmodel.modelfile.reader import SOURCE_KEY, ModelFileError, read_toml
@@ -165,11 +166,21 @@ class Evaluator:
         reduced["model"] = head
         reduced["part"] = [_without(t, "optional") for t in parts]
         reduced["driver"] = [_without(t, "optional") for t in drivers]
-        reduced["group"] = [_without(t, "optional") for t in data.get("group", [])]
+        # only the groups enclosing a rebuilt table, the slots they name and the parameters all of it uses
+        paths = [t.get("path") for t in parts + drivers if isinstance(t.get("path"), str)]
+        reduced["group"] = [_without(g, "optional") for g in data.get("group", [])
+                            if not isinstance(g, dict) or any(_under(p, {str(g.get("path"))}) for p in paths)]
+        slots = {t.get("slot") for t in parts}
+        reduced["slot"] = [t for t in data.get("slot", []) if not isinstance(t, dict) or t.get("name") in slots]
+        reduced["parameters"] = _needed(definitions, data.get("parameters", {}), reduced,
+                                        names | set(self._case_overrides) | set(self.overrides))
         self._reduced = ModelSource(reduced, self.source.label, self.source.base_dir)
         first = self._build_reduced({})
         base_paths = {c.path for c in self.base.components}
         self.rebuilt = tuple(c.path for c in first.components if c.path in base_paths)
+        rebuilt = set(self.rebuilt)
+        self._rebuilt_index = [i for i, c in enumerate(self.base.components) if c.path in rebuilt]
+        self._base_arrays = self.base.arrays()
         if not self.rebuilt:  # every reachable part is switched off in this case
             self._reduced = None
             self.reason = "the varied parameters reach no part of this load case"
@@ -212,10 +223,59 @@ class Evaluator:
         components = tuple(fresh[c.path] if c.path in rebuilt else c for c in base.components)
         return Model(
             name=base.name, components=components, vehicle=reduced.vehicle, rules=base.rules, slots=reduced.slots,
-            parameters=reduced.parameters, materials=base.materials, source=base.source,
+            parameters={**base.parameters, **reduced.parameters}, materials=base.materials, source=base.source,
             description=base.description, case=base.case, load_cases=base.load_cases,
             allowed_contacts=base.allowed_contacts,
         )
+
+    def evaluate(self, point: Mapping[str, str]) -> tuple[Model, MassProperties]:
+        """The model at one point and its total mass properties.
+
+        With partial rebuilds the total is combined from the base's stacked arrays with the rebuilt rows replaced:
+        the arrays :meth:`Model.mass_properties` would stack, without stacking the unchanged rows again.
+        """
+        model = self.model(point)
+        if self._reduced is None:
+            return model, model.mass_properties()
+        masses, centers, inertias = (a.copy() for a in self._base_arrays)
+        for i in self._rebuilt_index:
+            props = model.components[i].props
+            masses[i] = props.mass
+            centers[i] = props.center
+            inertias[i] = props.inertia
+        return model, MassProperties(*combine_arrays(masses, centers, inertias))
+
+
+def _texts(value: Any, out: set[str]) -> None:
+    """Every identifier in the texts of a TOML value (free-text fields skipped)."""
+    if isinstance(value, str):
+        out.update(_IDENT.findall(value))
+    elif isinstance(value, dict):
+        for k, v in value.items():
+            if k not in _TEXT_FIELDS:
+                _texts(v, out)
+    elif isinstance(value, list):
+        for v in value:
+            _texts(v, out)
+
+
+def _needed(definitions: Mapping[str, Any], parameters: Mapping[str, Any], reduced: Mapping[str, Any],
+            extra: set[str]) -> dict[str, Any]:
+    """The file's parameters that the reduced tables (or ``extra`` names) use, with everything they use in turn
+    (under ``definitions``, the texts after overrides), in file order."""
+    wanted: set[str] = set(extra)
+    for key, value in reduced.items():
+        if key != "parameters":
+            _texts(value, wanted)
+    todo = [n for n in wanted if n in definitions]
+    keep: set[str] = set()
+    while todo:
+        name = todo.pop()
+        if name in keep:
+            continue
+        keep.add(name)
+        todo.extend(n for n in _names_in_text(definitions[name]) if n in definitions and n not in keep)
+    return {k: v for k, v in parameters.items() if k in keep}
 
 
 def _without(table: Any, key: str) -> Any:

@@ -20,7 +20,7 @@ from massmodel.modelfile.loader import ModelSource
 from massmodel.modelfile.reader import ModelFileError
 
 from .evaluate import Evaluator
-from .outputs import Output, RuleLimits, evaluate_outputs, rule_limits, select_outputs
+from .outputs import Output, OutputPlan, RuleLimits, rule_limits, select_outputs
 from .sweep import Progress, literal
 
 __all__ = ["FuelTrack", "fuel_track", "TRACK_OUTPUTS"]
@@ -126,6 +126,7 @@ def fuel_track(source: ModelSource, parameter: str = "fuel_mass", full: float | 
         raise ValueError(f"the full load ({full_value:g}) is below the empty load ({empty:g}) in SI units of {parameter}")
     outs = select_outputs(ev.base, TRACK_OUTPUTS if ev.base.vehicle is not None else ("mass", "cg_x", "cg_y", "cg_z",
                                                                                        "margins"))
+    plan = OutputPlan(ev.base, outs)
     fuel = np.linspace(full_value, empty, steps)
     values = np.empty((steps, len(outs)))
     rule_values = np.empty((steps, len(ev.base.rules)))
@@ -133,12 +134,13 @@ def fuel_track(source: ModelSource, parameter: str = "fuel_mass", full: float | 
     for i, f in enumerate(fuel):
         text = literal(f, current.dim)
         try:
-            model = ev.model({parameter: text})
+            model, total = ev.evaluate({parameter: text})
         except ModelFileError as exc:
             if f != 0.0:
                 raise ValueError(f"at {parameter} = {text}: {exc}") from None
             model, left_out = _empty_model(ev, parameter, full_value, current.dim, exc)
-        values[i], rule_values[i] = evaluate_outputs(model, outs)
+            total = model.mass_properties()
+        values[i], rule_values[i] = plan.evaluate(model, total)
         if progress is not None:
             progress(i + 1, steps)
     unit = "" if str(current.dim) == "1" else str(current.dim)

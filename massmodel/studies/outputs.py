@@ -11,10 +11,11 @@ import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck
 from massmodel.vehicle.balance import check_rule, static_balance
 
-__all__ = ["Output", "RuleLimits", "BASIC_OUTPUTS", "VEHICLE_OUTPUTS", "outputs_of", "rule_limits", "select_outputs",
+__all__ = ["Output", "OutputPlan", "RuleLimits", "BASIC_OUTPUTS", "VEHICLE_OUTPUTS", "outputs_of", "rule_limits", "select_outputs",
            "evaluate_outputs", "OUTPUT_NAMES"]
 
 
@@ -126,8 +127,54 @@ def select_outputs(model: Model, names: Sequence[str] | None) -> tuple[Output, .
     return tuple(dict.fromkeys(picked))
 
 
-def evaluate_outputs(model: Model, outputs: Sequence[Output]) -> tuple[list[float], list[float]]:
+class OutputPlan:
+    """Evaluates outputs of many models that share one list of component paths (the models of one study).
+
+    The selections of the mass rules (``min_mass`` without some groups, ``min_group_mass`` of some groups) depend on
+    paths only, so they are found once; each model's rule value is then the sum of the selected masses in component
+    order, the same sum :func:`massmodel.vehicle.balance.check_rule` makes. Models with other paths (e.g. parts left
+    out) are evaluated through ``check_rule`` itself.
+
+    Parameters
+    ----------
+    model : Model
+        A model with the study's component paths and rules.
+    outputs : sequence of Output
+    """
+
+    def __init__(self, model: Model, outputs: Sequence[Output]) -> None:
+        self.outputs = tuple(outputs)
+        self.paths = tuple(c.path for c in model.components)
+        self.rules = model.rules
+        self.selections: list[list[int] | None] = []
+        for rule in model.rules:
+            if rule.check is RuleCheck.MIN_MASS:
+                chosen = {id(c) for c in model.select(exclude=rule.exclude)}
+            elif rule.check is RuleCheck.MIN_GROUP_MASS:
+                chosen = {id(c) for c in model.select(include=rule.groups)}
+            else:
+                self.selections.append(None)
+                continue
+            self.selections.append([i for i, c in enumerate(model.components) if id(c) in chosen])
+
+    def evaluate(self, model: Model, total: MassProperties | None = None) -> tuple[list[float], list[float]]:
+        """See :func:`evaluate_outputs`."""
+        same = len(model.components) == len(self.paths) and model.rules == self.rules
+        return evaluate_outputs(model, self.outputs, self if same else None, total)
+
+
+def evaluate_outputs(model: Model, outputs: Sequence[Output], plan: OutputPlan | None = None,
+                     total: MassProperties | None = None) -> tuple[list[float], list[float]]:
     """The values of ``outputs`` for one model, and the value of each of the model's rules.
+
+    Parameters
+    ----------
+    model : Model
+    outputs : sequence of Output
+    plan : OutputPlan, optional
+        Selections of the mass rules found for models with these component paths (see :class:`OutputPlan`).
+    total : MassProperties, optional
+        ``model.mass_properties()`` when the caller has it already.
 
     Returns
     -------
@@ -142,14 +189,26 @@ def evaluate_outputs(model: Model, outputs: Sequence[Output]) -> tuple[list[floa
     from memory); the inertia about a vehicle axis through the CG is ``a·I·a`` for the unit axis ``a`` (Goldstein,
     Poole & Safko 2002, §5.3).
     """
-    total = model.mass_properties()
+    total = model.mass_properties() if total is None else total
     vehicle = model.vehicle
     balance = static_balance(total, vehicle) if vehicle is not None else None
-    results = [check_rule(model, r, balance) for r in model.rules]
+    rule_values: list[float] = []
+    margins: list[float] = []
+    for k, rule in enumerate(model.rules):
+        chosen = plan.selections[k] if plan is not None else None
+        if chosen is None:
+            result = check_rule(model, rule, balance)
+            rule_values.append(float(result.value))
+            margins.append(float(result.margin))
+        else:  # check_rule's sum over the same parts in the same order, and its margin value - limit
+            comps = model.components
+            value = float(sum(comps[i].props.mass for i in chosen))
+            rule_values.append(value)
+            margins.append(value - float(rule.limit or 0.0))
     values: list[float] = []
     for o in outputs:
         if o.rule is not None:
-            values.append(float(results[o.rule].margin))
+            values.append(margins[o.rule])
             continue
         if o.key == "mass":
             values.append(total.mass)
@@ -163,4 +222,4 @@ def evaluate_outputs(model: Model, outputs: Sequence[Output]) -> tuple[list[floa
             else:
                 values.append(float({"cg_height": balance.cg_height, "front_share": balance.front_fraction,
                                      "front_axle": balance.front, "rear_axle": balance.rear}[o.key]))
-    return values, [float(r.value) for r in results]
+    return values, rule_values

@@ -19,7 +19,7 @@ from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource
 
 from .evaluate import Evaluator
-from .outputs import Output, RuleLimits, evaluate_outputs, rule_limits, select_outputs
+from .outputs import Output, OutputPlan, RuleLimits, evaluate_outputs, rule_limits, select_outputs
 
 __all__ = ["ParameterRange", "Study", "SweepResult", "Sensitivity", "parse_range", "parse_step", "grid_points",
            "evaluate_chunk", "run_points", "sweep", "sensitivity", "MAX_POINTS", "Progress"]
@@ -189,23 +189,25 @@ class Study:
         return Evaluator(self.source, self.varied, dict(self.overrides), self.case, partial=self.partial)
 
 
-def evaluate_chunk(study: Study, points: Sequence[Mapping[str, str]]) -> tuple[FloatArray, FloatArray]:
+def evaluate_chunk(study: Study, points: Sequence[Mapping[str, str]], evaluator: Evaluator | None = None
+                   ) -> tuple[FloatArray, FloatArray]:
     """Outputs and rule values of a chunk of points: ((n, outputs), (n, rules)) arrays, SI.
 
     The same function runs locally and on Dask workers; each call builds its own evaluator (the base model once
-    per chunk), then reduces every point's model to its few numbers (moment sums → CG, inertia, loads, margins).
+    per chunk) unless given one, then reduces every point's model to its few numbers (moment sums → CG, inertia,
+    loads, margins).
     """
-    ev = study.evaluator()
-    outs = select_outputs(ev.base, study.outputs)
-    values = np.empty((len(points), len(outs)))
+    ev = study.evaluator() if evaluator is None else evaluator
+    plan = OutputPlan(ev.base, select_outputs(ev.base, study.outputs))
+    values = np.empty((len(points), len(plan.outputs)))
     rules = np.empty((len(points), len(ev.base.rules)))
     for i, point in enumerate(points):
         try:
-            model = ev.model(point)
+            model, total = ev.evaluate(point)
         except ValueError as exc:
             at = ", ".join(f"{k} = {v}" for k, v in point.items())
             raise ValueError(f"at {at}: {exc}") from None
-        v, r = evaluate_outputs(model, outs)
+        v, r = plan.evaluate(model, total)
         values[i] = v
         rules[i] = r
     return values, rules
@@ -217,15 +219,15 @@ def chunks(points: Sequence[Mapping[str, str]], size: int) -> list[Sequence[Mapp
 
 
 def run_points(study: Study, points: Sequence[Mapping[str, str]], progress: Progress | None = None,
-               chunk: int = CHUNK) -> tuple[FloatArray, FloatArray]:
-    """Evaluate every point in this process, chunk by chunk (see :func:`evaluate_chunk`)."""
-    ev = study.evaluator()
+               chunk: int = CHUNK, evaluator: Evaluator | None = None) -> tuple[FloatArray, FloatArray]:
+    """Evaluate every point in this process, chunk by chunk (see :func:`evaluate_chunk`), with one evaluator."""
+    ev = study.evaluator() if evaluator is None else evaluator
     outs = select_outputs(ev.base, study.outputs)
     values = [np.empty((0, len(outs)))]
     rules = [np.empty((0, len(ev.base.rules)))]
     done = 0
     for piece in chunks(points, chunk):
-        v, r = evaluate_chunk(study, piece)
+        v, r = evaluate_chunk(study, piece, ev)
         values.append(v)
         rules.append(r)
         done += len(piece)
@@ -312,7 +314,10 @@ def sweep(study: Study, ranges: Sequence[ParameterRange], runner: Callable[..., 
     ev = study.evaluator()
     outs = select_outputs(ev.base, study.outputs)
     base_values, _ = evaluate_outputs(ev.base, outs)
-    values, rule_values = (runner or run_points)(study, points, progress=progress)
+    if runner is None:
+        values, rule_values = run_points(study, points, progress=progress, evaluator=ev)
+    else:
+        values, rule_values = runner(study, points, progress=progress)
     grid = np.array([[float(v) for v in combo] for combo in itertools.product(*(r.values for r in ranges))])
     return SweepResult(
         model=ev.base.name, case=ev.base.case, parameters=tuple(ranges), points=_frozen(grid.reshape(len(points), -1)),
