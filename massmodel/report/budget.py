@@ -105,7 +105,7 @@ def write_budget_xlsx(b: Budget, path: str | Path) -> None:
 
 def format_budget(b: Budget, max_depth: int = 1) -> str:
     """A short terminal summary: the groups down to ``max_depth`` and the total."""
-    from .summary import table
+    from .summary import _num, table
 
     rows = []
     for r in b.rows:
@@ -113,7 +113,7 @@ def format_budget(b: Budget, max_depth: int = 1) -> str:
             continue
         mp = r.props
         rows.append([r.path or "TOTAL", str(r.parts), f"{mp.mass:.3f}",
-                     *(f"{x * 1e3:.1f}" for x in mp.center), r.maturity, r.source])
+                     *(_num(x * 1e3, ".1f") for x in mp.center), r.maturity, r.source])
     head = f"Mass budget of {b.model} (case {b.case}): {len(b.rows) - 1} rows of parts and groups, total last"
     return head + "\n" + table(["group", "parts", "mass (kg)", "CG x (mm)", "CG y (mm)", "CG z (mm)", "lowest maturity",
                                 "source"], rows, "lrrrrrll")
