@@ -84,7 +84,7 @@ def test_sweep_of_a_position_follows_the_closed_form_cg_shift() -> None:
     share = (expected_x + 2.0) / 2.0
     np.testing.assert_allclose(result.column("margin_front_share"), np.minimum(share - 0.38, 0.42 - share), atol=1e-12)
     np.testing.assert_allclose(result.column("margin_minimum_mass"), -5.0, atol=1e-12)
-    worst = dict((o.key, i) for o, i in result.worst())
+    worst = {result.outputs[i].key: k for i, k in result.worst()}
     assert worst["margin_front_share"] in (0, 8)  # the ends of the range are farthest from the band's middle
     assert result.rules[0].lower == 0.38 and result.rules[0].upper == 0.42
     assert "rebuilds the 1 of 3 parts" in result.method

@@ -16,7 +16,7 @@ import numpy as np
 from massmodel.core import cautions
 from massmodel.core.atomic import write_text_atomic
 from massmodel.studies.fuel import FuelTrack
-from massmodel.studies.outputs import Output, RuleLimits
+from massmodel.studies.outputs import Output, RuleLimits, worst_points
 from massmodel.studies.sweep import Sensitivity, SweepResult
 
 from .summary import table
@@ -90,9 +90,9 @@ def sweep_dict(result: SweepResult) -> dict[str, Any]:
         "file_values": dict(zip(ocols, result.base_values.tolist(), strict=True)),
         "points": [{**dict(zip(pcols, p, strict=True)), **dict(zip(ocols, v, strict=True))}
                    for p, v in zip(result.points.tolist(), result.values.tolist(), strict=True)],
-        "worst": [{"rule": o.label, "column": unit_key(o.key, o.unit), "point": i,
-                   "margin": float(result.values[i, result.outputs.index(o)]),
-                   **dict(zip(pcols, result.points[i].tolist(), strict=True))} for o, i in result.worst()],
+        "worst": [{"rule": result.rules[result.outputs[i].rule].name, "column": ocols[i], "point": k,  # type: ignore[index]
+                   "margin": float(result.values[k, i]), **dict(zip(pcols, result.points[k].tolist(), strict=True))}
+                  for i, k in result.worst()],
         "cautions": cautions.for_report(),
     }
 
@@ -129,13 +129,10 @@ def _basic(outputs: Sequence[Output]) -> list[int]:
 
 def _worst_lines(outputs: Sequence[Output], rules: Sequence[RuleLimits], values: np.ndarray, where: Any) -> list[str]:
     lines = []
-    for i, o in enumerate(outputs):
-        if o.rule is None:
-            continue
-        k = int(np.argmin(values[:, i]))
-        margin = " ".join(display(float(values[k, i]), o.unit)).strip()
+    for i, k in worst_points(outputs, values):
+        margin = " ".join(display(float(values[k, i]), outputs[i].unit)).strip()
         verdict = "FAILS" if values[k, i] < 0 else "passes"
-        lines.append(f"  {rules[o.rule].name}: worst margin {margin} at {where(k)} ({verdict} there)")
+        lines.append(f"  {rules[outputs[i].rule].name}: worst margin {margin} at {where(k)} ({verdict} there)")  # type: ignore[index]
     return lines
 
 
@@ -225,8 +222,8 @@ def track_dict(t: FuelTrack) -> dict[str, Any]:
         "rules": _rules_json(t.rules),
         "points": [{pcol: f, **dict(zip(cols, v, strict=True))}
                    for f, v in zip(t.fuel.tolist(), t.values.tolist(), strict=True)],
-        "worst": [{"rule": t.outputs[i].label, "column": cols[i], "margin": float(t.values[k, i]), pcol: float(t.fuel[k])}
-                  for i, k in t.worst()],
+        "worst": [{"rule": t.rules[t.outputs[i].rule].name, "column": cols[i], "margin": float(t.values[k, i]),  # type: ignore[index]
+                   pcol: float(t.fuel[k])} for i, k in t.worst()],
         "cautions": cautions.for_report(),
     }
 

@@ -20,7 +20,7 @@ from massmodel.modelfile.loader import ModelSource
 from massmodel.modelfile.reader import ModelFileError
 
 from .evaluate import Evaluator
-from .outputs import Output, OutputPlan, RuleLimits, rule_limits, select_outputs
+from .outputs import Output, OutputPlan, RuleLimits, column_of, rule_limits, select_outputs, worst_points
 from .sweep import Progress, literal
 
 __all__ = ["FuelTrack", "fuel_track", "TRACK_OUTPUTS"]
@@ -64,14 +64,11 @@ class FuelTrack:
 
     def column(self, key: str) -> FloatArray:
         """The values of output ``key`` along the track."""
-        for i, o in enumerate(self.outputs):
-            if o.key == key:
-                return self.values[:, i]
-        raise KeyError(f"no output '{key}' in this track")
+        return column_of(self.outputs, self.values, key)
 
     def worst(self) -> list[tuple[int, int]]:
         """(output index, point index) of the smallest margin of each rule (the first such point on ties)."""
-        return [(i, int(np.argmin(self.values[:, i]))) for i, o in enumerate(self.outputs) if o.rule is not None]
+        return worst_points(self.outputs, self.values)
 
 
 def _empty_model(ev: Evaluator, name: str, full: float, dim: object, error: ModelFileError) -> tuple[Model, tuple[str, ...]]:

@@ -11,11 +11,14 @@ import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import numpy as np
+import numpy.typing as npt
+
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck
 from massmodel.vehicle.balance import check_rule, static_balance
 
-__all__ = ["Output", "OutputPlan", "RuleLimits", "BASIC_OUTPUTS", "VEHICLE_OUTPUTS", "outputs_of", "rule_limits", "select_outputs",
+__all__ = ["Output", "OutputPlan", "RuleLimits", "column_of", "worst_points", "BASIC_OUTPUTS", "VEHICLE_OUTPUTS", "outputs_of", "rule_limits", "select_outputs",
            "evaluate_outputs", "OUTPUT_NAMES"]
 
 
@@ -77,6 +80,19 @@ class RuleLimits:
     unit: str
     lower: float | None
     upper: float | None
+
+
+def column_of(outputs: Sequence[Output], values: npt.NDArray[np.float64], key: str) -> npt.NDArray[np.float64]:
+    """The column of output ``key`` in a (points, outputs) table."""
+    for i, o in enumerate(outputs):
+        if o.key == key:
+            return values[:, i]
+    raise KeyError(f"no output '{key}'; outputs: {', '.join(o.key for o in outputs)}")
+
+
+def worst_points(outputs: Sequence[Output], values: npt.NDArray[np.float64]) -> list[tuple[int, int]]:
+    """(output index, point index) of the smallest margin of each rule margin output (the first point on ties)."""
+    return [(i, int(np.argmin(values[:, i]))) for i, o in enumerate(outputs) if o.rule is not None]
 
 
 def rule_limits(rule: Rule) -> RuleLimits:

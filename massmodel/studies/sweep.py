@@ -19,7 +19,16 @@ from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource
 
 from .evaluate import Evaluator
-from .outputs import Output, OutputPlan, RuleLimits, evaluate_outputs, rule_limits, select_outputs
+from .outputs import (
+    Output,
+    OutputPlan,
+    RuleLimits,
+    column_of,
+    evaluate_outputs,
+    rule_limits,
+    select_outputs,
+    worst_points,
+)
 
 __all__ = ["ParameterRange", "Study", "SweepResult", "Sensitivity", "parse_range", "parse_step", "grid_points",
            "evaluate_chunk", "run_points", "sweep", "sensitivity", "MAX_POINTS", "Progress"]
@@ -279,14 +288,11 @@ class SweepResult:
 
     def column(self, key: str) -> FloatArray:
         """The values of the output ``key`` (e.g. ``"cg_x"``) at every point."""
-        for i, o in enumerate(self.outputs):
-            if o.key == key:
-                return self.values[:, i]
-        raise KeyError(f"no output '{key}' in this sweep")
+        return column_of(self.outputs, self.values, key)
 
-    def worst(self) -> list[tuple[Output, int]]:
-        """For each rule margin output: (output, index of the point with the smallest margin)."""
-        return [(o, int(np.argmin(self.values[:, i]))) for i, o in enumerate(self.outputs) if o.rule is not None]
+    def worst(self) -> list[tuple[int, int]]:
+        """(output index, point index) of the smallest margin of each rule (the first such point on ties)."""
+        return worst_points(self.outputs, self.values)
 
 
 def _method(ev: Evaluator) -> str:
