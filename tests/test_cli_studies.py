@@ -46,6 +46,14 @@ def test_vary_writes_csv_json_and_chart(tmp_path: Path, capsys: pytest.CaptureFi
     assert _has_colour(img, "#b5483b")  # the rule limits are drawn
 
 
+def test_vary_partial_rebuild_writes_the_same_csv_as_full_builds(tmp_path: Path) -> None:
+    args = ["vary", str(STUDY), "--param", "trim_block_x=-700mm:-2300mm:3", "--param", "trim_block_height=15mm,25mm",
+            "--case", "qualifying"]
+    assert main([*args, "--csv", str(tmp_path / "fast.csv")]) == 0
+    assert main([*args, "--csv", str(tmp_path / "full.csv"), "--full-builds"]) == 0
+    assert (tmp_path / "fast.csv").read_text() == (tmp_path / "full.csv").read_text()
+
+
 @pytest.mark.parametrize(("args", "message"), [
     (["--param", "nosuch=1kg:2kg:3"], "unknown parameter 'nosuch'"),
     (["--param", "fuel_mass=1kg:2kg:0"], "STEPS must be at least 1"),
