@@ -44,11 +44,6 @@ class Output:
     unit: str
     rule: int | None = None
 
-    @property
-    def column(self) -> str:
-        """CSV/JSON column name with the unit: ``cg_x_m``, ``margin:front share_fraction``."""
-        return f"{self.key}_{self.unit.replace('*', '_').replace('^', '')}"
-
 
 BASIC_OUTPUTS = (
     Output("mass", "mass", "kg"),

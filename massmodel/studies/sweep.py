@@ -36,7 +36,7 @@ __all__ = ["ParameterRange", "Study", "SweepResult", "Sensitivity", "parse_range
 FloatArray = npt.NDArray[np.float64]
 Progress = Callable[[int, int], None]
 #: Largest number of points a sweep accepts (a grid grows fast; a study this big belongs on a cluster in pieces).
-MAX_POINTS = 10_000_000
+MAX_POINTS = 1_000_000
 CHUNK = 250
 
 
