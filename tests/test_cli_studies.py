@@ -92,3 +92,12 @@ def test_changes_between_the_demo_versions(tmp_path: Path, capsys: pytest.Captur
     out = capsys.readouterr().out
     assert "2 added, 1 removed" in out and "electrics/battery_lead_acid" in out
     _image(tmp_path / "w.png")
+
+
+def test_progress_line_on_stderr(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["vary", str(CAR), "--param", "fuel_mass=5kg:25kg:3", "--chunk", "1", "--progress",
+                 "--outputs", "mass"]) == 0
+    err = capsys.readouterr().err
+    assert err.endswith("3/3 (100%)\n") and "vary [" in err and "1/3 (33%)" in err
+    assert main(["vary", str(CAR), "--param", "fuel_mass=5kg:25kg:3", "--outputs", "mass"]) == 0
+    assert capsys.readouterr().err == ""  # not a terminal and not forced: no progress

@@ -69,7 +69,7 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="evaluate on Dask distributed: 'local' starts a local cluster, else a scheduler address "
                    "such as tcp://host:8786 (needs the extra massmodel[cluster])")
     p.add_argument("--workers", type=int, default=2, metavar="N", help="workers of a local Dask cluster (default 2)")
-    p.add_argument("--chunk", type=int, default=250, metavar="N", help="points per task (default 250)")
+    p.add_argument("--chunk", type=int, default=250, metavar="N", help="points per chunk: a Dask task, and a progress step (default 250)")
     p.add_argument("--full-builds", action="store_true",
                    help="rebuild the whole model at every point (slower; the partial rebuild gives the same numbers)")
     p.set_defaults(run=_vary)
@@ -132,7 +132,7 @@ def _vary(args: argparse.Namespace) -> int:
         from massmodel.studies.cluster import DaskRunner
 
         runner = DaskRunner(None if args.cluster == "local" else args.cluster, args.workers, chunk=args.chunk)
-    result = sweep(study, ranges, runner=runner, progress=text_progress("vary", args.progress))
+    result = sweep(study, ranges, runner=runner, progress=text_progress("vary", args.progress), chunk=args.chunk)
     print(format_sweep(result))
     _write(args, sweep_dict(result), sweep_csv(result) if args.csv else None, write_json_atomic, write_csv_atomic)
     if args.plot:

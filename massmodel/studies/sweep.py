@@ -302,7 +302,7 @@ def _method(ev: Evaluator) -> str:
 
 
 def sweep(study: Study, ranges: Sequence[ParameterRange], runner: Callable[..., tuple[FloatArray, FloatArray]] | None = None,
-          progress: Progress | None = None) -> SweepResult:
+          progress: Progress | None = None, chunk: int = CHUNK) -> SweepResult:
     """Evaluate the grid of ``ranges`` (see :func:`grid_points`).
 
     Parameters
@@ -314,14 +314,16 @@ def sweep(study: Study, ranges: Sequence[ParameterRange], runner: Callable[..., 
         ``runner(study, points, progress=...)`` returning the arrays of :func:`evaluate_chunk` for all points;
         default :func:`run_points` (this process); :func:`massmodel.studies.cluster.run_points_dask` for Dask.
     progress : callable, optional
-        ``progress(done, total)``.
+        ``progress(done, total)``, called after each chunk.
+    chunk : int
+        Points per chunk of the default runner (a runner of its own has its own).
     """
     points = grid_points(ranges)
     ev = study.evaluator()
     outs = select_outputs(ev.base, study.outputs)
     base_values, _ = evaluate_outputs(ev.base, outs)
     if runner is None:
-        values, rule_values = run_points(study, points, progress=progress, evaluator=ev)
+        values, rule_values = run_points(study, points, progress=progress, chunk=chunk, evaluator=ev)
     else:
         values, rule_values = runner(study, points, progress=progress)
     grid = np.array([[float(v) for v in combo] for combo in itertools.product(*(r.values for r in ranges))])
