@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -129,7 +130,11 @@ def _vary(args: argparse.Namespace) -> int:
                   partial=not args.full_builds)
     runner = None
     if args.cluster:
+        from massmodel.modelfile.loader import ModelSource
         from massmodel.studies.cluster import DaskRunner
+
+        # workers resolve the rulebook and geometry files from an absolute folder, whatever their working directory
+        study = replace(study, source=ModelSource(source.data, source.label, source.base_dir.resolve()))
 
         runner = DaskRunner(None if args.cluster == "local" else args.cluster, args.workers, chunk=args.chunk)
     result = sweep(study, ranges, runner=runner, progress=text_progress("vary", args.progress), chunk=args.chunk)

@@ -8,6 +8,7 @@ scheduler address a local cluster is started on this machine and closed afterwar
 
 from __future__ import annotations
 
+import logging
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -63,8 +64,10 @@ def run_points_dask(study: Study, points: Sequence[Mapping[str, str]], progress:
     try:
         if client is None:
             if address is None:
+                # quiet workers: a task's error comes back through its future; the log would only add the
+                # heartbeat noise of a cluster shutting down
                 cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=processes,
-                                       dashboard_address=None)
+                                       dashboard_address=None, silence_logs=logging.CRITICAL)
                 own.append(cluster)
                 client = Client(cluster)
             else:
