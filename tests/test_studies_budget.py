@@ -66,6 +66,17 @@ def test_budget_xlsx_total_row_is_formulas_over_the_part_rows(tmp_path: Path) ->
     n = len(body)  # data rows 2 .. n, total in row n + 1
     assert total[col["row"]] == "total"
     assert total[col["mass_kg"]] == f'=SUMIF($A$2:$A${n},"part",E2:E{n})'
+    letters = {h: openpyxl.utils.get_column_letter(i + 1) for h, i in col.items()}
+    t = n + 1
+    for h in header:  # every summed column sums its own column over the part rows
+        if h.startswith(("m_", "I")) and h.endswith(("_kg_m", "_origin_kg_m2")):
+            assert total[col[h]] == f'=SUMIF($A$2:$A${n},"part",{letters[h]}2:{letters[h]}{n})'
+    assert total[col["cg_x_m"]] == f"={letters['m_x_kg_m']}{t}/{letters['mass_kg']}{t}"
+    # tensor convention: I_C,xx = I_O,xx - M (y^2 + z^2), I_C,xy = I_O,xy + M x y (parallel-axis theorem)
+    cy, cz, cx = (f"{letters[f'cg_{a}_m']}{t}" for a in "yzx")
+    m = f"{letters['mass_kg']}{t}"
+    assert total[col["Ixx_cg_kg_m2"]] == f"={letters['Ixx_origin_kg_m2']}{t}-{m}*({cy}^2+{cz}^2)"
+    assert total[col["Ixy_cg_kg_m2"]] == f"={letters['Ixy_origin_kg_m2']}{t}+{m}*{cx}*{cy}"
     part_mass = sum(r[col["mass_kg"]] for r in body[:-1] if r[col["row"]] == "part")
     assert abs(part_mass - model.mass_properties().mass) <= 1e-9
 

@@ -146,3 +146,32 @@ def test_bad_fail_over_limits_are_usage_errors(capsys: pytest.CaptureFixture[str
     for spec in ("mass=2mm", "weight=1kg", "cg", "cg=-1mm"):
         assert main(["changes", str(CAR), str(CAR), "--fail-over", spec]) == 2
         assert capsys.readouterr().err.count("\n") == 1
+
+
+def _random_model(rng: np.random.Generator, paths: list[str]) -> str:
+    text = '[model]\nname = "random"\n[units]\nlength = "m"\nmass = "kg"\n'
+    for p in paths:
+        size = rng.uniform(0.05, 0.6, 3).tolist()
+        at = rng.uniform(-2.0, 2.0, 3).tolist()
+        text += (f'[[part]]\npath = "{p}"\nshape = "box"\nsize = [{size[0]!r}, {size[1]!r}, {size[2]!r}]\n'
+                 f'mass = "{float(rng.uniform(0.5, 40.0))!r} kg"\nmaturity = "estimated"\nat = [{at[0]!r}, {at[1]!r}, {at[2]!r}]\n'
+                 f'rotate = {{ extrinsic = "z", angles = ["{float(rng.uniform(0, 90))!r} deg"] }}\n')
+    return text
+
+
+def test_shares_add_up_to_the_total_change_for_random_versions(rng: np.random.Generator) -> None:
+    """Invariant of the decomposition: shares sum to the change, for random parts added, removed and changed."""
+    for _ in range(15):
+        old_paths = [f"g{rng.integers(3)}/p{i}" for i in range(int(rng.integers(2, 9)))]
+        keep = [p for p in old_paths if rng.random() < 0.6] or old_paths[:1]
+        new_paths = keep + [f"g{rng.integers(3)}/n{i}" for i in range(int(rng.integers(0, 4)))]
+        old = loads_model(_random_model(rng, old_paths))
+        new = loads_model(_random_model(rng, new_paths))
+        d = diff_models(old, new)
+        scale = max(1.0, float(np.max(np.abs(d.new.inertia))))
+        np.testing.assert_allclose(sum(c.delta_cg for c in d.changes), d.delta_cg, atol=1e-12)
+        np.testing.assert_allclose(sum(c.delta_inertia for c in d.changes) + d.recentre, d.delta_inertia,
+                                   atol=1e-11 * scale)
+        assert sum(c.delta_mass for c in d.changes) == pytest.approx(d.delta_mass, abs=1e-9)
+        top = [g for g in d.groups if "/" not in g.path]
+        assert sum(g.delta_mass for g in top) == pytest.approx(d.delta_mass, abs=1e-9)
