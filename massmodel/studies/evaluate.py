@@ -27,7 +27,12 @@ from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource, build_model
-from massmodel.modelfile.reader import SOURCE_KEY, ModelFileError, read_toml
+from massmodel.modelfile.reader import ModelFileError, read_toml
+
+try:  # the marker of tables merged from a base file (modelfile.extends since the file layer was split)
+    from massmodel.modelfile.extends import SOURCE_KEY
+except ImportError:  # pragma: no cover - before that split
+    from massmodel.modelfile.reader import SOURCE_KEY  # type: ignore[attr-defined,no-redef]
 
 __all__ = ["Evaluator", "affected_parameters"]
 
