@@ -36,6 +36,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "massmodel.cli.transfer",
     "massmodel.cli.view",
     "massmodel.cli.uncertainty",
+    "massmodel.cli.studies",
 )
 
 
