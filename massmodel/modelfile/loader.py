@@ -89,7 +89,7 @@ PART_FIELDS = {"path", "shape", "material", "density", "mass", "measured", "colo
 GROUP_FIELDS = {"path", "colour", "maturity", "mirror", "note", "optional"} | PLACEMENT_FIELDS
 SLOT_FIELDS = {"name", "shape", "clearance", "note"} | PLACEMENT_FIELDS
 CONTACT_FIELDS = {"between", "note"}
-RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note", "case"}
+RULE_FIELDS = {"name", "check", "limit", "min", "max", "groups", "exclude", "axle", "note", "case", "reference", "band"}
 VEHICLE_FIELDS = {"axes", "wheelbase", "track_front", "track_rear", "front_axle_station", "ground_level"}
 MODEL_FIELDS = {"name", "description", "rulebook", "extends", "remove"}
 AXIS_NAMES = ("forward", "left", "up")
@@ -998,6 +998,8 @@ def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> 
                     raise rd.error(item, key, "a fraction lies between 0 and 1")
         if kw.get("minimum", 0.0) > kw.get("maximum", 1.0):
             raise rd.error(item, "max", f"max ({kw['maximum']:g}) is below min ({kw['minimum']:g}): no car can pass")
+    elif check is RuleCheck.BALLAST_HEIGHT:
+        kw.update(modelfile_cases.ballast_height_fields(rd, table, item))
     else:
         if "limit" not in table:
             raise rd.error(item, "limit", "is missing")
@@ -1013,7 +1015,8 @@ def _rule(rd: _Reader, table: dict[str, Any], index: int, has_vehicle: bool) -> 
         if table.get("axle") not in ("front", "rear"):
             raise rd.error(item, "axle", f"expected 'front' or 'rear', got {table.get('axle')!r}")
         kw["axle"] = table["axle"]
-    if check in (RuleCheck.MIN_AXLE_LOAD, RuleCheck.FRONT_FRACTION, RuleCheck.MAX_CG_HEIGHT) and not has_vehicle:
+    if check in (RuleCheck.MIN_AXLE_LOAD, RuleCheck.FRONT_FRACTION, RuleCheck.MAX_CG_HEIGHT,
+                 RuleCheck.BALLAST_HEIGHT) and not has_vehicle:
         raise rd.error(item, "check", "this rule needs a [vehicle] section in the model")
     if "case" in table:
         kw["cases"] = modelfile_cases.rule_case_names(rd, table["case"], item)
