@@ -188,10 +188,11 @@ def slot_sensitivities(prob: Any, allocations: Sequence[Any], outcomes: Sequence
 
 
 def tradeoff_curve(prob: Any, rows: Rows, ub: FloatArray, floor: FloatArray, total: tuple[float, float],
-                   stats: SolverStats, m1: FloatArray, points: int) -> list[TradeoffPoint]:
+                   stats: SolverStats, m1: FloatArray, points: int,
+                   starts: Sequence[FloatArray] = ()) -> list[TradeoffPoint]:
     """Points of the CG height / yaw inertia trade-off with the total ballast held in ``total``: the weighted sum
     ``w h/h₁ + (1 − w) I/I₁`` minimised for ``points`` weights w from 1 to 0 (h₁, I₁ at the least-ballast
-    solution), each from the previous optimum."""
+    solution), each from the previous optimum, ``m1`` and ``starts``."""
     h1, i1 = max(prob.cg_height(m1), 1e-9), max(prob.yaw(m1), 1e-9)
     out: list[TradeoffPoint] = []
     start = m1
@@ -199,7 +200,7 @@ def tradeoff_curve(prob: Any, rows: Rows, ub: FloatArray, floor: FloatArray, tot
         def fun(m: FloatArray, w: float = float(w)) -> float:
             return w * prob.cg_height(m) / h1 + (1.0 - w) * prob.yaw(m) / i1
 
-        found = minimise_on_off(fun, rows, ub, floor, total, [start, m1], stats)
+        found = minimise_on_off(fun, rows, ub, floor, total, [start, m1, *starts], stats)
         if found is None:
             continue
         start = found

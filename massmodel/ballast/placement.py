@@ -552,7 +552,7 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
         ub, floor = _bounds(prob)
         least = float(np.sum(m1)) if m1 is not None else float(np.sum(m))
         curve = tradeoff_curve(prob, rows, ub, floor, (least, least + plan.targets.ballast_allowance), stats,
-                               m1 if m1 is not None else m, tradeoff_points)
+                               m1 if m1 is not None else m, tradeoff_points, starts=[m])
     stats.seconds = time.perf_counter() - t_start
     o0 = outcomes[0]
     return PlacementResult(plan, o0.model, o0.baseline, True, tuple(allocations), o0.ballasted, tuple(assessments),

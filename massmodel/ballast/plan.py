@@ -30,7 +30,7 @@ __all__ = ["PlanError", "Objective", "Targets", "Candidate", "Plan", "load_plan"
 PLAN_FORMAT = 1
 TOP_KEYS = {"plan", "targets", "defaults", "candidate", "margins"}
 TARGET_FIELDS = {"mass_margin", "front_fraction", "fraction_margin", "cg_height_margin", "lateral_offset_max",
-                 "objective", "weights", "ballast_allowance", "max_ballast", "scale_resolution"}
+                 "objective", "weights", "ballast_allowance", "max_ballast", "scale_resolution", "cases"}
 SPEC_FIELDS = {"material", "fill", "fixed", "increment", "holes", "chamfer", "stock", "max_segment_mass",
                "min_thickness"}
 CANDIDATE_FIELDS = SPEC_FIELDS | {"slot", "box", "capacity", "path", "replace_existing", "note"}
@@ -84,6 +84,8 @@ class Targets:
         Most ballast allowed in total, kg (nominal).
     scale_resolution : float
         Resolution of the scales the car is weighed on, kg: kept as a further margin on every mass rule.
+    cases : tuple of str
+        The load cases the targets (front-fraction target, lateral offset) apply in; empty: every case.
     """
 
     mass_margin: float
@@ -98,6 +100,7 @@ class Targets:
     ballast_allowance: float = 0.05
     max_ballast: float | None = None
     scale_resolution: float = 0.0
+    cases: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True, eq=False)
@@ -349,6 +352,11 @@ def _targets(rd: _Reader, table: Any) -> Targets:
         kw["ballast_allowance"] = rd.mass(table["ballast_allowance"], item, "ballast_allowance", allow_zero=True)
     if "max_ballast" in table:
         kw["max_ballast"] = rd.mass(table["max_ballast"], item, "max_ballast")
+    if "cases" in table:
+        cs = table["cases"]
+        if not isinstance(cs, list) or not cs or not all(isinstance(c, str) and c for c in cs):
+            raise rd.error(item, "cases", f"expected a list of load-case names, got {cs!r}")
+        kw["cases"] = tuple(cs)
     if "scale_resolution" in table:
         kw["scale_resolution"] = rd.mass(table["scale_resolution"], item, "scale_resolution", allow_zero=True)
     return Targets(**kw)

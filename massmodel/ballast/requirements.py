@@ -85,6 +85,10 @@ def resolve_margins(plan: Plan, cases: Mapping[str, Model], margins: Mapping[str
     ValueError
         The same for ``margins`` given in Python, or a margin that is negative or not finite.
     """
+    for c in plan.targets.cases:
+        if c not in cases:
+            raise PlanError(plan.source, "[targets]", "cases", f"load case {c!r} is not among the cases considered "
+                            f"({', '.join(cases)})")
     kinds: dict[str, RuleCheck] = {}
     for model in cases.values():
         for r in model.rules:
@@ -154,13 +158,14 @@ def case_requirements(case: str, model: Model, baseline: Model, plan: Plan, marg
                     "fraction", rule.name)
         elif rule.check is RuleCheck.MAX_CG_HEIGHT:
             add(key, rule.name, "cg_height_max", lim, t.cg_height_margin + extra, "m", rule.name)
-    if t.fraction_target is not None:
+    targets_here = not t.cases or case in t.cases
+    if targets_here and t.fraction_target is not None:
         tol = float(t.fraction_tolerance or 0.0)
         for kind, bound, side in (("fraction_min", t.fraction_target - tol, "min"),
                                   ("fraction_max", t.fraction_target + tol, "max")):
             add(f"target:{kind}", f"front fraction target {t.fraction_target:.4f} +/- {tol:.4f} ({side})", kind,
                 bound, 0.0, "fraction", "")
-    if t.lateral_offset_max is not None:
+    if targets_here and t.lateral_offset_max is not None:
         y = t.lateral_offset_max
         add("target:lateral_max", f"CG at most {y * 1e3:.1f} mm left of the centre plane", "lateral_max", y, 0.0,
             "m", "")
