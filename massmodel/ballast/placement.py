@@ -445,7 +445,7 @@ def _all_requirements(prob: Problem, plan: Plan, margins: Mapping[str, float],
 
 
 def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: Mapping[str, float] | None = None,
-                  tradeoff_points: int = 0) -> PlacementResult:
+                  tradeoff_points: int = 0, other_rules: Sequence[str] = ()) -> PlacementResult:
     """Place ballast across the plan's candidate slots, meeting the rules of every load case at once (see the
     module notes for the method).
 
@@ -462,6 +462,8 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
         on top of the plan's general margins; they replace the plan's ``[margins]`` entry of the same rule.
     tradeoff_points : int
         Number of points of the CG height / yaw inertia trade-off curve at the least ballast (0: none).
+    other_rules : sequence of str
+        Names of rules of load cases left out (``--case``): their margins are passed over rather than refused.
 
     Returns
     -------
@@ -478,7 +480,7 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
     t_start = time.perf_counter()
     stats = SolverStats()
     cases = _as_cases(models)
-    used_margins = resolve_margins(plan, cases, margins)
+    used_margins = resolve_margins(plan, cases, margins, other_rules)
     prob = build_problem(cases, plan)
     first_case = prob.first
     befores = {name: s.model.mass_properties() for name, s in prob.cases.items()}

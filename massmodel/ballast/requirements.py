@@ -15,7 +15,7 @@ Margins only ever make a rule harder to meet (common practice, no source: a marg
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 
 from massmodel.core.model import Model, RuleCheck, in_group
@@ -73,9 +73,11 @@ class Requirement:
         return replace(self, bound=self.bound + (-delta if self.is_max else delta))
 
 
-def resolve_margins(plan: Plan, cases: Mapping[str, Model], margins: Mapping[str, float] | None = None
-                    ) -> dict[str, float]:
+def resolve_margins(plan: Plan, cases: Mapping[str, Model], margins: Mapping[str, float] | None = None,
+                    other_rules: Iterable[str] = ()) -> dict[str, float]:
     """Per-rule margins (SI) of the plan's ``[margins]`` table and of ``margins`` (which win), checked.
+
+    ``other_rules`` names rules of load cases left out of the placement: margins for them are passed over.
 
     Raises
     ------
@@ -85,17 +87,21 @@ def resolve_margins(plan: Plan, cases: Mapping[str, Model], margins: Mapping[str
     ValueError
         The same for ``margins`` given in Python, or a margin that is negative or not finite.
     """
+    defined = {"base", *cases, *(lc.name for m in cases.values() for lc in m.load_cases)}
     for c in plan.targets.cases:
-        if c not in cases:
-            raise PlanError(plan.source, "[targets]", "cases", f"load case {c!r} is not among the cases considered "
-                            f"({', '.join(cases)})")
+        if c not in defined:
+            raise PlanError(plan.source, "[targets]", "cases", f"the model defines no load case {c!r} (cases: "
+                            f"{', '.join(sorted(defined))})")
     kinds: dict[str, RuleCheck] = {}
     for model in cases.values():
         for r in model.rules:
             kinds.setdefault(r.name, r.check)
     known = ", ".join(sorted(kinds)) or "none"
     out: dict[str, float] = {}
+    skip = set(other_rules) - set(kinds)
     for name, value, dim in plan.margins:
+        if name in skip:
+            continue
         if name not in kinds:
             raise PlanError(plan.source, "[margins]", name, f"no rule of that name applies in the cases considered "
                             f"({', '.join(cases)}); rules: {known}")
@@ -107,6 +113,8 @@ def resolve_margins(plan: Plan, cases: Mapping[str, Model], margins: Mapping[str
                             f"{want}, e.g. {_EXAMPLE[want]}; got a {dim}")
         out[name] = value
     for name, value in (margins or {}).items():
+        if name in skip:
+            continue
         if name not in kinds:
             raise ValueError(f"margins: no rule named {name!r} applies in the cases considered "
                              f"({', '.join(cases)}); rules: {known}")

@@ -327,19 +327,23 @@ def _size_block(args: argparse.Namespace) -> int:
 
 # --- place-ballast ---------------------------------------------------------------------------------------------
 
-def _case_models(args: argparse.Namespace) -> dict[str, Any]:
-    """The models of the cases the placement considers: every case of the file, or those named by ``--case``
-    (comma-separated); each holds the rules that apply in it."""
-    from massmodel.modelfile.loader import build_model, load_case_models, read_source
+def _case_models(args: argparse.Namespace) -> tuple[dict[str, Any], list[str]]:
+    """The models of the cases the placement considers (every case of the file, or those named by ``--case``,
+    comma-separated; each holds the rules that apply in it) and the names of the rules of the cases left out."""
+    from massmodel.modelfile.loader import load_case_models
 
-    overrides = _overrides(args)
+    every = load_case_models(args.model, overrides=_overrides(args))
     if not args.case:
-        return load_case_models(args.model, overrides=overrides)
+        return every, []
     names = [n.strip() for n in args.case.split(",") if n.strip()]
     if not names or len(set(names)) != len(names):
         raise ValueError(f"--case {args.case!r}: expected one or more distinct load-case names, comma-separated")
-    source = read_source(args.model)
-    return {n: build_model(source, overrides, n) for n in names}
+    for n in names:
+        if n not in every:
+            raise ValueError(f"{args.model}: --case {n!r}: no such load case; the file defines: {', '.join(every)}")
+    chosen = {n: every[n] for n in names}
+    others = [r.name for n, m in every.items() if n not in chosen for r in m.rules]
+    return chosen, others
 
 
 def _adjusted_plan(args: argparse.Namespace, model: Any) -> Any:
@@ -393,11 +397,11 @@ def _place(args: argparse.Namespace) -> int:
     if args.out_model is not None and args.out_model.resolve() == Path(args.model).resolve():
         raise ValueError(f"--out-model {args.out_model}: that is the input model; the ballasted model is written to "
                          "a new file that extends it")
-    cases = _case_models(args)
+    cases, other_rules = _case_models(args)
     model = next(iter(cases.values()))
     plan = _adjusted_plan(args, model)
     try:
-        result = place_ballast(cases, plan, tradeoff_points=7 if args.trade_off else 0)
+        result = place_ballast(cases, plan, tradeoff_points=7 if args.trade_off else 0, other_rules=other_rules)
     except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
         field = f" (plan field '{exc.field}')" if exc.field else ""
         raise ValueError(f"{args.plan}: {exc}{field}") from None
