@@ -598,7 +598,7 @@ def _build(
     case_names = {BASE_CASE, *(c.name for c in cases)}
     for rule in rules:
         where = (rule.origin.split(": ")[0], rule.origin.split(": ", 1)[-1])
-        for g in rule.groups + rule.exclude:
+        for g in (rule.groups if rule.check is not RuleCheck.BALLAST_HEIGHT else ()) + rule.exclude:  # a place may be empty
             if not any(c.path == g or c.path.startswith(g + "/") for c in components):
                 raise ModelFileError(*where, "groups" if g in rule.groups else "exclude", f"no part lies in group '{g}'")
         for name in rule.cases:

@@ -221,6 +221,9 @@ def plot_seat_study(study: Any, path: str | Path) -> Path:
     z = study.cg_heights * 1e3
     lo, hi = (v * 1e3 for v in study.seat_range)
     ax.axvspan(lo, hi, color="#eef2f6", label=f"seat structure ({study.seat_group})")
+    for name, a, b in study.height_rules:
+        top = min(b * 1e3, max(hi, float(h.max())))
+        ax.axvspan(a * 1e3, top, facecolor="none", edgecolor=CG_AFTER, hatch="//", lw=0.0, label=f"allowed by {name}")
     ax.plot(h, z, color=CG_AFTER, marker="o", ms=4, lw=1.5, label=f"with {study.ballast_mass:.2f} kg seat ballast")
     ax.axhline(study.base_cg_height * 1e3, color=CG_BEFORE, ls="--", lw=1.0, label="without seat ballast")
     if study.cg_limit is not None and study.cg_limit * 1e3 <= max(z.max(), study.base_cg_height * 1e3) + 20:

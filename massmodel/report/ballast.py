@@ -445,8 +445,13 @@ def seat_dict(study: Any) -> dict[str, Any]:
         "material": study.material.key, "ballast_mass_kg": study.ballast_mass,
         "station_m": study.station, "lateral_m": study.lateral,
         "seat_range_above_ground_m": list(study.seat_range), "base_cg_height_m": study.base_cg_height,
-        "rows": [{"ballast_height_m": float(h), "cg_height_m": float(z), "front_fraction": float(f)}
-                 for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)],
+        "rows": [{"ballast_height_m": float(h), "cg_height_m": float(z), "front_fraction": float(f),
+                  "allowed_by_height_rules": bool(ok)}
+                 for h, z, f, ok in zip(study.heights, study.cg_heights, study.front_fractions, study.allowed,
+                                        strict=True)],
+        "height_rules": [{"rule": n, "lowest_m": lo, "highest_m": (hi if hi != float("inf") else None)}
+                         for n, lo, hi in study.height_rules],
+        "lowest_allowed_height_m": study.lowest_allowed,
         "cg_rise_per_ballast_height": study.slope,
         "cautions": cautions.for_report("ballast", "machining", "handling"),
     }
@@ -473,10 +478,18 @@ def format_seat(study: Any) -> str:
                f"seat structure from {study.seat_range[0] * 1e3:.1f} to {study.seat_range[1] * 1e3:.1f} mm above "
                "the ground")
     out.append("")
-    rows = [[f"{h * 1e3:.1f}", f"{z * 1e3:.2f}", f"{(z - study.base_cg_height) * 1e3:+.2f}", f"{f:.4f}"]
-            for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)]
-    out.append(table(["ballast CG above ground mm", "car CG above ground mm", "car CG change mm", "front fraction"],
-                     rows, "rrrr"))
+    for name, lo, hi in study.height_rules:
+        out.append(f"  rule '{name}': the ballast's CG " + (f"at least {lo * 1e3:.1f} mm above the ground"
+                   if hi == float("inf") else f"between {lo * 1e3:.1f} and {hi * 1e3:.1f} mm above the ground"))
+    rows = [[f"{h * 1e3:.1f}", f"{z * 1e3:.2f}", f"{(z - study.base_cg_height) * 1e3:+.2f}", f"{f:.4f}",
+             "" if ok else "NOT ALLOWED by the ballast-height rule"]
+            for h, z, f, ok in zip(study.heights, study.cg_heights, study.front_fractions, study.allowed, strict=True)]
+    out.append(table(["ballast CG above ground mm", "car CG above ground mm", "car CG change mm", "front fraction",
+                      ""], rows, "rrrrl"))
+    if study.height_rules:
+        low = study.lowest_allowed
+        out.append("  lowest height the rules allow: " + (f"{low * 1e3:.1f} mm" if low is not None else
+                   "none of the tabulated heights"))
     outside = [h for h in study.heights if not study.seat_range[0] <= h <= study.seat_range[1]]
     if outside:
         out.append(f"  NOTE: {', '.join(f'{h * 1e3:.1f}' for h in outside)} mm lie outside the seat structure "
