@@ -280,8 +280,10 @@ class _Block:
     center: FloatArray
 
 
-def _assess(prob: CaseSetup, reqs: Sequence[Requirement], blocks: Sequence[_Block],
-            binding: set[str]) -> list[Assessment]:
+def _assess(prob: CaseSetup, reqs: Sequence[Requirement], blocks: Sequence[_Block], binding: set[str],
+            cuts: dict[str, list[FloatArray]] | None = None) -> list[Assessment]:
+    """Each requirement on the sized blocks, at nominal density and at the worst mix of the density bands; the
+    worst mixes of the ratio rows are added to ``cuts`` (requirement key → density factors per candidate)."""
     m0, q0 = prob.m0, prob.q0
     w = np.array([b.mass for b in blocks])
     c = np.array([b.center for b in blocks]).reshape(-1, 3)
@@ -291,6 +293,15 @@ def _assess(prob: CaseSetup, reqs: Sequence[Requirement], blocks: Sequence[_Bloc
     phi = (c @ prob.fwd - prob.x_rear) / prob.wheelbase if len(blocks) else np.zeros(0)
     f0 = float(prob.fwd @ q0 - prob.x_rear * m0) / prob.wheelbase
     out = []
+
+    def worst_of(num0: float, v: FloatArray, maximize: bool, key: str) -> float:
+        value, kappa = extreme_ratio(num0, m0, w, v, lo, hi, maximize=maximize)
+        if cuts is not None and len(blocks):
+            full = np.ones(prob.n)
+            full[idx] = kappa
+            cuts.setdefault(key, []).append(full)
+        return value
+
     for req in reqs:
         k = req.kind
         if k in ("min_mass", "min_group_mass"):
@@ -304,15 +315,15 @@ def _assess(prob: CaseSetup, reqs: Sequence[Requirement], blocks: Sequence[_Bloc
             worst = base + float(np.sum(np.where(share >= 0.0, lo, hi) * w * share))
         elif k in ("fraction_min", "fraction_max"):
             nominal = (f0 + float(np.sum(w * phi))) / (m0 + float(np.sum(w)))
-            worst = extreme_ratio(f0, m0, w, phi, lo, hi, maximize=(k == "fraction_max"))[0]
+            worst = worst_of(f0, phi, k == "fraction_max", req.key)
         elif k == "cg_height_max":
             z = c @ prob.up if len(blocks) else np.zeros(0)
             nominal = (float(prob.up @ q0) + float(np.sum(w * z))) / (m0 + float(np.sum(w))) - prob.ground
-            worst = extreme_ratio(float(prob.up @ q0), m0, w, z, lo, hi, maximize=True)[0] - prob.ground
+            worst = worst_of(float(prob.up @ q0), z, True, req.key) - prob.ground
         elif k in ("lateral_max", "lateral_min"):
             y = c @ prob.left if len(blocks) else np.zeros(0)
             nominal = (float(prob.left @ q0) + float(np.sum(w * y))) / (m0 + float(np.sum(w)))
-            worst = extreme_ratio(float(prob.left @ q0), m0, w, y, lo, hi, maximize=(k == "lateral_max"))[0]
+            worst = worst_of(float(prob.left @ q0), y, k == "lateral_max", req.key)
         else:  # max_ballast
             nominal = worst = float(np.sum(w))
         sign = -1.0 if req.is_max else 1.0
@@ -495,10 +506,12 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
             notes.append(f"slot {ln.cand.name}: its capacity ({ln.cap:.3f} kg) is less than its thinnest block "
                          f"({ln.floor:.3f} kg), so it is not used")
     costs: list[RuleCost] = []
+    true_reqs = _all_requirements(prob, plan, used_margins, {})  # what the result is checked against
+    cuts: dict[str, list[FloatArray]] = {}  # worst density mixes met so far, added as rows
     for round_no in range(1, MAX_ROUNDS + 1):
         stats.rounds = round_no
         reqs = _all_requirements(prob, plan, used_margins, tighten)
-        rows = prob.rows(reqs)
+        rows = prob.rows(reqs, cuts)
         m, _least, m1 = _solve(prob, rows, stats)
         if m is None or m1 is None:
             shortfalls = _diagnose(prob, reqs, rows, stats)
@@ -520,17 +533,24 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
         binding = {req.key for req, gj in zip(rows.reqs, g, strict=True)
                    if gj <= 1e-6 * max(1.0, prob.cases[req.case].m0) + (slack if req.unit == "kg" else 0.0)}
         allocations, blocks, comps = _size_all(prob, m)
+        new_cuts: dict[str, list[FloatArray]] = {}
         assessments = [a for name, s in prob.cases.items()
-                       for a in _assess(s, [r for r in reqs if r.case == name], blocks, binding)]
+                       for a in _assess(s, [r for r in true_reqs if r.case == name], blocks, binding, new_cuts)]
         missed = [a for a in assessments if not a.passed]
         over = [(al, al.sizing.masses()[2] - al.candidate.capacity) for al in allocations
                 if al.sizing is not None and al.candidate.capacity is not None
                 and al.sizing.masses()[2] > al.candidate.capacity * (1 + 1e-12)]
         if not missed and not over:
             break
-        for a in missed:
-            tighten[a.requirement.key] = tighten.get(a.requirement.key, 0.0) - a.margin_worst + \
+        for a in missed:  # the row is made to bind where it is now, less the true miss (the worst mix becomes a row)
+            key = a.requirement.key
+            j = [i for i, rq in enumerate(rows.reqs) if rq.key == key]
+            slack = float(np.min(g[j])) if j else 0.0
+            if a.requirement.unit != "kg":
+                slack /= prob.cases[a.requirement.case].m0 + float(np.sum(m))
+            tighten[key] = tighten.get(key, 0.0) + max(slack, 0.0) - a.margin_worst + \
                 (1e-6 if a.requirement.unit == "kg" else 1e-7)
+            cuts.setdefault(a.requirement.key, []).extend(new_cuts.get(a.requirement.key, []))
         for al, excess in over:
             i = plan.candidates.index(al.candidate)
             ln = prob.lines[i]

@@ -243,11 +243,13 @@ class Problem:
     def row(self, req: Requirement, kappa: FloatArray) -> tuple[float, FloatArray, FloatArray]:
         return self.cases[req.case].row(req, kappa)
 
-    def rows(self, reqs: Sequence[Requirement]) -> Rows:
-        """One row per requirement and density scenario (see :meth:`CaseSetup.scenarios`)."""
+    def rows(self, reqs: Sequence[Requirement], cuts: Mapping[str, Sequence[FloatArray]] | None = None) -> Rows:
+        """One row per requirement and density scenario (see :meth:`CaseSetup.scenarios`), plus one per worst
+        density mix in ``cuts`` (requirement key → density factors per candidate)."""
         g0, a, b, rr, labels = [], [], [], [], []
         for req in reqs:
-            for label, kappa in self.cases[req.case].scenarios(req):
+            extra = [("worst density mix", k) for k in (cuts or {}).get(req.key, ())]
+            for label, kappa in self.cases[req.case].scenarios(req) + extra:
                 r0, ra, rb = self.row(req, kappa)
                 g0.append(r0)
                 a.append(ra)
