@@ -190,13 +190,11 @@ def check_written_model(path: str | Path, expected: Model, text: str | None = No
         got = load_model(path).mass_properties()
     else:
         got = loads_model(text, label=str(path), base_dir=Path(path).resolve().parent).mass_properties()
-    want = expected.mass_properties()
-    scale_i = float(np.max(np.abs(want.inertia)))
-    return max(abs(got.mass - want.mass) / want.mass, float(np.max(np.abs(got.center - want.center))) / 1.0,
-               float(np.max(np.abs(got.inertia - want.inertia))) / scale_i)
+    return _difference(got, expected.mass_properties())
 
 
 def _difference(got: Any, want: Any) -> float:
+    """Largest relative difference of two mass properties (mass; CG in m over 1 m; inertia over its largest)."""
     scale_i = float(np.max(np.abs(want.inertia)))
     return max(abs(got.mass - want.mass) / want.mass, float(np.max(np.abs(got.center - want.center))) / 1.0,
                float(np.max(np.abs(got.inertia - want.inertia))) / scale_i)

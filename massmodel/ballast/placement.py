@@ -519,11 +519,11 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
             if round_no > 1:
                 notes.append("the rows were tightened to absorb rounding to the increment and the density bands; "
                              "with the tightened rows there is no solution: try a finer increment")
-            outcomes = tuple(CaseOutcome(name, s.model, s.baseline, None, befores[name], None, bal_before[name], None,
-                                         (), ()) for name, s in prob.cases.items())
+            empty = tuple(CaseOutcome(name, s.model, s.baseline, None, befores[name], None, bal_before[name], None,
+                                      (), ()) for name, s in prob.cases.items())
             return PlacementResult(plan, first_case.model, first_case.baseline, False, (), None, (), (),
                                    bal_before[first_case.name], None, befores[first_case.name], None,
-                                   tuple(shortfalls), stats, tuple(notes), cases=outcomes, margins=used_margins)
+                                   tuple(shortfalls), stats, tuple(notes), cases=empty, margins=used_margins)
         if round_no == 1:
             first = tuple(float(v) for v in m)
             least_first = float(np.sum(m1))
@@ -560,7 +560,8 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
     if tighten:
         notes.append("rows tightened to absorb rounding and the density bands: " +
                      ", ".join(f"{k.split(':', 1)[1]} by {v:.3g}" for k, v in tighten.items()))
-    outcomes = []
+    assert m is not None and m1 is not None  # the loop returned when infeasible
+    outcomes: list[CaseOutcome] = []
     for name, s in prob.cases.items():
         ballasted = s.baseline.with_components(list(s.baseline.components) + comps, name=f"{s.model.name} (ballasted)")
         after = ballasted.mass_properties()
@@ -572,9 +573,9 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
     curve: list[TradeoffPoint] = []
     if tradeoff_points > 0:
         ub, floor = _bounds(prob)
-        least = float(np.sum(m1)) if m1 is not None else float(np.sum(m))
-        curve = tradeoff_curve(prob, rows, ub, floor, (least, least + plan.targets.ballast_allowance), stats,
-                               m1 if m1 is not None else m, tradeoff_points, starts=[m])
+        least = float(np.sum(m1))
+        curve = tradeoff_curve(prob, rows, ub, floor, (least, least + plan.targets.ballast_allowance), stats, m1,
+                               tradeoff_points, starts=[m])
     stats.seconds = time.perf_counter() - t_start
     o0 = outcomes[0]
     return PlacementResult(plan, o0.model, o0.baseline, True, tuple(allocations), o0.ballasted, tuple(assessments),
