@@ -237,7 +237,8 @@ def _size_block(args: argparse.Namespace) -> int:
 
     from massmodel.ballast.export import blocks_of_sizing, write_step, write_stl
     from massmodel.ballast.plan import load_plan
-    from massmodel.ballast.sizing import Envelope, check_fit, heaviest_block, rules_target, size_block
+    from massmodel.ballast.sizing import Envelope, heaviest_block, size_block
+    from massmodel.ballast.targets import check_fit, rules_target
     from massmodel.core.frames import Pose
     from massmodel.report.ballast import format_sizing, sizing_dict, suggestions
     from massmodel.report.summary import write_json_atomic
@@ -390,7 +391,8 @@ def _adjusted_plan(args: argparse.Namespace, model: Any) -> Any:
 def _place(args: argparse.Namespace) -> int:
     from massmodel.ballast.export import Block, write_step, write_stl
     from massmodel.ballast.placement import place_ballast
-    from massmodel.ballast.sizing import SizingError, check_fit
+    from massmodel.ballast.sizing import SizingError
+    from massmodel.ballast.targets import check_fit
     from massmodel.report.ballast import format_placement, placement_dict
     from massmodel.report.summary import write_json_atomic
 

@@ -8,7 +8,8 @@ from typing import Any
 import numpy as np
 
 from massmodel.ballast.block import AXES
-from massmodel.ballast.sizing import BlockSizing, denser_materials
+from massmodel.ballast.sizing import BlockSizing
+from massmodel.ballast.targets import denser_materials
 from massmodel.core import cautions
 from massmodel.core.materials import Material
 
