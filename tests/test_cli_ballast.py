@@ -474,3 +474,12 @@ def test_ballast_height_rule_fields(tmp_path, capsys, fields, field, words):
     assert main(["check", str(car)]) == EXIT_USAGE
     err = capsys.readouterr().err
     assert f"rule 'seat height', field '{field}'" in err and words in err and err.count("\n") == 1
+
+
+def test_place_ballast_rule_tied_to_no_case(tmp_path, capsys):
+    car = tmp_path / "car.toml"
+    car.write_text(f'[model]\nname = "x"\nextends = "{CAR.as_posix()}"\n[[rule]]\nname = "ghost"\ncheck = "min_mass"\n'
+                   'limit = "400 kg"\ncase = "monsoon"\n')
+    assert main(["place-ballast", str(car), str(PLAN), "--no-fit"]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert "rule 'ghost', field 'case': the model defines no load case 'monsoon'" in err and err.count("\n") == 1

@@ -279,3 +279,22 @@ def test_ballast_height_at_the_drivers_cg_height_band():
     ok = model.with_components([*model.components, point("seat/ballast/plate", 10.0, (-1.2, 0.0, 0.33))])
     assert check_rules(ok)[0].passed
     assert static_balance(ok.mass_properties(), VEHICLE).mass == pytest.approx(486.0)
+
+
+def test_front_fraction_objective_by_least_squares_over_the_cases():
+    # With the mass rule binding (30 kg) and the total held there, m2 = 30 - m1 and each case's front fraction is
+    # linear in m1: f_c = (F0_c + 0.12*30 + 0.68 m1) / M_c. The mean of (f_c - t)^2 is least at
+    # m1 = -Σ a_c b_c / Σ a_c^2 with a_c = 0.68 / M_c, b_c = (F0_c + 3.6) / M_c - t (linear least squares).
+    from massmodel.ballast.plan import Objective
+
+    cases = two_cases(mass_limit=430.0)
+    t = 0.41
+    plan = plan_for(cases["race"], objective=Objective.FRONT_FRACTION, fraction_target=t, fraction_tolerance=0.2)
+    result = place_ballast(cases, plan)
+    assert result.passed
+    a = np.array([0.68 / 440.0, 0.68 / 470.0])
+    b = np.array([(162.0 + 3.6) / 440.0 - t, (168.0 + 3.6) / 470.0 - t])
+    m1 = -float(a @ b) / float(a @ a)
+    assert 24.2 < m1 < 30.0  # inside what the race front-share minimum (m1 >= 16.4 / 0.68) and the total allow
+    assert result.first_round[0] == pytest.approx(m1, rel=1e-4)
+    assert sum(result.first_round) == pytest.approx(30.0, rel=1e-9)
