@@ -106,6 +106,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     add_model_arguments(p)
     for action in p._actions:  # --case here takes several cases
         if action.dest == "case":
+            action.metavar = "NAME[,NAME...]"
             action.help = ("consider only these load cases, comma-separated (default: the base and every case of "
                            "the file), e.g. --case race_start,qualifying")
     p.add_argument("plan", type=Path, help="ballast plan (TOML, see docs/ballast.md)")

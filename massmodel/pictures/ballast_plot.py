@@ -286,8 +286,21 @@ def plot_tradeoff(result: Any, path: str | Path) -> Path:
         h = np.array([p.cg_height for p in pts]) * 1e3
         yaw = np.array([p.yaw for p in pts])
         ax.plot(h, yaw, color=CG_AFTER, marker="o", ms=4, lw=1.4, label="least ballast, weighted objectives")
+        groups: dict[tuple[float, float], list[float]] = {}  # points that coincide share one label
         for p, hx, yx in zip(pts, h, yaw, strict=True):
-            ax.annotate(f"w={p.weight_height:.2f}", (hx, yx), xytext=(4, 4), textcoords="offset points", fontsize=6)
+            groups.setdefault((round(float(hx), 3), round(float(yx), 4)), []).append(p.weight_height)
+        for k, ((hx, yx), ws) in enumerate(groups.items()):
+            text = f"w={ws[0]:.2f}" if len(ws) == 1 else f"w={min(ws):.2f}..{max(ws):.2f}"
+            ax.annotate(text, (hx, yx), xytext=(5, 5 - 11 * (k % 3)), textcoords="offset points", fontsize=6)
+        # at least 1 mm and 1 kg*m^2 shown, so that a curve that is nearly a point looks like one
+        for values, span, setter in ((h, 1.0, ax.set_xlim), (yaw, 1.0, ax.set_ylim)):
+            mid, half = 0.5 * (values.min() + values.max()), 0.5 * max(values.max() - values.min(), span) * 1.15
+            setter(mid - half, mid + half)
+        ax.ticklabel_format(useOffset=False)
+        spread = (h.max() - h.min(), yaw.max() - yaw.min())
+        if spread[0] < 0.1 and spread[1] < 0.1:
+            ax.text(0.02, 0.03, f"the two objectives nearly agree here: {spread[0]:.3f} mm and {spread[1]:.3f} "
+                    "kg*m^2 apart", transform=ax.transAxes, fontsize=7, color=CG_BEFORE)
     else:
         ax.text(0.5, 0.5, "no trade-off computed", ha="center", va="center", transform=ax.transAxes)
     ax.set_xlabel("CG height above the ground, mm (mean over the cases)")
