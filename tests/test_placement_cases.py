@@ -298,3 +298,23 @@ def test_front_fraction_objective_by_least_squares_over_the_cases():
     assert 24.2 < m1 < 30.0  # inside what the race front-share minimum (m1 >= 16.4 / 0.68) and the total allow
     assert result.first_round[0] == pytest.approx(m1, rel=1e-4)
     assert sum(result.first_round) == pytest.approx(30.0, rel=1e-9)
+
+
+def test_rule_cost_and_tradeoff_pictures(tmp_path):
+    pytest.importorskip("matplotlib")
+    from PIL import Image
+
+    from massmodel.pictures.ballast_plot import plot_placement, plot_rule_costs, plot_tradeoff
+
+    cases = two_cases()
+    result = place_ballast(cases, plan_for(cases["race"], ballast_allowance=0.5), tradeoff_points=3)
+    assert [p.weight_height for p in result.tradeoff] == [1.0, 0.5, 0.0]
+    # the trade-off keeps the least ballast (plus the allowance) and the curve runs the right way: more weight on
+    # the CG height never gives a higher CG
+    heights = [p.cg_height for p in result.tradeoff]
+    assert all(a <= b + 1e-9 for a, b in zip(heights, heights[1:], strict=False))
+    assert all(result.least - 1e-9 <= sum(p.masses) <= result.least + 0.5 + 1e-9 for p in result.tradeoff)
+    for fn, name in ((plot_placement, "p.png"), (plot_rule_costs, "c.png"), (plot_tradeoff, "t.png")):
+        fn(result, tmp_path / name)
+        img = np.asarray(Image.open(tmp_path / name).convert("L"))
+        assert img.shape[0] > 300 and img.std() > 10, name  # a picture, not a blank page

@@ -244,7 +244,7 @@ def plot_rule_costs(result: Any, path: str | Path) -> Path:
     """What each binding rule costs (PNG): the dual value (ballast per step of the limit) and the ballast saved
     without the rule, one bar each, labelled with the case."""
     costs = [c for c in result.costs if c.binding] or list(result.costs)
-    fig = _figure((10.0, 2.2 + 0.42 * max(len(costs), 1)))
+    fig = _figure((10.0, max(3.2, 2.2 + 0.42 * len(costs))))
     fig.subplots_adjust(left=0.36, right=0.97, bottom=0.2 if len(costs) > 3 else 0.3, top=0.85, wspace=0.35)
     labels = [f"{c.requirement.label[:40]} [{c.requirement.case}]" for c in costs]
     y = np.arange(len(costs))
