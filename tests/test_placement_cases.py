@@ -149,6 +149,10 @@ def test_dual_of_a_mass_rule_by_finite_differences():
     assert result.least == pytest.approx(least, rel=1e-9) and least == pytest.approx(30.0)
     costs = [c for c in result.costs if c.requirement.rule == "min mass"]
     assert sum(c.dual for c in costs) == pytest.approx(1.0, rel=1e-9)  # one kg of ballast per kg of limit
+    # the same over both cases at once; without the mass rule anywhere the race front share alone needs 20 kg
+    total = next(t for t in result.rule_totals if t.rule_key == "rule:min mass")
+    assert total.cases == ("qualifying", "race") and total.dual == pytest.approx(1.0, rel=1e-9)
+    assert total.without == pytest.approx(20.0, rel=1e-9) and total.saving == pytest.approx(10.0, rel=1e-9)
     h = 0.01
     again = place_ballast(two_cases(mass_limit=430.0 + h), plan_for(cases["race"]))
     assert (again.least - result.least) / h == pytest.approx(1.0, rel=1e-6)

@@ -34,8 +34,8 @@ import numpy.typing as npt
 from .requirements import Requirement
 from .solvers import Rows, SolverStats, minimise_on_off, sequential_lp
 
-__all__ = ["RuleCost", "SlotSensitivity", "TradeoffPoint", "rule_costs", "slot_sensitivities", "tradeoff_curve",
-           "PER_UNIT"]
+__all__ = ["RuleCost", "RuleTotal", "SlotSensitivity", "TradeoffPoint", "rule_costs", "rule_totals",
+           "slot_sensitivities", "tradeoff_curve", "PER_UNIT"]
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -75,6 +75,32 @@ class RuleCost:
     @property
     def saving(self) -> float:
         """Ballast saved by leaving the requirement out, kg."""
+        return self.least - self.without
+
+
+@dataclass(frozen=True, slots=True)
+class RuleTotal:
+    """What one rule (or one side of a front-share window) costs over every case it applies in.
+
+    ``dual`` is the sum of its cases' dual values (the change of the least ballast when the limit is made harder
+    in every case at once, kg per unit); ``without`` the least ballast with the rule left out of every case, kg.
+    """
+
+    rule_key: str
+    label: str
+    unit: str
+    cases: tuple[str, ...]
+    dual: float
+    least: float
+    without: float
+
+    @property
+    def per_step(self) -> tuple[float, str]:
+        step, label = PER_UNIT[self.unit]
+        return self.dual * step, label
+
+    @property
+    def saving(self) -> float:
         return self.least - self.without
 
 
@@ -153,12 +179,31 @@ def rule_costs(prob: Any, reqs: Sequence[Requirement], rows: Rows, m1: FloatArra
         binding = tight or dual > 1e-9
         without = least
         if binding or integer:
-            keep = [j for j in range(len(keys)) if keys[j] != req.key]
-            sub = Rows(rows.g0[keep], rows.a[keep], rows.b[keep], [rows.reqs[j] for j in keep],
-                       [rows.labels[j] for j in keep])
+            sub = rows.subset(np.array([k != req.key for k in keys], dtype=bool))
             m = sequential_lp(np.ones(len(m1)), sub, bounds[0], bounds[1], None, stats)
             without = float(np.sum(m)) if m is not None else least
         out.append(RuleCost(req, binding, dual, least, min(without, least)))
+    return out
+
+
+def rule_totals(costs: Sequence[RuleCost], rows: Rows, bounds: tuple[FloatArray, FloatArray],
+                stats: SolverStats) -> list[RuleTotal]:
+    """Per rule over its cases: the summed dual value and the least ballast without it in any case (solved again,
+    for the rules binding somewhere)."""
+    by_rule: dict[str, list[RuleCost]] = {}
+    for c in costs:
+        by_rule.setdefault(c.requirement.rule_key, []).append(c)
+    out = []
+    for key, group in by_rule.items():
+        least = group[0].least
+        without = least
+        if any(c.binding for c in group):
+            keep = np.array([r.rule_key != key for r in rows.reqs], dtype=bool)
+            m = sequential_lp(np.ones(rows.a.shape[1]), rows.subset(keep), bounds[0], bounds[1], None, stats)
+            without = min(float(np.sum(m)), least) if m is not None else least
+        r = group[0].requirement
+        out.append(RuleTotal(key, r.label, r.unit, tuple(c.requirement.case for c in group),
+                             float(sum(c.dual for c in group)), least, without))
     return out
 
 

@@ -61,7 +61,16 @@ from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Component, Model
 from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
 
-from .costs import RuleCost, SlotSensitivity, TradeoffPoint, rule_costs, slot_sensitivities, tradeoff_curve
+from .costs import (
+    RuleCost,
+    RuleTotal,
+    SlotSensitivity,
+    TradeoffPoint,
+    rule_costs,
+    rule_totals,
+    slot_sensitivities,
+    tradeoff_curve,
+)
 from .parts import piece_component
 from .plan import Candidate, Objective, Plan
 from .problem import CaseSetup, Problem, build_problem
@@ -163,6 +172,7 @@ class PlacementResult:
     tradeoff: tuple[TradeoffPoint, ...] = ()
     margins: Mapping[str, float] | None = None  # the per-rule margins used (SI)
     least: float = math.nan  # least ballast of the continuous problem before rounding (stage 1), kg nominal
+    rule_totals: tuple[RuleTotal, ...] = ()  # each rule over every case it applies in
 
     @property
     def ballast_mass(self) -> tuple[float, float, float]:
@@ -506,6 +516,7 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
             notes.append(f"slot {ln.cand.name}: its capacity ({ln.cap:.3f} kg) is less than its thinnest block "
                          f"({ln.floor:.3f} kg), so it is not used")
     costs: list[RuleCost] = []
+    totals: list[RuleTotal] = []
     true_reqs = _all_requirements(prob, plan, used_margins, {})  # what the result is checked against
     cuts: dict[str, list[FloatArray]] = {}  # worst density mixes met so far, added as rows
     for round_no in range(1, MAX_ROUNDS + 1):
@@ -528,6 +539,7 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
             first = tuple(float(v) for v in m)
             least_first = float(np.sum(m1))
             costs = rule_costs(prob, reqs, rows, m1, _bounds(prob), stats)
+            totals = rule_totals(costs, rows, _bounds(prob), stats)
         g = rows.values(m)
         slack = plan.targets.ballast_allowance
         binding = {req.key for req, gj in zip(rows.reqs, g, strict=True)
@@ -581,4 +593,5 @@ def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: M
     return PlacementResult(plan, o0.model, o0.baseline, True, tuple(allocations), o0.ballasted, tuple(assessments),
                            tuple(r for o in outcomes for r in o.rules), o0.balance_before, o0.balance_after,
                            o0.props_before, o0.props_after, (), stats, tuple(notes), first, tuple(outcomes),
-                           tuple(costs), tuple(sens), tuple(curve), used_margins, least_first)
+                           tuple(costs), tuple(sens), tuple(curve), used_margins, least_first,
+                           tuple(totals))

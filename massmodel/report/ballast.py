@@ -271,6 +271,11 @@ def placement_dict(result: Any) -> dict[str, Any]:
                             "requirements": [_requirement_dict(a) for a in c.assessments],
                             "rules": [_rule_dict(r) for r in c.rules]} for c in result.cases]
     out["rule_costs"] = [_cost_dict(c) for c in result.costs]
+    out["rule_totals"] = [{"key": t.rule_key, "label": t.label, "unit": t.unit, "cases": list(t.cases),
+                           "dual_sum": {"value": t.dual, "unit": _DUAL_UNIT[t.unit]},
+                           "dual_sum_per_step": {"kg": t.per_step[0], "step": t.per_step[1]},
+                           "least_ballast_kg": t.least, "least_ballast_without_in_every_case_kg": t.without,
+                           "saving_without_kg": t.saving} for t in result.rule_totals]
     out["sensitivities"] = [_sensitivity_dict(s) for s in result.sensitivities]
     out["tradeoff"] = [{"weight_cg_height": p.weight_height, "mean_cg_height_m": p.cg_height,
                         "mean_yaw_inertia_kg_m2": p.yaw, "planned_kg": list(p.masses)} for p in result.tradeoff]
@@ -310,6 +315,12 @@ def format_rule_costs(result: Any, everything: bool = False) -> list[str]:
     if len({c.requirement.rule_key for c in shown}) < len(shown):
         out.append("  a rule binding in several cases at once shares its dual value between them (their sum is what "
                    "the rule costs); leaving it out of one case saves nothing while another case still holds it")
+    totals = [t for t in result.rule_totals if t.dual > 1e-12 or t.saving > 1e-9]
+    if totals:
+        out.append("  each rule over every case it applies in:")
+        out.append(table(["rule or target", "cases", "sum of duals", "kg without it in every case", "kg saved"],
+                         [[t.label, str(len(t.cases)), f"{t.per_step[0]:.4f} kg {t.per_step[1]}", f"{t.without:.3f}",
+                           f"{t.saving:.3f}"] for t in totals], "lrrrr"))
     hidden = len(result.costs) - len(shown)
     if hidden:
         out.append(f"  {hidden} further requirement(s) not binding: 0 kg per step, no ballast saved without them "
