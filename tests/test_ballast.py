@@ -20,13 +20,11 @@ from massmodel.ballast.sizing import (
     Envelope,
     Fill,
     SizingError,
-    check_fit,
-    denser_materials,
     heaviest_block,
-    rules_target,
     size_block,
     spec_from_parts,
 )
+from massmodel.ballast.targets import check_fit, denser_materials, rules_target
 from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
 from massmodel.core.materials import Material, builtin_materials
 from massmodel.modelfile.loader import load_model

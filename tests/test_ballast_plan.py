@@ -113,7 +113,8 @@ def test_plan_errors(model, text, item, field, words):
 def test_core_ballast_modules_import_without_cad_or_plotting():
     # the sizing and placement maths need numpy (and scipy when solving), not cadquery or matplotlib
     code = ("import sys; import massmodel.ballast.block, massmodel.ballast.sizing, massmodel.ballast.plan, massmodel.ballast.placement, "
-            "massmodel.ballast.seat, massmodel.report.ballast, massmodel.ballast.parts, massmodel.ballast.export; "
+            "massmodel.ballast.seat, massmodel.report.ballast, massmodel.ballast.parts, massmodel.ballast.export, "
+            "massmodel.ballast.targets, massmodel.ballast.costs, massmodel.ballast.problem, massmodel.ballast.requirements; "
             "bad = [m for m in ('cadquery', 'OCP', 'matplotlib', 'pyvista') if m in sys.modules]; "
             "print(bad); raise SystemExit(1 if bad else 0)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)

@@ -190,10 +190,36 @@ def check_written_model(path: str | Path, expected: Model, text: str | None = No
         got = load_model(path).mass_properties()
     else:
         got = loads_model(text, label=str(path), base_dir=Path(path).resolve().parent).mass_properties()
-    want = expected.mass_properties()
+    return _difference(got, expected.mass_properties())
+
+
+def _difference(got: Any, want: Any) -> float:
+    """Largest relative difference of two mass properties (mass; CG in m over 1 m; inertia over its largest)."""
     scale_i = float(np.max(np.abs(want.inertia)))
     return max(abs(got.mass - want.mass) / want.mass, float(np.max(np.abs(got.center - want.center))) / 1.0,
                float(np.max(np.abs(got.inertia - want.inertia))) / scale_i)
 
 
-__all__ += ["check_written_model"]
+def check_written_cases(path: str | Path, expected: Mapping[str, Model], text: str,
+                        overrides: Mapping[str, str] | None = None) -> tuple[float, str]:
+    """Load a ballasted model's text (as if written at ``path``) in each load case of ``expected`` and compare its
+    total mass properties with the expected ballasted model of that case.
+
+    Returns
+    -------
+    (float, str)
+        The largest relative difference and the case it was found in.
+    """
+    from massmodel.modelfile.loader import build_model, source_from_text
+
+    source = source_from_text(text, label=str(path), base_dir=Path(path).resolve().parent)
+    worst, where = 0.0, ""
+    for case, model in expected.items():
+        got = build_model(source, overrides, case).mass_properties()
+        d = _difference(got, model.mass_properties())
+        if d >= worst:
+            worst, where = d, case
+    return worst, where
+
+
+__all__ += ["check_written_model", "check_written_cases"]

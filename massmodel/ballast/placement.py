@@ -1,4 +1,11 @@
-"""Placing ballast across candidate slots to meet the rules with the least ballast and the lowest CG.
+"""Placing ballast across candidate slots to meet the rules of every load case with the least ballast and the
+lowest CG.
+
+The ballast is the same metal in every running condition (qualifying fuel, full tank, ...): one vector of slot
+masses is carried through every load case considered, each case adding its own rows (its rules, with their margins,
+and the plan's targets; see :mod:`massmodel.ballast.requirements`). The least-ballast problem and the objective are
+solved over every case at once; the objective is the mean over the cases of the CG height (or yaw inertia, or the
+squared distance of the front fraction from its target).
 
 The problem
 -----------
@@ -8,7 +15,7 @@ modelled as ``cᵢ(m) = pᵢ + qᵢ m`` (exact at the full block and at half of 
 the slot centre). With ``μᵢ = κᵢ mᵢ`` the mass at a density ``κᵢ`` times the nominal one, every rule and target is
 a row ``g(m) = g₀ + Σ aᵢ mᵢ + bᵢ mᵢ² ≥ 0`` in kg:
 
-* ``min_mass`` / ``min_group_mass``: rule mass − (limit + margin), at the LOW end of every density band.
+* ``min_mass`` / ``min_group_mass``: rule mass − (limit + margins), at the LOW end of every density band.
 * ``min_axle_load``: axle load − (limit + margin), each block at the end of its band that loads that axle least.
 * front fraction within [lo, hi]: ``F − lo·M ≥ 0`` and ``hi·M − F ≥ 0`` (the lever rule, moments about the rear
   axle, Jazar 2008 eq. 2.1), at the nominal, lowest and highest densities (and any worst mix found later).
@@ -44,50 +51,38 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
-from massmodel.core.massprops import MassProperties, parallel_axis_shift
-from massmodel.core.model import Component, Model, RuleCheck, in_group
+from massmodel.core.massprops import MassProperties
+from massmodel.core.model import Component, Model
 from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
 
+from .costs import (
+    RuleCost,
+    RuleTotal,
+    SlotSensitivity,
+    TradeoffPoint,
+    rule_costs,
+    rule_totals,
+    slot_sensitivities,
+    tradeoff_curve,
+)
 from .parts import piece_component
 from .plan import Candidate, Objective, Plan
-from .sizing import BlockSizing, SizingError, cross_sizes, size_block, stack_for_units
+from .problem import CaseSetup, Problem, build_problem
+from .requirements import Requirement, case_requirements, resolve_margins
+from .sizing import BlockSizing, size_block
 from .solvers import TOL_KG, Rows, SolverStats, extreme_ratio, minimise_on_off, sequential_lp
 
-__all__ = ["Requirement", "Assessment", "Allocation", "Shortfall", "SolverStats", "PlacementResult", "place_ballast"]
+__all__ = ["Requirement", "Assessment", "Allocation", "Shortfall", "SolverStats", "CaseOutcome", "PlacementResult",
+           "place_ballast", "stage_two", "mix_optimum"]
 
 FloatArray = npt.NDArray[np.float64]
 MAX_ROUNDS = 8
-
-
-@dataclass(frozen=True, slots=True)
-class Requirement:
-    """One rule or target as a bound.
-
-    ``kind`` is min_mass, min_group_mass, axle_front, axle_rear, fraction_min, fraction_max, cg_height_max,
-    lateral_max, lateral_min or max_ballast; ``bound`` is in ``unit`` (kg, fraction, m) and already includes the
-    plan's margin; ``limit`` is the rule's own value.
-    """
-
-    key: str
-    label: str
-    kind: str
-    bound: float
-    limit: float
-    unit: str
-    source: str  # "rule" or "target"
-    members: tuple[bool, ...] = ()  # mass rules: which candidates count
-    base: float = 0.0  # mass rules: rule mass of the baseline, kg
-
-    @property
-    def is_max(self) -> bool:
-        return self.kind in ("fraction_max", "cg_height_max", "lateral_max", "max_ballast")
 
 
 @dataclass(frozen=True, slots=True)
@@ -130,8 +125,30 @@ class Shortfall:
 
 
 @dataclass(frozen=True, eq=False)
+class CaseOutcome:
+    """One load case of a placement: its model before and after, its requirements checked, its rule checks."""
+
+    name: str
+    model: Model
+    baseline: Model
+    ballasted: Model | None
+    props_before: MassProperties
+    props_after: MassProperties | None
+    balance_before: Balance | None
+    balance_after: Balance | None
+    assessments: tuple[Assessment, ...]
+    rules: tuple[RuleResult, ...]
+
+    @property
+    def passed(self) -> bool:
+        return all(r.passed for r in self.rules) and all(a.passed for a in self.assessments)
+
+
+@dataclass(frozen=True, eq=False)
 class PlacementResult:
-    """Outcome of :func:`place_ballast`."""
+    """Outcome of :func:`place_ballast`. The single-case fields (``model``, ``ballasted``, ``balance_*``,
+    ``props_*``) are those of the first case; ``cases`` holds every case; ``assessments`` and ``rules`` every
+    case's (each requirement names its case)."""
 
     plan: Plan
     model: Model
@@ -149,6 +166,13 @@ class PlacementResult:
     stats: SolverStats
     notes: tuple[str, ...] = ()
     first_round: tuple[float, ...] = ()  # continuous optimum (nominal kg per candidate) before any row was tightened
+    cases: tuple[CaseOutcome, ...] = ()
+    costs: tuple[RuleCost, ...] = ()
+    sensitivities: tuple[SlotSensitivity, ...] = ()
+    tradeoff: tuple[TradeoffPoint, ...] = ()
+    margins: Mapping[str, float] | None = None  # the per-rule margins used (SI)
+    least: float = math.nan  # least ballast of the continuous problem before rounding (stage 1), kg nominal
+    rule_totals: tuple[RuleTotal, ...] = ()  # each rule over every case it applies in
 
     @property
     def ballast_mass(self) -> tuple[float, float, float]:
@@ -160,288 +184,55 @@ class PlacementResult:
         return float(out[0]), float(out[1]), float(out[2])
 
 
-@dataclass(frozen=True, eq=False)
-class _Line:
-    """Continuous model of one candidate: mass bounds, CG line, density factors, own-inertia dimensions."""
-
-    cand: Candidate
-    cap: float
-    floor: float
-    p: FloatArray
-    q: FloatArray
-    k_lo: float
-    k_hi: float
-    rot: FloatArray
-    cross: FloatArray
-    area: float
-    rho: float
-    full: BlockSizing
-
-
-def _line(c: Candidate) -> _Line:
-    full = size_block(c.envelope, c.spec, None)
-    rho = c.spec.material.density
-    lo, hi = c.spec.material.band
-    mp_full = full.props()
-    k = c.spec.fill.axis
-    n_full = round(full.fill_length / c.spec.increment)
-    p, q = mp_full.center.copy(), np.zeros(3)
-    if c.spec.fill.sign != 0 and n_full >= 2 and not c.spec.stock:
-        try:
-            half = stack_for_units(c.envelope, c.spec, cross_sizes(c.envelope, c.spec), n_full // 2)
-            mp_half = MassProperties(*_combine_pieces(half, rho))
-            q = (mp_full.center - mp_half.center) / (mp_full.mass - mp_half.mass)
-            p = mp_full.center - q * mp_full.mass
-        except SizingError:
-            pass
-    elif c.spec.fill.sign != 0:
-        # a stack of stock plates: the CG line from the wall to the full stack's CG
-        wall = c.envelope.pose.apply(np.eye(3)[k] * (-c.spec.fill.sign) * (0.5 * c.envelope.size[k]
-                                                                        - c.envelope.clearance))
-        q = (mp_full.center - wall) / mp_full.mass
-        p = wall
-    cap = mp_full.mass
-    if c.capacity is not None:  # keep one increment of room for rounding up (at the high end of the band)
-        one = hi * full.volume / max(full.fill_length / c.spec.increment, 1.0)
-        cap = min(cap, max((c.capacity - one) / (hi / rho), 0.0))
-    thin = size_block(c.envelope, c.spec, 1e-12)  # the thinnest block the spec allows
-    floor = thin.masses()[0]
-    vol_full = full.volume
-    area = vol_full / full.fill_length
-    return _Line(c, cap, floor, p, q, lo / rho, hi / rho, c.envelope.pose.linear, np.array(full.pieces[0].geometry.size),
-                 area, rho, full)
-
-
-def _combine_pieces(pieces: Sequence[Any], rho: float) -> tuple[float, FloatArray, FloatArray]:
-    mps = [p.props(rho) for p in pieces]
-    from massmodel.core.massprops import combine
-
-    mp = combine(mps)
-    return mp.mass, mp.center, mp.inertia
-
-
-def _requirements(model: Model, baseline: Model, plan: Plan, tighten: dict[str, float]) -> list[Requirement]:
-    t = plan.targets
-    reqs: list[Requirement] = []
-    cands = plan.candidates
-    for rule in model.rules:
-        key = f"rule:{rule.name}"
-        if rule.check is RuleCheck.MIN_MASS:
-            members = tuple(not any(in_group(c.path, g) for g in rule.exclude) for c in cands)
-            base = float(sum(c.props.mass for c in baseline.select(exclude=rule.exclude)))
-            lim = float(rule.limit or 0.0)
-            reqs.append(Requirement(key, rule.name, "min_mass", lim + t.mass_margin + tighten.get(key, 0.0), lim, "kg",
-                                    "rule", members, base))
-        elif rule.check is RuleCheck.MIN_GROUP_MASS:
-            members = tuple(any(in_group(c.path, g) for g in rule.groups) for c in cands)
-            base = float(sum(c.props.mass for c in baseline.select(include=rule.groups)))
-            lim = float(rule.limit or 0.0)
-            reqs.append(Requirement(key, rule.name, "min_group_mass", lim + t.mass_margin + tighten.get(key, 0.0), lim,
-                                    "kg", "rule", members, base))
-        elif rule.check is RuleCheck.MIN_AXLE_LOAD:
-            lim = float(rule.limit or 0.0)
-            reqs.append(Requirement(key, rule.name, f"axle_{rule.axle}", lim + t.mass_margin + tighten.get(key, 0.0),
-                                    lim, "kg", "rule"))
-        elif rule.check is RuleCheck.FRONT_FRACTION:
-            if rule.minimum is not None:
-                k2 = key + ":min"
-                reqs.append(Requirement(k2, rule.name + " (min)", "fraction_min",
-                                        rule.minimum + t.fraction_margin + tighten.get(k2, 0.0), rule.minimum,
-                                        "fraction", "rule"))
-            if rule.maximum is not None:
-                k2 = key + ":max"
-                reqs.append(Requirement(k2, rule.name + " (max)", "fraction_max",
-                                        rule.maximum - t.fraction_margin - tighten.get(k2, 0.0), rule.maximum,
-                                        "fraction", "rule"))
-        elif rule.check is RuleCheck.MAX_CG_HEIGHT:
-            lim = float(rule.limit or 0.0)
-            reqs.append(Requirement(key, rule.name, "cg_height_max", lim - t.cg_height_margin - tighten.get(key, 0.0),
-                                    lim, "m", "rule"))
-    if t.fraction_target is not None:
-        tol = float(t.fraction_tolerance or 0.0)
-        for kind, bound in (("fraction_min", t.fraction_target - tol), ("fraction_max", t.fraction_target + tol)):
-            key = f"target:{kind}"
-            sign = 1.0 if kind == "fraction_min" else -1.0
-            side = "min" if kind == "fraction_min" else "max"
-            reqs.append(Requirement(key, f"front fraction target {t.fraction_target:.4f} +/- {tol:.4f} ({side})", kind,
-                                    bound + sign * tighten.get(key, 0.0), bound, "fraction", "target"))
-    if t.lateral_offset_max is not None:
-        y = t.lateral_offset_max
-        reqs.append(Requirement("target:lateral_max", f"CG at most {y * 1e3:.1f} mm left of the centre plane",
-                                "lateral_max", y - tighten.get("target:lateral_max", 0.0), y, "m", "target"))
-        reqs.append(Requirement("target:lateral_min", f"CG at most {y * 1e3:.1f} mm right of the centre plane",
-                                "lateral_min", -y + tighten.get("target:lateral_min", 0.0), -y, "m", "target"))
-    if t.max_ballast is not None:
-        reqs.append(Requirement("target:max_ballast", "most ballast allowed", "max_ballast", t.max_ballast,
-                                t.max_ballast, "kg", "target"))
-    return reqs
-
-
-@dataclass(eq=False)
-class _Problem:
-    model: Model
-    baseline: Model
-    plan: Plan
-    lines: list[_Line]
-    m0: float
-    q0: FloatArray  # first moment of the baseline, kg·m, model frame
-    j0: FloatArray  # baseline inertia about the model origin, kg·m²
-    fwd: FloatArray
-    left: FloatArray
-    up: FloatArray
-    x_rear: float
-    wheelbase: float
-    ground: float
-
     @property
-    def n(self) -> int:
-        return len(self.lines)
+    def passed(self) -> bool:
+        """Feasible, and every requirement and rule passes in every case."""
+        return self.feasible and all(c.passed for c in self.cases)
 
-    def lever(self) -> tuple[FloatArray, FloatArray]:
-        """Front-axle share of each candidate's mass: φᵢ(m) = φa + φb m."""
-        pa = np.array([(self.fwd @ ln.p - self.x_rear) / self.wheelbase for ln in self.lines])
-        pb = np.array([(self.fwd @ ln.q) / self.wheelbase for ln in self.lines])
-        return pa, pb
-
-    def row(self, req: Requirement, kappa: FloatArray) -> tuple[float, FloatArray, FloatArray]:
-        """(g0, a, b) of a requirement at density factors ``kappa`` (see the module notes)."""
-        n = self.n
-        zero = np.zeros(n)
-        f0 = float(self.fwd @ self.q0 - self.x_rear * self.m0) / self.wheelbase
-        pa, pb = self.lever()
-        up_p = np.array([self.up @ ln.p for ln in self.lines])
-        up_q = np.array([self.up @ ln.q for ln in self.lines])
-        le_p = np.array([self.left @ ln.p for ln in self.lines])
-        le_q = np.array([self.left @ ln.q for ln in self.lines])
-        k = req.kind
-        if k in ("min_mass", "min_group_mass"):
-            return req.base - req.bound, kappa * np.array(req.members, dtype=float), zero
-        if k == "axle_front":
-            return f0 - req.bound, kappa * pa, kappa * pb
-        if k == "axle_rear":
-            return self.m0 - f0 - req.bound, kappa * (1.0 - pa), -kappa * pb
-        if k == "fraction_min":
-            return f0 - req.bound * self.m0, kappa * (pa - req.bound), kappa * pb
-        if k == "fraction_max":
-            return req.bound * self.m0 - f0, kappa * (req.bound - pa), -kappa * pb
-        if k == "cg_height_max":
-            zc = self.ground + req.bound
-            return zc * self.m0 - float(self.up @ self.q0), kappa * (zc - up_p), -kappa * up_q
-        if k == "lateral_max":
-            return req.bound * self.m0 - float(self.left @ self.q0), kappa * (req.bound - le_p), -kappa * le_q
-        if k == "lateral_min":
-            return float(self.left @ self.q0) - req.bound * self.m0, kappa * (le_p - req.bound), kappa * le_q
-        if k == "max_ballast":
-            return req.bound, -np.ones(n), zero
-        raise ValueError(f"unknown requirement kind {k!r}")
-
-    def scenarios(self, req: Requirement) -> list[tuple[str, FloatArray]]:
-        lo = np.array([ln.k_lo for ln in self.lines])
-        hi = np.array([ln.k_hi for ln in self.lines])
-        one = np.ones(self.n)
-        if req.kind in ("min_mass", "min_group_mass"):
-            return [("low density", lo)]
-        if req.kind == "max_ballast":
-            return [("nominal", one)]
-        pa, _ = self.lever()
-        if req.kind == "axle_front":
-            return [("worst density", np.where(pa >= 0.0, lo, hi))]
-        if req.kind == "axle_rear":
-            return [("worst density", np.where(1.0 - pa >= 0.0, lo, hi))]
-        return [("nominal", one), ("low density", lo), ("high density", hi)]
-
-    def __post_init__(self) -> None:
-        self._p = np.array([ln.p for ln in self.lines]).reshape(-1, 3)
-        self._q = np.array([ln.q for ln in self.lines]).reshape(-1, 3)
-        self._up_p = self._p @ self.up
-        self._up_q = self._q @ self.up
-
-    def aggregate(self, m: FloatArray, kappa: FloatArray | None = None) -> tuple[float, FloatArray, FloatArray]:
-        """(total mass kg, first moment kg·m, inertia about the origin kg·m²) with the candidate blocks modelled."""
-        kap = np.ones(self.n) if kappa is None else kappa
-        mu = kap * m
-        centres = self._p + self._q * m[:, None]
-        mass = self.m0 + float(np.sum(mu))
-        first = self.q0 + mu @ centres
-        inertia = self.j0 + parallel_axis_shift(mu, centres).sum(axis=0)
-        for i, ln in enumerate(self.lines):
-            if m[i] <= 0.0:
-                continue
-            dims = ln.cross.copy()
-            dims[ln.cand.spec.fill.axis] = m[i] / (ln.rho * ln.area)
-            d2 = dims * dims
-            own = mu[i] / 12.0 * np.diag([d2[1] + d2[2], d2[0] + d2[2], d2[0] + d2[1]])
-            inertia = inertia + ln.rot @ own @ ln.rot.T
-        return mass, first, inertia
-
-    def cg_height(self, m: FloatArray) -> float:
-        """CG height above the ground, m (nominal densities)."""
-        mass = self.m0 + float(np.sum(m))
-        up_first = float(self.up @ self.q0) + float(m @ (self._up_p + self._up_q * m))
-        return up_first / mass - self.ground
-
-    def cg_height_gradient(self, m: FloatArray) -> FloatArray:
-        """d(CG height)/dmᵢ, m/kg."""
-        mass = self.m0 + float(np.sum(m))
-        z = (float(self.up @ self.q0) + float(m @ (self._up_p + self._up_q * m))) / mass
-        return (self._up_p + 2.0 * self._up_q * m - z) / mass
-
-    def yaw(self, m: FloatArray) -> float:
-        """Yaw inertia about the vehicle's vertical axis through the CG, kg·m² (nominal densities)."""
-        mass, first, inertia = self.aggregate(m)
-        c = first / mass
-        about_cg = inertia - parallel_axis_shift(mass, c)
-        return float(self.up @ about_cg @ self.up)
+    def case(self, name: str) -> CaseOutcome:
+        for c in self.cases:
+            if c.name == name:
+                return c
+        raise KeyError(f"no case {name!r} in this placement; cases: {', '.join(c.name for c in self.cases)}")
 
 
-def _problem(model: Model, plan: Plan) -> tuple[_Problem, Model]:
-    if model.vehicle is None:
-        raise ValueError(f"{model.source or model.name}: ballast placement needs a [vehicle] section")
-    removed = [p for c in plan.candidates for p in c.replace]
-    baseline = model.with_components([c for c in model.components if c.path not in removed])
-    lines = [_line(c) for c in plan.candidates]
-    mp = baseline.mass_properties()
-    v = model.vehicle
-    j0 = np.asarray(mp.inertia + parallel_axis_shift(mp.mass, mp.center))
-    return _Problem(model, baseline, plan, lines, mp.mass, mp.mass * mp.center, j0, v.forward, v.left, v.up,
-                    v.rear_axle_station, v.wheelbase, v.ground_level), baseline
-
-
-# --- solvers ---------------------------------------------------------------------------------------------------
-
-def _rows(prob: _Problem, reqs: Sequence[Requirement], cuts: Sequence[tuple[Requirement, FloatArray]]) -> Rows:
-    g0, a, b, rr, labels = [], [], [], [], []
-    for req in reqs:
-        for label, kappa in prob.scenarios(req):
-            r0, ra, rb = prob.row(req, kappa)
-            g0.append(r0)
-            a.append(ra)
-            b.append(rb)
-            rr.append(req)
-            labels.append(label)
-    for req, kappa in cuts:
-        r0, ra, rb = prob.row(req, kappa)
-        g0.append(r0)
-        a.append(ra)
-        b.append(rb)
-        rr.append(req)
-        labels.append("worst density mix")
-    n = prob.n
-    return Rows(np.array(g0), np.array(a).reshape(-1, n), np.array(b).reshape(-1, n), rr, labels)
-
-
-def _solve(prob: _Problem, rows: Rows, stats: SolverStats) -> tuple[FloatArray | None, float]:
-    """Stage 1 (least ballast) and stage 2 (the objective). Returns (masses or None when infeasible, least)."""
-    n = prob.n
+def _bounds(prob: Problem) -> tuple[FloatArray, FloatArray]:
+    """Upper bounds and thinnest-block floors of the candidates (0 for a slot that cannot be used), kg."""
     unusable = np.array([ln.floor > ln.cap for ln in prob.lines])
     ub = np.where(unusable, 0.0, np.array([ln.cap for ln in prob.lines]))
     floor = np.where(unusable, 0.0, np.array([ln.floor for ln in prob.lines]))
+    return ub, floor
+
+
+def _solve(prob: Problem, rows: Rows, stats: SolverStats) -> tuple[FloatArray | None, float, FloatArray | None]:
+    """Stage 1 (least ballast) and stage 2 (the objective). Returns (masses or None when infeasible, least,
+    the stage-1 masses)."""
+    n = prob.n
+    ub, floor = _bounds(prob)
     m1 = sequential_lp(np.ones(n), rows, ub, floor, None, stats)
     if m1 is None:
-        return None, math.nan
+        return None, math.nan, None
     least = float(np.sum(m1))
-    total = (least, least + prob.plan.targets.ballast_allowance)
-    up_q = np.array([prob.up @ ln.q for ln in prob.lines])
+    t = prob.plan.targets
+    total = (least, least + t.ballast_allowance)
+    if t.objective is Objective.FRONT_FRACTION:
+        target = float(t.fraction_target if t.fraction_target is not None else 0.0)
+        m_lin = sequential_lp(prob.cg_height_gradient(m1), rows, ub, floor, total, stats, start=m1)
+        starts = [m1] + ([m_lin] if m_lin is not None else [])
+        found = minimise_on_off(lambda m: 1e6 * prob.fraction_error(m, target), rows, ub, floor, total, starts,
+                                stats)
+        best = min([s for s in [found, *starts] if s is not None], key=lambda m: prob.fraction_error(m, target))
+        return best, least, m1
+    best = stage_two(prob, rows, ub, floor, total, stats, m1, t.objective, t.weight_height, t.weight_yaw)
+    return best, least, m1
+
+
+def stage_two(prob: Problem, rows: Rows, ub: FloatArray, floor: FloatArray, total: tuple[float, float],
+              stats: SolverStats, m1: FloatArray, objective: Objective, weight_height: float = 0.5,
+              weight_yaw: float = 0.5) -> FloatArray:
+    """The objective (CG height, yaw inertia or their weighted mix; means over the cases) with the total ballast
+    held in ``total`` (kg), from the least-ballast solution ``m1``."""
+    n = prob.n
     m_lin = sequential_lp(prob.cg_height_gradient(m1), rows, ub, floor, total, stats, start=m1)
     if m_lin is None:
         m_lin = m1
@@ -450,14 +241,13 @@ def _solve(prob: _Problem, rows: Rows, stats: SolverStats) -> tuple[FloatArray |
         return 1e3 * prob.cg_height(m)
 
     m_height = m_lin
-    if np.any(up_q) or total[1] > total[0]:
+    if prob.moving_height or len(prob.cases) > 1 or total[1] > total[0]:
         found = minimise_on_off(height_mm, rows, ub, floor, total, [m_lin, m1], stats,
-                          jac=lambda m: 1e3 * prob.cg_height_gradient(m))
+                                jac=lambda m: 1e3 * prob.cg_height_gradient(m))
         if found is not None and height_mm(found) < height_mm(m_lin) - 1e-9:
             m_height = found
-    objective = prob.plan.targets.objective
     if objective is Objective.CG_HEIGHT:
-        return m_height, least
+        return m_height
     rng = np.random.default_rng(20261201)
     starts = [m_height, m_lin, m1]
     for _ in range(3):
@@ -469,19 +259,24 @@ def _solve(prob: _Problem, rows: Rows, stats: SolverStats) -> tuple[FloatArray |
     if m_yaw is None:
         m_yaw = min(starts, key=prob.yaw)
     if objective is Objective.YAW_INERTIA:
-        return m_yaw, least
-    t = prob.plan.targets
+        return m_yaw
+    return mix_optimum(prob, rows, ub, floor, total, stats, m_height, m_yaw, weight_height, weight_yaw)
+
+
+def mix_optimum(prob: Problem, rows: Rows, ub: FloatArray, floor: FloatArray, total: tuple[float, float],
+                stats: SolverStats, m_height: FloatArray, m_yaw: FloatArray, weight_height: float,
+                weight_yaw: float) -> FloatArray:
+    """The weighted mix of CG height and yaw inertia, each normalised between the two single optima."""
     h_min, y_min = prob.cg_height(m_height), prob.yaw(m_yaw)
     h_span = max(prob.cg_height(m_yaw) - h_min, 1e-12)
     y_span = max(prob.yaw(m_height) - y_min, 1e-12)
 
     def mix(m: FloatArray) -> float:
-        return (t.weight_height * (prob.cg_height(m) - h_min) / h_span
-                + t.weight_yaw * (prob.yaw(m) - y_min) / y_span)
+        return (weight_height * (prob.cg_height(m) - h_min) / h_span
+                + weight_yaw * (prob.yaw(m) - y_min) / y_span)
 
     found = minimise_on_off(mix, rows, ub, floor, total, [m_height, m_yaw, 0.5 * (m_height + m_yaw)], stats)
-    best = min([m_height, m_yaw] + ([found] if found is not None else []), key=mix)
-    return best, least
+    return min([m_height, m_yaw] + ([found] if found is not None else []), key=mix)
 
 
 # --- exact assessment of sized blocks --------------------------------------------------------------------------
@@ -495,8 +290,10 @@ class _Block:
     center: FloatArray
 
 
-def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block],
-            binding: set[str]) -> list[Assessment]:
+def _assess(prob: CaseSetup, reqs: Sequence[Requirement], blocks: Sequence[_Block], binding: set[str],
+            cuts: dict[str, list[FloatArray]] | None = None) -> list[Assessment]:
+    """Each requirement on the sized blocks, at nominal density and at the worst mix of the density bands; the
+    worst mixes of the ratio rows are added to ``cuts`` (requirement key → density factors per candidate)."""
     m0, q0 = prob.m0, prob.q0
     w = np.array([b.mass for b in blocks])
     c = np.array([b.center for b in blocks]).reshape(-1, 3)
@@ -506,6 +303,15 @@ def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block
     phi = (c @ prob.fwd - prob.x_rear) / prob.wheelbase if len(blocks) else np.zeros(0)
     f0 = float(prob.fwd @ q0 - prob.x_rear * m0) / prob.wheelbase
     out = []
+
+    def worst_of(num0: float, v: FloatArray, maximize: bool, key: str) -> float:
+        value, kappa = extreme_ratio(num0, m0, w, v, lo, hi, maximize=maximize)
+        if cuts is not None and len(blocks):
+            full = np.ones(prob.n)
+            full[idx] = kappa
+            cuts.setdefault(key, []).append(full)
+        return value
+
     for req in reqs:
         k = req.kind
         if k in ("min_mass", "min_group_mass"):
@@ -519,15 +325,15 @@ def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block
             worst = base + float(np.sum(np.where(share >= 0.0, lo, hi) * w * share))
         elif k in ("fraction_min", "fraction_max"):
             nominal = (f0 + float(np.sum(w * phi))) / (m0 + float(np.sum(w)))
-            worst = extreme_ratio(f0, m0, w, phi, lo, hi, maximize=(k == "fraction_max"))[0]
+            worst = worst_of(f0, phi, k == "fraction_max", req.key)
         elif k == "cg_height_max":
             z = c @ prob.up if len(blocks) else np.zeros(0)
             nominal = (float(prob.up @ q0) + float(np.sum(w * z))) / (m0 + float(np.sum(w))) - prob.ground
-            worst = extreme_ratio(float(prob.up @ q0), m0, w, z, lo, hi, maximize=True)[0] - prob.ground
+            worst = worst_of(float(prob.up @ q0), z, True, req.key) - prob.ground
         elif k in ("lateral_max", "lateral_min"):
             y = c @ prob.left if len(blocks) else np.zeros(0)
             nominal = (float(prob.left @ q0) + float(np.sum(w * y))) / (m0 + float(np.sum(w)))
-            worst = extreme_ratio(float(prob.left @ q0), m0, w, y, lo, hi, maximize=(k == "lateral_max"))[0]
+            worst = worst_of(float(prob.left @ q0), y, k == "lateral_max", req.key)
         else:  # max_ballast
             nominal = worst = float(np.sum(w))
         sign = -1.0 if req.is_max else 1.0
@@ -538,7 +344,12 @@ def _assess(prob: _Problem, reqs: Sequence[Requirement], blocks: Sequence[_Block
 
 # --- infeasibility ---------------------------------------------------------------------------------------------
 
-def _diagnose(prob: _Problem, reqs: Sequence[Requirement], rows: Rows, stats: SolverStats) -> list[Shortfall]:
+def _named(req: Requirement) -> str:
+    """A requirement's label with its load case: "front share (min) in case 'race'"."""
+    return f"{req.label} in case '{req.case}'"
+
+
+def _diagnose(prob: Problem, reqs: Sequence[Requirement], rows: Rows, stats: SolverStats) -> list[Shortfall]:
     """Elastic LP: one slack (kg) per row, least total slack; rows with slack are the ones that cannot be met."""
     from scipy.optimize import linprog
 
@@ -554,19 +365,21 @@ def _diagnose(prob: _Problem, reqs: Sequence[Requirement], rows: Rows, stats: So
         return []
     m, s = res.x[:n], res.x[n:]
     g = g0 + a @ m
-    mass = prob.m0 + float(np.sum(m))
+    added = float(np.sum(m))
     worst: dict[str, float] = {}
     for j, req in enumerate(rows.reqs):
         if s[j] > TOL_KG:
             worst[req.key] = max(worst.get(req.key, 0.0), float(s[j]))
-    tight = {req.key for j, req in enumerate(rows.reqs) if s[j] <= TOL_KG and g[j] <= 1e-6 * max(1.0, mass)}
+    tight = {req.key for j, req in enumerate(rows.reqs)
+             if s[j] <= TOL_KG and g[j] <= 1e-6 * max(1.0, prob.cases[req.case].m0 + added)}
     out = []
     by_key = {q.key: q for q in reqs}
+
     for key, slack in sorted(worst.items(), key=lambda kv: -kv[1]):
         req = by_key[key]
-        amount = slack if req.unit == "kg" else slack / mass
-        best = _best_alone(prob, req, ub)
-        conflicts = tuple(by_key[k].label for k in sorted(tight) if k != key and k in by_key)
+        amount = slack if req.unit == "kg" else slack / (prob.cases[req.case].m0 + added)
+        best = _best_alone(prob.cases[req.case], req, ub)
+        conflicts = tuple(_named(by_key[k]) for k in sorted(tight) if k != key and k in by_key)
         if best is not None and ((best < req.bound) if not req.is_max else (best > req.bound)):
             why = (f"even with the candidate slots used for this alone it reaches only {best:.4f} {req.unit} "
                    f"against {req.bound:.4f} {req.unit}" if not req.is_max else
@@ -577,11 +390,11 @@ def _diagnose(prob: _Problem, reqs: Sequence[Requirement], rows: Rows, stats: So
         else:
             why = "it can be met on its own, but not together with " + (", ".join(conflicts) or "the other rows")
         out.append(Shortfall(req, float(amount), best, conflicts,
-                             f"{req.label}: short by {amount:.4g} {req.unit}; {why}"))
+                             f"{_named(req)}: short by {amount:.4g} {req.unit}; {why}"))
     return out
 
 
-def _best_alone(prob: _Problem, req: Requirement, ub: FloatArray) -> float | None:
+def _best_alone(prob: CaseSetup, req: Requirement, ub: FloatArray) -> float | None:
     """The best value of one requirement over the slot capacities alone (nominal density; mass rows at low)."""
     pa, _ = prob.lever()
     f0 = float(prob.fwd @ prob.q0 - prob.x_rear * prob.m0) / prob.wheelbase
@@ -610,7 +423,7 @@ def _best_alone(prob: _Problem, req: Requirement, ub: FloatArray) -> float | Non
 
 # --- the whole job ---------------------------------------------------------------------------------------------
 
-def _size_all(prob: _Problem, m: FloatArray) -> tuple[list[Allocation], list[_Block], list[Component]]:
+def _size_all(prob: Problem, m: FloatArray) -> tuple[list[Allocation], list[_Block], list[Component]]:
     allocations, blocks, comps = [], [], []
     for i, ln in enumerate(prob.lines):
         cand = ln.cand
@@ -635,65 +448,121 @@ def _size_all(prob: _Problem, m: FloatArray) -> tuple[list[Allocation], list[_Bl
     return allocations, blocks, comps
 
 
-def place_ballast(model: Model, plan: Plan) -> PlacementResult:
-    """Place ballast across the plan's candidate slots (see the module notes for the method).
+def _as_cases(models: Model | Mapping[str, Model]) -> dict[str, Model]:
+    if isinstance(models, Model):
+        return {models.case: models}
+    cases = dict(models)
+    if not cases:
+        raise ValueError("ballast placement needs at least one load case")
+    return cases
+
+
+def _all_requirements(prob: Problem, plan: Plan, margins: Mapping[str, float],
+                      tighten: Mapping[str, float]) -> list[Requirement]:
+    out: list[Requirement] = []
+    for k, (name, setup) in enumerate(prob.cases.items()):
+        out += case_requirements(name, setup.model, setup.baseline, plan, margins, tighten, with_max_ballast=(k == 0))
+    return out
+
+
+def place_ballast(models: Model | Mapping[str, Model], plan: Plan, *, margins: Mapping[str, float] | None = None,
+                  tradeoff_points: int = 0, other_rules: Sequence[str] = ()) -> PlacementResult:
+    """Place ballast across the plan's candidate slots, meeting the rules of every load case at once (see the
+    module notes for the method).
 
     Parameters
     ----------
-    model : Model
-        The car, with its rules and [vehicle].
+    models : Model or mapping of str to Model
+        The car in one load case, or case name → the car in that case
+        (:func:`massmodel.modelfile.loader.load_case_models`); each model holds the rules that apply in its case.
+        The first case is the one the single-case fields of the result describe.
     plan : Plan
         Candidates and targets (:func:`massmodel.ballast.plan.load_plan`).
+    margins : mapping of str to float, optional
+        Per-rule margins in SI (kg for mass and axle rules, a fraction for front-share rules, m for CG height),
+        on top of the plan's general margins; they replace the plan's ``[margins]`` entry of the same rule.
+    tradeoff_points : int
+        Number of points of the CG height / yaw inertia trade-off curve at the least ballast (0: none).
+    other_rules : sequence of str
+        Names of rules of load cases left out (``--case``): their margins are passed over rather than refused.
 
     Returns
     -------
     PlacementResult
-        Feasible: the sized blocks, the ballasted model (in memory), every requirement checked at nominal density
-        and at the worst mix of the density bands, the rule checks. Infeasible: the shortfalls, naming the rows
-        that cannot be met and by how much.
+        Feasible: the sized blocks, every case's ballasted model (in memory), every requirement checked at nominal
+        density and at the worst mix of the density bands, the rule checks, what each rule costs and the slots'
+        sensitivities. Infeasible: the shortfalls, naming the case and the rows that cannot be met, and by how much.
+
+    Raises
+    ------
+    PlanError, ValueError
+        A margin naming no rule of the cases, of the wrong dimension, or negative.
     """
     t_start = time.perf_counter()
     stats = SolverStats()
-    prob, baseline = _problem(model, plan)
-    props_before = model.mass_properties()
-    bal_before = static_balance(props_before, model.vehicle) if model.vehicle else None
+    cases = _as_cases(models)
+    used_margins = resolve_margins(plan, cases, margins, other_rules)
+    prob = build_problem(cases, plan)
+    first_case = prob.first
+    befores = {name: s.model.mass_properties() for name, s in prob.cases.items()}
+    bal_before = {name: static_balance(befores[name], s.model.vehicle) if s.model.vehicle else None
+                  for name, s in prob.cases.items()}
     tighten: dict[str, float] = {}
-    notes: list[str] = []
+    notes: list[str] = list(prob.notes)
     first: tuple[float, ...] = ()
+    least_first = math.nan
     for ln in prob.lines:
-        if ln.floor > ln.cap:
+        if ln.floor > ln.cap and ln.cap > 0.0:
             notes.append(f"slot {ln.cand.name}: its capacity ({ln.cap:.3f} kg) is less than its thinnest block "
                          f"({ln.floor:.3f} kg), so it is not used")
+    costs: list[RuleCost] = []
+    totals: list[RuleTotal] = []
+    true_reqs = _all_requirements(prob, plan, used_margins, {})  # what the result is checked against
+    cuts: dict[str, list[FloatArray]] = {}  # worst density mixes met so far, added as rows
     for round_no in range(1, MAX_ROUNDS + 1):
         stats.rounds = round_no
-        reqs = _requirements(model, baseline, plan, tighten)
-        rows = _rows(prob, reqs, [])
-        m, _least = _solve(prob, rows, stats)
-        if m is None:
+        reqs = _all_requirements(prob, plan, used_margins, tighten)
+        rows = prob.rows(reqs, cuts)
+        m, _least, m1 = _solve(prob, rows, stats)
+        if m is None or m1 is None:
             shortfalls = _diagnose(prob, reqs, rows, stats)
             stats.seconds = time.perf_counter() - t_start
             if round_no > 1:
                 notes.append("the rows were tightened to absorb rounding to the increment and the density bands; "
                              "with the tightened rows there is no solution: try a finer increment")
-            return PlacementResult(plan, model, baseline, False, (), None, (), (), bal_before, None, props_before,
-                                   None, tuple(shortfalls), stats, tuple(notes))
+            empty = tuple(CaseOutcome(name, s.model, s.baseline, None, befores[name], None, bal_before[name], None,
+                                      (), ()) for name, s in prob.cases.items())
+            return PlacementResult(plan, first_case.model, first_case.baseline, False, (), None, (), (),
+                                   bal_before[first_case.name], None, befores[first_case.name], None,
+                                   tuple(shortfalls), stats, tuple(notes), cases=empty, margins=used_margins)
         if round_no == 1:
             first = tuple(float(v) for v in m)
+            least_first = float(np.sum(m1))
+            costs = rule_costs(prob, reqs, rows, m1, _bounds(prob), stats)
+            totals = rule_totals(costs, rows, _bounds(prob), stats)
         g = rows.values(m)
         slack = plan.targets.ballast_allowance
         binding = {req.key for req, gj in zip(rows.reqs, g, strict=True)
-                   if gj <= 1e-6 * max(1.0, prob.m0) + (slack if req.unit == "kg" else 0.0)}
+                   if gj <= 1e-6 * max(1.0, prob.cases[req.case].m0) + (slack if req.unit == "kg" else 0.0)}
         allocations, blocks, comps = _size_all(prob, m)
-        assessments = _assess(prob, reqs, blocks, binding)
+        new_cuts: dict[str, list[FloatArray]] = {}
+        assessments = [a for name, s in prob.cases.items()
+                       for a in _assess(s, [r for r in true_reqs if r.case == name], blocks, binding, new_cuts)]
         missed = [a for a in assessments if not a.passed]
         over = [(al, al.sizing.masses()[2] - al.candidate.capacity) for al in allocations
                 if al.sizing is not None and al.candidate.capacity is not None
                 and al.sizing.masses()[2] > al.candidate.capacity * (1 + 1e-12)]
         if not missed and not over:
             break
-        for a in missed:
-            tighten[a.requirement.key] = tighten.get(a.requirement.key, 0.0) - a.margin_worst + \
+        for a in missed:  # the row is made to bind where it is now, less the true miss (the worst mix becomes a row)
+            key = a.requirement.key
+            j = [i for i, rq in enumerate(rows.reqs) if rq.key == key]
+            slack = float(np.min(g[j])) if j else 0.0
+            if a.requirement.unit != "kg":
+                slack /= prob.cases[a.requirement.case].m0 + float(np.sum(m))
+            tighten[key] = tighten.get(key, 0.0) + max(slack, 0.0) - a.margin_worst + \
                 (1e-6 if a.requirement.unit == "kg" else 1e-7)
+            cuts.setdefault(a.requirement.key, []).extend(new_cuts.get(a.requirement.key, []))
         for al, excess in over:
             i = plan.candidates.index(al.candidate)
             ln = prob.lines[i]
@@ -703,10 +572,26 @@ def place_ballast(model: Model, plan: Plan) -> PlacementResult:
     if tighten:
         notes.append("rows tightened to absorb rounding and the density bands: " +
                      ", ".join(f"{k.split(':', 1)[1]} by {v:.3g}" for k, v in tighten.items()))
-    ballasted = baseline.with_components(list(baseline.components) + comps, name=f"{model.name} (ballasted)")
-    props_after = ballasted.mass_properties()
-    bal_after = static_balance(props_after, model.vehicle) if model.vehicle else None
-    rules = tuple(check_rules(ballasted))
+    assert m is not None and m1 is not None  # the loop returned when infeasible
+    outcomes: list[CaseOutcome] = []
+    for name, s in prob.cases.items():
+        ballasted = s.baseline.with_components(list(s.baseline.components) + comps, name=f"{s.model.name} (ballasted)")
+        after = ballasted.mass_properties()
+        bal_after = static_balance(after, s.model.vehicle) if s.model.vehicle else None
+        outcomes.append(CaseOutcome(name, s.model, s.baseline, ballasted, befores[name], after, bal_before[name],
+                                    bal_after, tuple(a for a in assessments if a.requirement.case == name),
+                                    tuple(check_rules(ballasted))))
+    sens = slot_sensitivities(prob, allocations, outcomes)
+    curve: list[TradeoffPoint] = []
+    if tradeoff_points > 0:
+        ub, floor = _bounds(prob)
+        least = float(np.sum(m1))
+        curve = tradeoff_curve(prob, rows, ub, floor, (least, least + plan.targets.ballast_allowance), stats, m1,
+                               tradeoff_points, starts=[m])
     stats.seconds = time.perf_counter() - t_start
-    return PlacementResult(plan, model, baseline, True, tuple(allocations), ballasted, tuple(assessments), rules,
-                           bal_before, bal_after, props_before, props_after, (), stats, tuple(notes), first)
+    o0 = outcomes[0]
+    return PlacementResult(plan, o0.model, o0.baseline, True, tuple(allocations), o0.ballasted, tuple(assessments),
+                           tuple(r for o in outcomes for r in o.rules), o0.balance_before, o0.balance_after,
+                           o0.props_before, o0.props_after, (), stats, tuple(notes), first, tuple(outcomes),
+                           tuple(costs), tuple(sens), tuple(curve), used_margins, least_first,
+                           tuple(totals))

@@ -31,10 +31,10 @@ from .sizing import BlockSpec, Envelope, Fill, SizingError, spec_from_parts
 __all__ = ["PlanError", "Objective", "Targets", "Candidate", "Plan", "load_plan", "loads_plan", "PLAN_FORMAT"]
 
 PLAN_FORMAT = 1
-TOP_KEYS = {"plan", "units", "targets", "defaults", "candidate"}
+TOP_KEYS = {"plan", "units", "targets", "defaults", "candidate", "margins"}
 _UNIT_KINDS = {"length": units.LENGTH, "mass": units.MASS}
 TARGET_FIELDS = {"mass_margin", "front_fraction", "fraction_margin", "cg_height_margin", "lateral_offset_max",
-                 "objective", "weights", "ballast_allowance", "max_ballast"}
+                 "objective", "weights", "ballast_allowance", "max_ballast", "scale_resolution", "cases"}
 SPEC_FIELDS = {"material", "fill", "fixed", "increment", "holes", "chamfer", "stock", "max_segment_mass",
                "min_thickness"}
 CANDIDATE_FIELDS = SPEC_FIELDS | {"slot", "box", "capacity", "path", "replace_existing", "note"}
@@ -52,6 +52,7 @@ class Objective(enum.Enum):
     CG_HEIGHT = "cg_height"
     YAW_INERTIA = "yaw_inertia"
     MIX = "mix"
+    FRONT_FRACTION = "front_fraction"  # closest to the target front fraction (needs front_fraction.target)
 
 
 @dataclass(frozen=True, slots=True)
@@ -80,6 +81,10 @@ class Targets:
         lets the optimiser add ballast where it lowers the CG.
     max_ballast : float or None
         Most ballast allowed in total, kg (nominal).
+    scale_resolution : float
+        Resolution of the scales the car is weighed on, kg: kept as a further margin on every mass rule.
+    cases : tuple of str
+        The load cases the targets (front-fraction target, lateral offset) apply in; empty: every case.
     """
 
     mass_margin: float
@@ -93,6 +98,8 @@ class Targets:
     weight_yaw: float = 0.5
     ballast_allowance: float = 0.05
     max_ballast: float | None = None
+    scale_resolution: float = 0.0
+    cases: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True, eq=False)
@@ -135,6 +142,7 @@ class Plan:
     targets: Targets
     source: str = ""
     description: str = ""
+    margins: tuple[tuple[str, float, str], ...] = ()  # [margins]: (rule name, SI value, "mass"/"length"/"number")
 
     def candidate(self, name: str) -> Candidate:
         for c in self.candidates:
@@ -255,7 +263,33 @@ def loads_plan(text: str, model: Model, label: str = "<plan>") -> Plan:
     for c in candidates:
         if paths.count(c.path) > 1:
             raise rd.error(f"candidate '{c.name}'", "path", f"'{c.path}' is used by more than one candidate")
-    return Plan(name.strip(), tuple(candidates), targets, source=label, description=str(head.get("description", "")))
+    if targets.objective is Objective.FRONT_FRACTION and targets.fraction_target is None:
+        raise rd.error("[targets]", "objective", "front_fraction needs front_fraction = { target = ..., tolerance = ... }")
+    return Plan(name.strip(), tuple(candidates), targets, source=label, description=str(head.get("description", "")),
+                margins=_margins(rd, data.get("margins", {})))
+
+
+def _margins(rd: _Reader, table: Any) -> tuple[tuple[str, float, str], ...]:
+    """``[margins]``: rule name = margin with its unit (mass, length, or a plain fraction); checked against the
+    rule's kind when the rules of the cases are known (:func:`massmodel.ballast.requirements.resolve_margins`)."""
+    if not isinstance(table, dict):
+        raise rd.error("[margins]", None, "expected a table of rule name = margin")
+    out = []
+    for name, value in table.items():
+        if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+            raise rd.error("[margins]", name, f"expected a margin such as '0.3 kg', '3 mm' or 0.002, got {value!r}")
+        try:
+            q = expr.evaluate(value, rd.env)
+        except (expr.ExpressionError, units.UnitError) as exc:
+            raise rd.error("[margins]", name, str(exc)) from None
+        dims = {units.MASS: "mass", units.LENGTH: "length", units.DIMENSIONLESS: "number"}
+        if q.dim not in dims:
+            raise rd.error("[margins]", name, f"a margin is a mass, a length or a plain fraction, got {value!r} "
+                           f"({q.dim})")
+        if not (math.isfinite(q.value) and q.value >= 0.0):
+            raise rd.error("[margins]", name, f"must be >= 0 and finite, got {value!r}")
+        out.append((str(name), float(q.value), dims[q.dim]))
+    return tuple(out)
 
 
 def _targets(rd: _Reader, table: Any) -> Targets:
@@ -307,6 +341,13 @@ def _targets(rd: _Reader, table: Any) -> Targets:
         kw["ballast_allowance"] = rd.mass(table["ballast_allowance"], item, "ballast_allowance", allow_zero=True)
     if "max_ballast" in table:
         kw["max_ballast"] = rd.mass(table["max_ballast"], item, "max_ballast")
+    if "cases" in table:
+        cs = table["cases"]
+        if not isinstance(cs, list) or not cs or not all(isinstance(c, str) and c for c in cs):
+            raise rd.error(item, "cases", f"expected a list of load-case names, got {cs!r}")
+        kw["cases"] = tuple(cs)
+    if "scale_resolution" in table:
+        kw["scale_resolution"] = rd.mass(table["scale_resolution"], item, "scale_resolution", allow_zero=True)
     return Targets(**kw)
 
 

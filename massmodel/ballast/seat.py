@@ -1,6 +1,10 @@
 """Seat ballast: bring a named group (e.g. driver plus seat) up to its minimum mass, and see what it costs in CG
 height depending on where in the seat structure the ballast sits.
 
+A ``ballast_height`` rule on the seat group (the ballast's CG at least a given height above the ground, or within a
+band of the seated driver's CG height) narrows the tabulated heights to those it allows and marks any given height
+it does not.
+
 A ``min_group_mass`` rule counts only the parts in its groups, so ballast that makes it up must be part of one of
 them (conventionally the seat). Its mass is sized at the LOW end of the material's density band, so the rule holds
 whatever the bar's density. Raising the ballast by ``dh`` raises the car's CG by ``m dh / (M + m)`` (first moment
@@ -18,7 +22,7 @@ import numpy.typing as npt
 from massmodel.core.frames import Pose
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, Rule, RuleCheck, in_group
-from massmodel.vehicle.balance import static_balance
+from massmodel.vehicle.balance import ballast_height_window, static_balance
 
 from .sizing import BlockSizing, Envelope, SizingError, spec_from_parts
 
@@ -59,6 +63,9 @@ class SeatStudy:
         Lowest and highest point of the seat structure above the ground, m.
     cg_limit : float or None
         A ``max_cg_height`` rule's limit, m.
+    height_rules : tuple of (str, float, float)
+        ``ballast_height`` rules on the seat group: name and the lowest and highest ballast CG height above the
+        ground they allow, m (``inf`` for no upper end).
     """
 
     rule: Rule
@@ -76,6 +83,21 @@ class SeatStudy:
     base_cg_height: float
     seat_range: tuple[float, float]
     cg_limit: float | None
+    height_rules: tuple[tuple[str, float, float], ...] = ()
+
+    @property
+    def allowed(self) -> npt.NDArray[np.bool_]:
+        """Whether each tabulated height meets every ``ballast_height`` rule on the seat group."""
+        ok = np.ones(len(self.heights), dtype=bool)
+        for _, lo, hi in self.height_rules:
+            ok &= (self.heights >= lo - 1e-12) & (self.heights <= hi + 1e-12)
+        return ok
+
+    @property
+    def lowest_allowed(self) -> float | None:
+        """The lowest tabulated height that every ``ballast_height`` rule allows, m (None when none does)."""
+        ok = self.allowed
+        return float(np.min(self.heights[ok])) if np.any(ok) else None
 
     @property
     def ballast_mass(self) -> float:
@@ -171,6 +193,9 @@ def seat_ballast_study(
     group = _group_mass(model, rule)
     need = float(rule.limit or 0.0) + margin - group
     seat_lo, seat_hi = group_extent(model, seat_group)
+    height_rules = tuple((r.name, *ballast_height_window(model, r)) for r in model.rules
+                         if r.check is RuleCheck.BALLAST_HEIGHT
+                         and any(in_group(g, seat_group) or in_group(seat_group, g) for g in r.groups))
     seat_mp = model.mass_properties([seat_group])
     station = float(v.forward @ seat_mp.center) if at is None else float(at[0])
     lateral = float(v.left @ seat_mp.center) if at is None else float(at[1])
@@ -185,7 +210,12 @@ def seat_ballast_study(
             raise ValueError(f"seat ballast: {exc}") from None
     if heights is None:  # the plate's CG from half its thickness above the lowest point to as far below the top
         half = 0.5 * sizing.fill_length if sizing is not None else 0.0
-        heights = np.linspace(seat_lo + half, max(seat_hi - half, seat_lo + half), max(2, int(steps)))
+        lo_h, hi_h = seat_lo + half, max(seat_hi - half, seat_lo + half)
+        lo_r = max([lo_h, *(a for _, a, _ in height_rules)])  # the ballast-height rules narrow the range
+        hi_r = min([hi_h, *(b for _, _, b in height_rules)])
+        if lo_r <= hi_r:
+            lo_h, hi_h = lo_r, max(hi_r, lo_r)
+        heights = np.linspace(lo_h, hi_h, max(2, int(steps)))
     heights = np.asarray(heights, dtype=float)
     if heights.ndim != 1 or heights.size < 1 or not np.all(np.isfinite(heights)) or np.any(heights <= 0.0):
         got = ", ".join(f"{h * 1e3:.1f}" for h in np.ravel(heights))
@@ -201,7 +231,7 @@ def seat_ballast_study(
         ff.append(bal.front_fraction)
     limit = next((float(r.limit or 0.0) for r in model.rules if r.check is RuleCheck.MAX_CG_HEIGHT), None)
     return SeatStudy(rule, group, need, margin, material, sizing, seat_group, station, lateral, heights,
-                     np.array(cg_h), np.array(ff), base.cg_height, (seat_lo, seat_hi), limit)
+                     np.array(cg_h), np.array(ff), base.cg_height, (seat_lo, seat_hi), limit, height_rules)
 
 
 def _size(env: Envelope, material: Material, increment: float, need: float) -> BlockSizing:

@@ -11,7 +11,8 @@ smallest multiple of the increment (or sum of stock plate thicknesses) whose mas
 the target; rounding only ever goes up, so the block never falls short however the bar's density lies in its band.
 Every mass is exact for the block as drawn (see :mod:`massmodel.ballast.block`).
 
-Everything here is SI and free of CAD; :func:`check_fit` loads OpenCascade only when called.
+Everything here is SI and free of CAD (the packaging check of sized pieces is
+:func:`massmodel.ballast.targets.check_fit`).
 """
 
 from __future__ import annotations
@@ -28,7 +29,7 @@ import numpy.typing as npt
 from massmodel.core.frames import Pose
 from massmodel.core.massprops import MassProperties, combine
 from massmodel.core.materials import Material
-from massmodel.core.model import Model, Slot, in_group
+from massmodel.core.model import Slot
 from massmodel.core.shapes import Box
 
 from .block import AXES, BlockError, BlockGeometry, Chamfer, Counterbore, HolePattern
@@ -42,10 +43,6 @@ __all__ = [
     "BlockSizing",
     "size_block",
     "heaviest_block",
-    "rules_target",
-    "RuleNeed",
-    "check_fit",
-    "denser_materials",
     "spec_from_parts",
     "cross_sizes",
     "stack_for_units",
@@ -607,84 +604,6 @@ def _needed_length(env: Envelope, spec: BlockSpec, cross: FloatArray, target: fl
 def heaviest_block(env: Envelope, spec: BlockSpec) -> BlockSizing:
     """The heaviest block (or stack) the envelope holds in the spec's material."""
     return size_block(env, spec, None)
-
-
-def denser_materials(material: Material, library: Mapping[str, Material]) -> list[Material]:
-    """Materials whose LOWEST density exceeds this material's lowest density, densest last."""
-    lo = material.band[0]
-    return sorted((m for m in library.values() if m.band[0] > lo and m.key != material.key),
-                  key=lambda m: m.band[0])
-
-
-@dataclass(frozen=True, slots=True)
-class RuleNeed:
-    """What one mass rule needs from a new ballast part: ``need`` kg (≤ 0 when it already passes with margin)."""
-
-    rule: str
-    check: str
-    value: float
-    limit: float
-    margin: float
-    need: float
-    counts: bool
-
-
-def rules_target(model: Model, margin: float, part_path: str, remove: Sequence[str] = ()) -> tuple[float, list[RuleNeed]]:
-    """Mass a new part at ``part_path`` must add so that every mass minimum passes with ``margin``.
-
-    Parameters
-    ----------
-    model : Model
-        The car.
-    margin : float
-        kg above each minimum (``min_mass`` and ``min_group_mass`` rules the part counts towards), ≥ 0.
-    part_path : str
-        Path the new block will have (decides which rules it counts for, e.g. ``chassis/seat/ballast``).
-    remove : sequence of str
-        Paths of existing parts the block replaces (their mass comes off first).
-
-    Returns
-    -------
-    target : float
-        kg, the largest need over the rules the part counts for (0 when none is short).
-    needs : list of RuleNeed
-    """
-    if not (math.isfinite(margin) and margin >= 0.0):
-        raise SizingError(f"margin must be a mass >= 0, got {margin!r} kg", "margin")
-    keep = [c for c in model.components if not any(in_group(c.path, r) for r in remove)]
-    needs = []
-    for rule in model.rules:
-        if rule.check.value == "min_mass":
-            value = sum(c.props.mass for c in keep if not any(in_group(c.path, g) for g in rule.exclude))
-            counts = not any(in_group(part_path, g) for g in rule.exclude)
-        elif rule.check.value == "min_group_mass":
-            value = sum(c.props.mass for c in keep if any(in_group(c.path, g) for g in rule.groups))
-            counts = any(in_group(part_path, g) for g in rule.groups)
-        else:
-            continue
-        limit = float(rule.limit or 0.0)
-        needs.append(RuleNeed(rule.name, rule.check.value, float(value), limit, margin, limit + margin - value, counts))
-    short = [n.need for n in needs if n.counts and n.need > 0.0]
-    return (max(short) if short else 0.0), needs
-
-
-def check_fit(sizing: BlockSizing, pieces: Sequence[PlacedPiece] | None = None) -> list[Any]:
-    """Packaging check of every piece against the slot (OpenCascade; see :func:`massmodel.cad.packaging.fit_in_slot`).
-
-    Returns
-    -------
-    list of FitResult
-        One per piece, in order.
-    """
-    from massmodel.cad.packaging import fit_in_slot
-    from massmodel.cad.solids import place_solid, slot_solid
-
-    envelope = slot_solid(sizing.envelope.to_slot())
-    out = []
-    for piece in (sizing.pieces if pieces is None else pieces):
-        solid = place_solid(piece.geometry.to_solid(), piece.pose)
-        out.append(fit_in_slot(solid, envelope, sizing.envelope.clearance))
-    return out
 
 
 def spec_from_parts(

@@ -66,6 +66,21 @@ class Rows:
     def linear(self) -> bool:
         return not np.any(self.b)
 
+    def can_fail(self, ub: FloatArray, total: float) -> npt.NDArray[np.bool_]:
+        """Rows that some m with 0 <= m <= ub and Σm <= total could break (a safe screen: for the others a lower
+        bound over that set is positive). With mᵢ ≤ ubᵢ, bᵢmᵢ² ≥ min(0, bᵢ) ubᵢ mᵢ, so g ≥ g0 + Σ ãᵢ mᵢ with
+        ãᵢ = aᵢ + min(0, bᵢ) ubᵢ, whose least over the set is g0 + total·min(0, minᵢ ãᵢ)."""
+        if not len(self.g0):
+            return np.zeros(0, dtype=bool)
+        slope = self.a + np.minimum(self.b, 0.0) * ub
+        lower = self.g0 + max(total, 0.0) * np.minimum(slope.min(axis=1), 0.0)
+        return lower <= TOL_KG
+
+    def subset(self, keep: npt.NDArray[np.bool_]) -> Rows:
+        """The rows where ``keep`` is true."""
+        idx = np.flatnonzero(keep)
+        return Rows(self.g0[idx], self.a[idx], self.b[idx], [self.reqs[j] for j in idx], [self.labels[j] for j in idx])
+
 
 def solve_lp(c: FloatArray, g0: FloatArray, a: FloatArray, ub: FloatArray, floor: FloatArray,
         total: tuple[float, float] | None, stats: SolverStats) -> FloatArray | None:
@@ -144,7 +159,8 @@ def minimise_nonlinear(fun: Any, rows: Rows, lo: FloatArray, hi: FloatArray, tot
     if "SLSQP" not in stats.methods:
         stats.methods.append("SLSQP")
     n = len(lo)
-    cons = [{"type": "ineq", "fun": rows.values, "jac": lambda m: rows.a + 2.0 * rows.b * m},
+    active = rows.subset(rows.can_fail(hi, total[1]))
+    cons = [{"type": "ineq", "fun": active.values, "jac": lambda m: active.a + 2.0 * active.b * m},
             {"type": "ineq", "fun": lambda m: np.array([np.sum(m) - total[0], total[1] - np.sum(m)]),
              "jac": lambda m: np.vstack([np.ones(n), -np.ones(n)])}]
     best, best_f = None, math.inf

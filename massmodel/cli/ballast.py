@@ -84,14 +84,26 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(run=_size_block)
 
     p = sub.add_parser("place-ballast", help="place ballast across candidate slots to meet the rules, lowest CG",
-                       description="Least ballast meeting every rule and target of the plan, then the lowest CG "
-                                   "height (or yaw inertia, or a weighted mix); blocks sized, checked and written.")
+                       description="Least ballast meeting every rule and target of the plan in every load case at "
+                                   "once (the ballast is the same in every case), then the lowest CG height (or yaw "
+                                   "inertia, a weighted mix, or the front fraction closest to its target); blocks "
+                                   "sized, checked and written; what each rule costs.")
     add_model_arguments(p)
+    for action in p._actions:  # --case here takes several cases
+        if action.dest == "case":
+            action.metavar = "NAME[,NAME...]"
+            action.help = ("consider only these load cases, comma-separated (default: the base and every case of "
+                           "the file), e.g. --case race_start,qualifying")
     p.add_argument("plan", type=Path, help="ballast plan (TOML, see docs/ballast.md)")
     ov = p.add_argument_group("overrides of the plan")
-    ov.add_argument("--objective", choices=["cg_height", "yaw_inertia", "mix"])
+    ov.add_argument("--objective", choices=["cg_height", "yaw_inertia", "mix", "front_fraction"],
+                    help="what to minimise once the least ballast is found (means over the cases; front_fraction: "
+                         "closest to the target front fraction)")
     ov.add_argument("--margin", type=quantity("mass"), help="mass margin above every minimum, e.g. 0.5kg")
-    ov.add_argument("--front-fraction", metavar="TARGET[,TOL]", type=_fraction_and_tolerance, help="target front fraction and tolerance")
+    ov.add_argument("--scale-resolution", metavar="MASS", type=quantity("mass"),
+                    help="resolution of the scales, kept as a further margin on every mass rule, e.g. 0.1kg")
+    ov.add_argument("--front-fraction", metavar="TARGET[,TOL]", type=_fraction_and_tolerance,
+                    help="target front fraction and tolerance")
     ov.add_argument("--allowance", type=quantity("mass"), help="ballast beyond the least the objective may use, e.g. 0.2kg")
     ov.add_argument("--material", action="append", default=[], metavar="[SLOT=]KEY",
                     help="material of every candidate, or of one (repeatable)")
@@ -104,7 +116,11 @@ def register(sub: argparse._SubParsersAction) -> None:
     out.add_argument("--step", type=Path, help="write the STEP of all blocks (mm, model frame)")
     out.add_argument("--stl", type=Path, help="write one STL of all blocks (mm, model frame)")
     out.add_argument("--json", type=Path, help="write the result as JSON (SI)")
-    out.add_argument("--picture", type=Path, help="write a PNG of the result")
+    out.add_argument("--picture", type=Path, help="write a PNG of the result (every case's CG and rules)")
+    out.add_argument("--costs-picture", type=Path, metavar="PNG",
+                     help="write a bar chart of what each rule costs in ballast (PNG)")
+    out.add_argument("--trade-off", type=Path, metavar="PNG",
+                     help="compute and plot the CG height / yaw inertia trade-off at the least ballast (PNG)")
     out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check of the blocks")
     p.set_defaults(run=_place)
 
@@ -207,7 +223,8 @@ def _size_block(args: argparse.Namespace) -> int:
 
     from massmodel.ballast.export import blocks_of_sizing, write_step, write_stl
     from massmodel.ballast.plan import load_plan
-    from massmodel.ballast.sizing import Envelope, check_fit, heaviest_block, rules_target, size_block
+    from massmodel.ballast.sizing import Envelope, heaviest_block, size_block
+    from massmodel.ballast.targets import check_fit, rules_target
     from massmodel.core.frames import Pose
     from massmodel.report.ballast import format_sizing, sizing_dict, suggestions
     from massmodel.report.summary import write_json_atomic
@@ -293,32 +310,41 @@ def _size_block(args: argparse.Namespace) -> int:
 
 # --- place-ballast ---------------------------------------------------------------------------------------------
 
-def _place(args: argparse.Namespace) -> int:
-    from massmodel.ballast.export import (
-        Block,
-        ballasted_model_text,
-        check_written_model,
-        write_step,
-        write_stl,
-        write_text_atomic,
-    )
-    from massmodel.ballast.placement import place_ballast
-    from massmodel.ballast.plan import Objective, load_plan, material_override
-    from massmodel.ballast.sizing import SizingError, check_fit
-    from massmodel.report.ballast import format_placement, placement_dict
-    from massmodel.report.summary import write_json_atomic
+def _case_models(args: argparse.Namespace) -> tuple[dict[str, Any], list[str]]:
+    """The models of the cases the placement considers (every case of the file, or those named by ``--case``,
+    comma-separated; each holds the rules that apply in it) and the names of the rules of the cases left out."""
+    from massmodel.modelfile.loader import load_case_models
 
-    model = load_from_args(args)
-    if args.out_model is not None and args.out_model.resolve() == Path(args.model).resolve():
-        raise ValueError(f"--out-model {args.out_model}: that is the input model; the ballasted model is written to "
-                         "a new file that extends it")
+    every = load_case_models(args.model, overrides=dict(args.overrides))
+    if not args.case:
+        return every, []
+    names = [n.strip() for n in args.case.split(",") if n.strip()]
+    if not names or len(set(names)) != len(names):
+        raise ValueError(f"--case {args.case!r}: expected one or more distinct load-case names, comma-separated")
+    for n in names:
+        if n not in every:
+            raise ValueError(f"{args.model}: --case {n!r}: no such load case; the file defines: {', '.join(every)}")
+    chosen = {n: every[n] for n in names}
+    others = [r.name for n, m in every.items() if n not in chosen for r in m.rules]
+    return chosen, others
+
+
+def _adjusted_plan(args: argparse.Namespace, model: Any) -> Any:
+    """The plan with the command line's overrides."""
+    from massmodel.ballast.plan import Objective, load_plan, material_override
+
     plan = load_plan(args.plan, model)
     if args.without:
         plan = plan.without(args.without)
     if args.objective:
+        if args.objective == "front_fraction" and plan.targets.fraction_target is None and not args.front_fraction:
+            raise ValueError("--objective front_fraction needs a target front fraction (--front-fraction or the "
+                             "plan's front_fraction)")
         plan = plan.with_targets(objective=Objective(args.objective))
     if args.margin is not None:
         plan = plan.with_targets(mass_margin=args.margin)
+    if args.scale_resolution is not None:
+        plan = plan.with_targets(scale_resolution=args.scale_resolution)
     if args.allowance is not None:
         plan = plan.with_targets(ballast_allowance=args.allowance)
     if args.front_fraction:
@@ -334,8 +360,25 @@ def _place(args: argparse.Namespace) -> int:
             plan = plan.with_candidate(c.name, spec=replace(c.spec, increment=inc))
     if not plan.candidates:
         raise ValueError("no candidate slot is left in the plan")
+    return plan
+
+
+def _place(args: argparse.Namespace) -> int:
+    from massmodel.ballast.export import Block, write_step, write_stl
+    from massmodel.ballast.placement import place_ballast
+    from massmodel.ballast.sizing import SizingError
+    from massmodel.ballast.targets import check_fit
+    from massmodel.report.ballast import format_placement, placement_dict
+    from massmodel.report.summary import write_json_atomic
+
+    if args.out_model is not None and args.out_model.resolve() == Path(args.model).resolve():
+        raise ValueError(f"--out-model {args.out_model}: that is the input model; the ballasted model is written to "
+                         "a new file that extends it")
+    cases, other_rules = _case_models(args)
+    model = next(iter(cases.values()))
+    plan = _adjusted_plan(args, model)
     try:
-        result = place_ballast(model, plan)
+        result = place_ballast(cases, plan, tradeoff_points=7 if args.trade_off else 0, other_rules=other_rules)
     except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
         field = f" (plan field '{exc.field}')" if exc.field else ""
         raise ValueError(f"{args.plan}: {exc}{field}") from None
@@ -352,7 +395,7 @@ def _place(args: argparse.Namespace) -> int:
         for path, piece in zip(al.paths, al.sizing.pieces, strict=True):
             blocks.append(Block(path, al.candidate.spec.material, al.candidate.name, piece))
     fit_ok = True
-    cases_ok = True  # set by the load-case check once the ballasted model is written
+    written_ok = True
     if not args.no_fit:
         print("\nPACKAGING (OpenCascade: block inside its slot with the slot's clearance)")
         for al in result.allocations:
@@ -363,26 +406,7 @@ def _place(args: argparse.Namespace) -> int:
                 print(f"  {path}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance {f.clearance * 1e3:.3f} mm "
                       f"(required {f.required_clearance * 1e3:.3f} mm)" + (f": {f.reason}" if f.reason else ""))
     if args.out_model:
-        overrides = dict(args.overrides)
-        removed = [p for al in result.allocations for p in al.candidate.replace]
-        new_slots = [al.candidate.envelope for al in result.allocations if al.candidate.from_plan and al.sizing]
-        header = [f"{model.name} with ballast placed by massmodel place-ballast (plan '{plan.name}', "
-                  f"{Path(args.plan).name}).",
-                  f"Objective {plan.targets.objective.value}; mass margin {plan.targets.mass_margin:.3f} kg at the low "
-                  "end of each density band.",
-                  "Generated file: re-run place-ballast rather than editing it by hand."]
-        text = ballasted_model_text(model=model, model_path=args.model, out_path=args.out_model,
-                                    name=f"{model.name} (ballasted)", remove=removed, blocks=blocks,
-                                    new_slots=new_slots, overrides=overrides, header=header)
-        assert result.ballasted is not None
-        diff = check_written_model(args.out_model, result.ballasted, text)  # checked before anything is written
-        if diff > 1e-9:
-            raise RuntimeError(f"the model for {args.out_model} does not reload to the placed ballast "
-                               f"(difference {diff:.3e}); nothing written")
-        write_text_atomic(args.out_model, text)
-        print(f"\nballasted model written to {args.out_model} (extends {args.model}); reloaded: mass properties agree "
-              f"to {diff:.1e} (relative)")
-        cases_ok = _check_load_cases(args.out_model, overrides)
+        written_ok = _write_model(args, model, plan, result, blocks)
     if args.step and blocks:
         write_step(blocks, args.step, name="ballast")
         print(f"STEP of all blocks (mm, model frame) written to {args.step}")
@@ -392,28 +416,59 @@ def _place(args: argparse.Namespace) -> int:
     if args.json:
         write_json_atomic(placement_dict(result), args.json)
         print(f"JSON (SI) written to {args.json}")
-    if args.picture:
-        from massmodel.pictures.ballast_plot import plot_placement
+    if args.picture or args.costs_picture or args.trade_off:
+        from massmodel.pictures.ballast_plot import plot_placement, plot_rule_costs, plot_tradeoff
 
-        plot_placement(result, args.picture)
-        print(f"picture written to {args.picture}")
-    rules_ok = all(r.passed for r in result.rules) and all(a.passed for a in result.assessments)
-    return 0 if (rules_ok and fit_ok and (not args.out_model or cases_ok)) else EXIT_FAIL
+        for path, fn in ((args.picture, plot_placement), (args.costs_picture, plot_rule_costs),
+                         (args.trade_off, plot_tradeoff)):
+            if path:
+                fn(result, path)
+                print(f"picture written to {path}")
+    return 0 if (result.passed and fit_ok and written_ok) else EXIT_FAIL
 
 
-def _check_load_cases(path: Path, overrides: dict[str, str]) -> bool:
-    """The placement works on the model as loaded; the rules may also apply in other load cases (less fuel, ...).
-    Check the ballasted model in every case its rules apply in (nominal densities) and say which fail."""
+def _write_model(args: argparse.Namespace, model: Any, plan: Any, result: Any, blocks: list[Any]) -> bool:
+    """Write the ballasted model (a new file extending the input), after loading its text back in every case the
+    placement considered and comparing it with the placed ballast; then check its rules in every load case of the
+    file. False when a case does not reproduce (nothing written) or a rule fails in some case."""
+    from massmodel.ballast.export import ballasted_model_text, check_written_cases, write_text_atomic
+
+    overrides = dict(args.overrides)
+    removed = [p for al in result.allocations for p in al.candidate.replace]
+    new_slots = [al.candidate.envelope for al in result.allocations if al.candidate.from_plan and al.sizing]
+    names = ", ".join(c.name for c in result.cases)
+    header = [f"{model.name} with ballast placed by massmodel place-ballast (plan '{plan.name}', "
+              f"{Path(args.plan).name}), meeting the rules of the load cases {names} at once.",
+              f"Objective {plan.targets.objective.value}; mass margin {plan.targets.mass_margin:.3f} kg at the low "
+              "end of each density band.",
+              "Generated file: re-run place-ballast rather than editing it by hand."]
+    text = ballasted_model_text(model=model, model_path=args.model, out_path=args.out_model,
+                                name=f"{model.name} (ballasted)", remove=removed, blocks=blocks,
+                                new_slots=new_slots, overrides=overrides, header=header)
+    expected = {c.name: c.ballasted for c in result.cases}
+    diff, where = check_written_cases(args.out_model, expected, text)  # checked before anything is written
+    if diff > 1e-9:
+        print(f"\nNOT WRITTEN: {args.out_model} would not reproduce the placed ballast in case '{where}' "
+              f"(relative difference {diff:.3e}); a --set override that a load case sets too cannot be repeated in "
+              "the file")
+        return False
+    write_text_atomic(args.out_model, text)
+    print(f"\nballasted model written to {args.out_model} (extends {args.model}); loaded back in every case "
+          f"({names}): mass properties agree to {diff:.1e} (relative)")
+    return _check_load_cases(args.out_model)
+
+
+def _check_load_cases(path: Path) -> bool:
+    """The rules of a written ballasted model in every load case of its file (nominal densities); False when any
+    fails."""
     from massmodel.modelfile.loader import load_case_models
     from massmodel.report.rules import rule_limit_text
     from massmodel.vehicle.balance import check_rules_in_cases
 
-    models = load_case_models(path, overrides=overrides)
-    if len(models) < 2:
-        return True
+    models = load_case_models(path)
     results = check_rules_in_cases(models)
     failing = [(case, r) for case, r in results if not r.passed]
-    print(f"rules of the ballasted model in every load case ({', '.join(models)}; nominal densities): "
+    print(f"rules of the written model in every load case ({', '.join(models)}; nominal densities): "
           + ("all pass" if not failing else f"{len(failing)} FAIL"))
     for case, r in failing:
         print(f"  FAIL in '{case}': {r.name}: {r.value:.4g} {r.unit}, limit {rule_limit_text(r)}, "

@@ -297,6 +297,7 @@ class RuleCheck(enum.Enum):
     MIN_AXLE_LOAD = "min_axle_load"
     FRONT_FRACTION = "front_fraction"
     MAX_CG_HEIGHT = "max_cg_height"
+    BALLAST_HEIGHT = "ballast_height"  # ballast in a named place sits high enough (or at the driver's CG height)
 
 
 @dataclass(frozen=True, slots=True)
@@ -307,6 +308,8 @@ class Rule:
     FRONT_FRACTION. ``groups`` lists the groups summed by MIN_GROUP_MASS; ``exclude`` the groups left out of
     MIN_MASS; ``axle`` is "front" or "rear" for MIN_AXLE_LOAD. ``cases`` names the load cases the rule applies in
     (empty: every case whose ``general_rules`` is true, and the base; see :mod:`massmodel.core.loadcases`).
+    BALLAST_HEIGHT: the parts in ``groups`` (the ballast's place) have their CG at least ``limit`` above the ground,
+    or within ``band`` of the CG height of the group ``reference`` (the seated driver).
     """
 
     name: str
@@ -319,6 +322,8 @@ class Rule:
     axle: str | None = None
     origin: str = ""
     cases: tuple[str, ...] = ()
+    reference: str | None = None
+    band: float | None = None
 
 
 @dataclass(frozen=True, slots=True, eq=False)

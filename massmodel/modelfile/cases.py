@@ -124,6 +124,31 @@ def rule_case_names(rd: FieldReader, value: Any, item: str) -> tuple[str, ...]:
     return tuple(names)
 
 
+def ballast_height_fields(rd: Any, table: Mapping[str, Any], item: str) -> dict[str, Any]:
+    """Fields of a ``ballast_height`` [[rule]]: ``groups`` (the ballast's place) and either ``limit`` (least CG
+    height above the ground) or ``reference`` (a group, e.g. the driver) with ``band`` (± length about its CG
+    height)."""
+    groups = table.get("groups")
+    if not isinstance(groups, list) or not groups or not all(isinstance(g, str) and g for g in groups):
+        raise rd.error(item, "groups", "name the group(s) the ballast sits in, e.g. [\"chassis/seat/ballast\"]")
+    out: dict[str, Any] = {"groups": tuple(groups)}
+    if ("limit" in table) == ("reference" in table):
+        raise rd.error(item, "limit", "give either limit (least CG height above the ground) or reference (a group "
+                                      "such as \"driver\") with band")
+    if "limit" in table:
+        out["limit"] = rd.quantity(table["limit"], "length", item, "limit")
+    else:
+        if not isinstance(table["reference"], str) or not table["reference"]:
+            raise rd.error(item, "reference", "expected a group path such as \"driver\"")
+        if "band" not in table:
+            raise rd.error(item, "band", "is missing: how far above or below the reference's CG height, e.g. '50 mm'")
+        out["reference"] = table["reference"]
+        out["band"] = rd.quantity(table["band"], "length", item, "band")
+        if out["band"] < 0.0:
+            raise rd.error(item, "band", "must not be negative")
+    return out
+
+
 def select_case(
     cases: Sequence[LoadCase],
     active: LoadCase | None,

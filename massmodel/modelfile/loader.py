@@ -335,7 +335,7 @@ def _build(
     case_names = {BASE_CASE, *(c.name for c in cases)}
     for rule in rules:
         where = (rule.origin.split(": ")[0], rule.origin.split(": ", 1)[-1])
-        for g in rule.groups + rule.exclude:
+        for g in (rule.groups if rule.check is not RuleCheck.BALLAST_HEIGHT else ()) + rule.exclude:  # a place may be empty
             if not any(c.path == g or c.path.startswith(g + "/") for c in components):
                 raise ModelFileError(*where, "groups" if g in rule.groups else "exclude", f"no part lies in group '{g}'")
         for name in rule.cases:
@@ -465,6 +465,8 @@ def _rule(rd: FieldReader, table: dict[str, Any], index: int, has_vehicle: bool)
                     raise rd.error(item, key, "a fraction lies between 0 and 1")
         if kw.get("minimum", 0.0) > kw.get("maximum", 1.0):
             raise rd.error(item, "max", f"max ({kw['maximum']:g}) is below min ({kw['minimum']:g}): no car can pass")
+    elif check is RuleCheck.BALLAST_HEIGHT:
+        kw.update(modelfile_cases.ballast_height_fields(rd, table, item))
     else:
         if "limit" not in table:
             raise rd.error(item, "limit", "is missing")
@@ -480,7 +482,8 @@ def _rule(rd: FieldReader, table: dict[str, Any], index: int, has_vehicle: bool)
         if table.get("axle") not in ("front", "rear"):
             raise rd.error(item, "axle", f"expected 'front' or 'rear', got {table.get('axle')!r}")
         kw["axle"] = table["axle"]
-    if check in (RuleCheck.MIN_AXLE_LOAD, RuleCheck.FRONT_FRACTION, RuleCheck.MAX_CG_HEIGHT) and not has_vehicle:
+    if check in (RuleCheck.MIN_AXLE_LOAD, RuleCheck.FRONT_FRACTION, RuleCheck.MAX_CG_HEIGHT,
+                 RuleCheck.BALLAST_HEIGHT) and not has_vehicle:
         raise rd.error(item, "check", "this rule needs a [vehicle] section in the model")
     if "case" in table:
         kw["cases"] = modelfile_cases.rule_case_names(rd, table["case"], item)

@@ -19,7 +19,7 @@ import numpy as np
 from massmodel.ballast.export import write_atomic
 from massmodel.ballast.parts import BALLAST_COLOUR
 
-__all__ = ["plot_placement", "plot_seat_study"]
+__all__ = ["plot_placement", "plot_seat_study", "plot_rule_costs", "plot_tradeoff"]
 
 PART_FILL = "#d5d8dc"
 PART_EDGE = "#aab0b6"
@@ -27,6 +27,8 @@ SLOT_EDGE = "#3f6e8c"
 REMOVED = "#b5483a"
 CG_BEFORE = "#4d4d4d"
 CG_AFTER = "#1f7a4d"
+CASE_COLOURS = ("#1f7a4d", "#2f5fa8", "#b5483a", "#8a4fa0", "#c07a12", "#3d8c95")
+CASE_MARKERS = ("o", "s", "D", "^", "v", "P")
 
 
 CAUTION_FOOTER = (
@@ -99,13 +101,17 @@ def _view(ax: Any, result: Any, axes_idx: tuple[int, int], title: str) -> None:
                     xytext=(0, 12 + 10 * (n % 2)), textcoords="offset points", ha="center", fontsize=7,
                     color="#4a3a0c",
                     zorder=7)
-    for mp, colour, label, face in ((result.props_before, CG_BEFORE, "CG before", "white"),
-                                    (result.props_after, CG_AFTER, "CG after", CG_AFTER)):
-        if mp is None:
-            continue
-        c = mp.center * 1e3
-        ax.plot([c[axes_idx[0]]], [c[axes_idx[1]]], marker="o", ms=7, mec=colour, mfc=face, mew=1.5, ls="none",
-                zorder=8, label=label)
+    cases = result.cases or ()
+    for k, case in enumerate(cases):  # every case's CG, before (open) and after (filled)
+        colour = CASE_COLOURS[k % len(CASE_COLOURS)]
+        marker = CASE_MARKERS[k % len(CASE_MARKERS)]
+        for mp, face, label in ((case.props_before, "white", f"CG before, {case.name}"),
+                                (case.props_after, colour, f"CG after, {case.name}")):
+            if mp is None:
+                continue
+            c = mp.center * 1e3
+            ax.plot([c[axes_idx[0]]], [c[axes_idx[1]]], marker=marker, ms=7, mec=colour, mfc=face, mew=1.4,
+                    ls="none", zorder=8, label=label)
     v = model.vehicle
     if v is not None and axes_idx == (0, 2):
         ax.axhline(v.ground_level * 1e3, color="#6b5b45", lw=1.2, zorder=0)
@@ -132,11 +138,16 @@ def _axis_name(result: Any, k: int) -> str:
 
 def plot_placement(result: Any, path: str | Path) -> Path:
     """The placement picture (PNG): views, mass per slot, margins. See the module notes."""
-    fig = _figure((13.0, 10.5))
-    grid = fig.add_gridspec(3, 2, height_ratios=[1.0, 1.15, 0.95], hspace=0.35, wspace=0.18)
+    n_cases = max(len(result.cases), 1)
+    table_h = 0.2 * (len(result.assessments) + 1)  # inches: one row per requirement of every case
+    head_h, foot_h = 0.5 + 0.17 * (n_cases + 1), 0.75
+    height = head_h + 3.0 + 3.4 + table_h + foot_h + 1.2
+    fig = _figure((13.0, height))
+    grid = fig.add_gridspec(3, 2, height_ratios=[3.0, 3.4, max(table_h, 0.4)], hspace=0.35 * 3.0 / height * 3.5,
+                            wspace=0.18, top=1.0 - head_h / height, bottom=foot_h / height)
     side = fig.add_subplot(grid[0, :])
     _view(side, result, (0, 2), f"side elevation: {_axis_name(result, 0)} vs {_axis_name(result, 2)} (mm, model frame)")
-    side.legend(loc="upper left", fontsize=7, frameon=False)
+    side.legend(loc="upper left", fontsize=6, frameon=False, ncol=2)
     used = [p for al in result.allocations if al.sizing is not None for p in al.sizing.pieces]
     if used:  # the blocks are thin: a zoomed section of the side view around them
         pts = np.vstack([_box_outline(p, (0, 2), p.geometry.size, p.pose) for p in used])
@@ -177,24 +188,27 @@ def plot_placement(result: Any, path: str | Path) -> Path:
         scale = 1e3 if r.unit == "m" else 1.0
         unit = "mm" if r.unit == "m" else r.unit
         op = "<=" if r.is_max else ">="
-        rows.append([r.label[:58], f"{fmt.format(a.nominal * scale)} {unit}", f"{fmt.format(a.worst * scale)} {unit}",
-                     f"{op} {fmt.format(r.bound * scale)} {unit}", f"{fmt.format(a.margin_worst * scale)} {unit}",
+        rows.append([r.case, r.label[:52], f"{fmt.format(a.nominal * scale)} {unit}",
+                     f"{fmt.format(a.worst * scale)} {unit}", f"{op} {fmt.format(r.bound * scale)} {unit}",
+                     f"{fmt.format(a.margin_worst * scale)} {unit}",
                      "binding" if a.binding else ("pass" if a.passed else "FAIL")])
-        colours.append(["white"] * 5 + ["#dff0e3" if a.passed else "#f6d6d2"])
+        colours.append(["white"] * 6 + ["#dff0e3" if a.passed else "#f6d6d2"])
     if rows:
-        tab = table_ax.table(cellText=rows, cellColours=colours, loc="upper center", cellLoc="left",
-                             colLabels=["rule or target", "nominal", "worst of band", "bound (with margin)",
-                                        "margin (worst)", ""], colWidths=[0.38, 0.12, 0.12, 0.15, 0.12, 0.08])
+        tab = table_ax.table(cellText=rows, cellColours=colours, bbox=(0.0, 0.0, 1.0, 1.0), cellLoc="left",
+                             colLabels=["case", "rule or target", "nominal", "worst of band", "bound (with margin)",
+                                        "margin (worst)", ""], colWidths=[0.1, 0.34, 0.11, 0.11, 0.14, 0.11, 0.07])
         tab.auto_set_font_size(False)
         tab.set_fontsize(7)
-        tab.scale(1.0, 1.25)
     nom, lo, hi = result.ballast_mass
-    title = (f"{result.model.name}: ballast {nom:.2f} kg nominal ({lo:.2f} .. {hi:.2f} kg over the density bands)")
-    if result.balance_before is not None and result.balance_after is not None:
-        title += (f"\nCG height {result.balance_before.cg_height * 1e3:.1f} -> {result.balance_after.cg_height * 1e3:.1f} mm"
-                  f" · front fraction {result.balance_before.front_fraction:.4f} -> "
-                  f"{result.balance_after.front_fraction:.4f}")
-    fig.suptitle(title, fontsize=10)
+    title = (f"{result.model.name}: ballast {nom:.2f} kg nominal ({lo:.2f} .. {hi:.2f} kg over the density bands), "
+             f"the same in every case")
+    for case in result.cases:
+        b0, b1 = case.balance_before, case.balance_after
+        if b0 is None or b1 is None:
+            continue
+        title += (f"\n{case.name}: CG height {b0.cg_height * 1e3:.1f} -> {b1.cg_height * 1e3:.1f} mm · front "
+                  f"fraction {b0.front_fraction:.4f} -> {b1.front_fraction:.4f} · {'pass' if case.passed else 'FAIL'}")
+    fig.suptitle(title, fontsize=8.5 if len(result.cases) > 2 else 10, y=1.0 - 0.15 / height)
     return write_atomic(path, lambda p: fig.savefig(p, format="png"), suffix=".png")
 
 
@@ -207,6 +221,9 @@ def plot_seat_study(study: Any, path: str | Path) -> Path:
     z = study.cg_heights * 1e3
     lo, hi = (v * 1e3 for v in study.seat_range)
     ax.axvspan(lo, hi, color="#eef2f6", label=f"seat structure ({study.seat_group})")
+    for name, a, b in study.height_rules:
+        top = min(b * 1e3, max(hi, float(h.max())))
+        ax.axvspan(a * 1e3, top, facecolor="none", edgecolor=CG_AFTER, hatch="//", lw=0.0, label=f"allowed by {name}")
     ax.plot(h, z, color=CG_AFTER, marker="o", ms=4, lw=1.5, label=f"with {study.ballast_mass:.2f} kg seat ballast")
     ax.axhline(study.base_cg_height * 1e3, color=CG_BEFORE, ls="--", lw=1.0, label="without seat ballast")
     if study.cg_limit is not None and study.cg_limit * 1e3 <= max(z.max(), study.base_cg_height * 1e3) + 20:
@@ -218,6 +235,78 @@ def plot_seat_study(study: Any, path: str | Path) -> Path:
     ax.set_ylabel("car CG height above the ground, mm")
     ax.set_title(f"{study.rule.name}: {study.need:.2f} kg needed at the low end of the density band\n"
                  f"car CG rises {study.slope * 10:.3f} mm per 10 mm of ballast height", fontsize=9)
+    ax.grid(True, lw=0.3, color="#e0e0e0")
+    ax.legend(fontsize=8, frameon=False)
+    return write_atomic(path, lambda p: fig.savefig(p, format="png"), suffix=".png")
+
+
+def plot_rule_costs(result: Any, path: str | Path) -> Path:
+    """What each binding rule costs (PNG): the dual value (ballast per step of the limit) and the ballast saved
+    without the rule, one bar each, labelled with the case."""
+    costs = [c for c in result.costs if c.binding] or list(result.costs)
+    fig = _figure((10.0, max(3.2, 2.2 + 0.42 * len(costs))))
+    fig.subplots_adjust(left=0.36, right=0.97, bottom=0.2 if len(costs) > 3 else 0.3, top=0.85, wspace=0.35)
+    labels = [f"{c.requirement.label[:40]} [{c.requirement.case}]" for c in costs]
+    y = np.arange(len(costs))
+    ax1 = fig.add_subplot(1, 2, 1)
+    ax2 = fig.add_subplot(1, 2, 2, sharey=ax1)
+    duals = [c.per_step[0] for c in costs]
+    ax1.barh(y, duals, color=BALLAST_COLOUR)
+    for k, c in enumerate(costs):
+        ax1.annotate(f"{c.per_step[0]:.3f} kg {c.per_step[1]}", (duals[k], k), xytext=(3, 0),
+                     textcoords="offset points", va="center", fontsize=7)
+    ax1.set_yticks(y, labels, fontsize=7)
+    ax1.invert_yaxis()
+    ax1.set_xlabel("ballast per step of the limit, kg (per kg / per 0.001 / per mm)", fontsize=8)
+    ax1.set_title("dual value", fontsize=9)
+    ax2.barh(y, [c.saving for c in costs], color=SLOT_EDGE)
+    ax2.set_xlabel("ballast saved without the rule, kg", fontsize=8)
+    ax2.set_title("re-solved without it", fontsize=9)
+    from matplotlib.ticker import MaxNLocator
+
+    ax1.set_xlim(0.0, 1.45 * max(max(duals, default=0.0), 1e-3))
+    ax2.set_xlim(0.0, 1.15 * max(max((c.saving for c in costs), default=0.0), 0.01))
+    for ax in (ax1, ax2):
+        ax.tick_params(labelsize=7)
+        ax.grid(True, axis="x", lw=0.3, color="#e0e0e0")
+        ax.xaxis.set_major_locator(MaxNLocator(4))
+    ax2.tick_params(labelleft=False)
+    fig.suptitle(f"{result.model.name}: what each rule costs (least ballast {result.least:.2f} kg, cases "
+                 f"{', '.join(c.name for c in result.cases)})", fontsize=9)
+    return write_atomic(path, lambda p: fig.savefig(p, format="png"), suffix=".png")
+
+
+def plot_tradeoff(result: Any, path: str | Path) -> Path:
+    """The CG height / yaw inertia trade-off at the least ballast (PNG), means over the cases."""
+    fig = _figure((7.5, 5.6))
+    fig.subplots_adjust(bottom=0.22)
+    ax = fig.add_subplot(1, 1, 1)
+    pts = result.tradeoff
+    if pts:
+        h = np.array([p.cg_height for p in pts]) * 1e3
+        yaw = np.array([p.yaw for p in pts])
+        ax.plot(h, yaw, color=CG_AFTER, marker="o", ms=4, lw=1.4, label="least ballast, weighted objectives")
+        groups: dict[tuple[float, float], list[float]] = {}  # points that coincide share one label
+        for p, hx, yx in zip(pts, h, yaw, strict=True):
+            groups.setdefault((round(float(hx), 3), round(float(yx), 4)), []).append(p.weight_height)
+        for k, ((hx, yx), ws) in enumerate(groups.items()):
+            text = f"w={ws[0]:.2f}" if len(ws) == 1 else f"w={min(ws):.2f}..{max(ws):.2f}"
+            ax.annotate(text, (hx, yx), xytext=(5, 5 - 11 * (k % 3)), textcoords="offset points", fontsize=6)
+        # at least 1 mm and 1 kg*m^2 shown, so that a curve that is nearly a point looks like one
+        for values, span, setter in ((h, 1.0, ax.set_xlim), (yaw, 1.0, ax.set_ylim)):
+            mid, half = 0.5 * (values.min() + values.max()), 0.5 * max(values.max() - values.min(), span) * 1.15
+            setter(mid - half, mid + half)
+        ax.ticklabel_format(useOffset=False)
+        spread = (h.max() - h.min(), yaw.max() - yaw.min())
+        if spread[0] < 0.1 and spread[1] < 0.1:
+            ax.text(0.02, 0.03, f"the two objectives nearly agree here: {spread[0]:.3f} mm and {spread[1]:.3f} "
+                    "kg*m^2 apart", transform=ax.transAxes, fontsize=7, color=CG_BEFORE)
+    else:
+        ax.text(0.5, 0.5, "no trade-off computed", ha="center", va="center", transform=ax.transAxes)
+    ax.set_xlabel("CG height above the ground, mm (mean over the cases)")
+    ax.set_ylabel("yaw inertia about the CG, kg*m^2 (mean over the cases)")
+    ax.set_title(f"{result.model.name}: CG height against yaw inertia with {result.least:.2f} kg of ballast\n"
+                 "(w = weight on CG height; a linear mass-properties estimate)", fontsize=9)
     ax.grid(True, lw=0.3, color="#e0e0e0")
     ax.legend(fontsize=8, frameon=False)
     return write_atomic(path, lambda p: fig.savefig(p, format="png"), suffix=".png")

@@ -8,7 +8,8 @@ from typing import Any
 import numpy as np
 
 from massmodel.ballast.block import AXES
-from massmodel.ballast.sizing import BlockSizing, denser_materials
+from massmodel.ballast.sizing import BlockSizing
+from massmodel.ballast.targets import denser_materials
 from massmodel.core import cautions
 from massmodel.core.materials import Material
 from massmodel.report.rules import rule_dict
@@ -16,7 +17,7 @@ from massmodel.report.rules import rule_dict
 from .summary import table
 
 __all__ = ["BALLAST_FORMAT", "sizing_dict", "format_sizing", "placement_dict", "format_placement",
-           "seat_dict", "format_seat", "suggestions"]
+           "format_rule_costs", "seat_dict", "format_seat", "suggestions"]
 
 BALLAST_FORMAT = "massmodel-ballast/1"
 CONVENTIONS = {
@@ -174,8 +175,49 @@ def format_sizing(sizing: BlockSizing, fits: Sequence[Any] = (), advice: Sequenc
     return "\n".join(out)
 
 
+def _balance_dict(mp: Any, bal: Any) -> dict[str, Any]:
+    out: dict[str, Any] = {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
+    if bal is not None:
+        out.update({"cg_height_m": bal.cg_height, "front_fraction": bal.front_fraction,
+                    "axle_loads_kg": {"front": bal.front, "rear": bal.rear},
+                    "corner_loads_kg": dict(zip(("front_left", "front_right", "rear_left", "rear_right"),
+                                                map(float, bal.corners), strict=True)),
+                    "cg_left_of_centre_m": bal.cg_left_of_centre})
+    return out
+
+
+def _requirement_dict(a: Any) -> dict[str, Any]:
+    r = a.requirement
+    return {"case": r.case, "key": r.key, "label": r.label, "kind": r.kind, "unit": r.unit, "bound": r.bound,
+            "limit": r.limit, "margin_kept": r.margin, "nominal": a.nominal, "worst_of_band": a.worst,
+            "margin_nominal": a.margin_nominal, "margin_worst": a.margin_worst, "binding": bool(a.binding),
+            "passed": bool(a.passed)}
+
+
+_DUAL_UNIT = {"kg": "kg_per_kg", "fraction": "kg_per_unit_fraction", "m": "kg_per_m"}
+
+
+def _cost_dict(c: Any) -> dict[str, Any]:
+    r = c.requirement
+    step, label = c.per_step
+    return {"case": r.case, "key": r.key, "label": r.label, "rule": r.rule, "unit": r.unit, "binding": bool(c.binding),
+            "dual": {"value": c.dual, "unit": _DUAL_UNIT[r.unit]}, "dual_per_step": {"kg": step, "step": label},
+            "least_ballast_kg": c.least, "least_ballast_without_kg": c.without, "saving_without_kg": c.saving}
+
+
+def _sensitivity_dict(s: Any) -> dict[str, Any]:
+    return {"case": s.case, "slot": s.slot, "mass_kg": s.mass,
+            "per_kg_added": {"front_fraction_per_kg": s.front_fraction_per_kg, "cg_height_m_per_kg": s.cg_height_per_kg,
+                             "cg_left_m_per_kg": s.lateral_per_kg, "yaw_inertia_kg_m2_per_kg": s.yaw_per_kg},
+            "per_m_moved": {"front_fraction_per_m_forward": s.front_fraction_per_m_forward,
+                            "cg_height_m_per_m_up": s.cg_height_per_m_up, "cg_left_m_per_m_left": s.lateral_per_m_left,
+                            "yaw_inertia_kg_m2_per_m_forward": s.yaw_per_m_forward,
+                            "yaw_inertia_kg_m2_per_m_left": s.yaw_per_m_left}}
+
+
 def placement_dict(result: Any) -> dict[str, Any]:
-    """A placement result as plain data."""
+    """A placement result as plain data: every case's balance, requirements and rule checks, what each rule costs,
+    the slots' sensitivities and the trade-off curve."""
     out: dict[str, Any] = {
         "format": BALLAST_FORMAT,
         "conventions": CONVENTIONS,
@@ -183,7 +225,13 @@ def placement_dict(result: Any) -> dict[str, Any]:
         "source": result.model.source,
         "plan": result.plan.name,
         "objective": result.plan.targets.objective.value,
+        "cases": [c.name for c in result.cases],
         "feasible": bool(result.feasible),
+        "passed": bool(result.passed),
+        "rule_margins": {"per_rule_si": dict(result.margins or {}), "mass_margin_kg": result.plan.targets.mass_margin,
+                         "scale_resolution_kg": result.plan.targets.scale_resolution,
+                         "fraction_margin": result.plan.targets.fraction_margin,
+                         "cg_height_margin_m": result.plan.targets.cg_height_margin},
         "solver": {"seconds": result.stats.seconds, "evaluations": result.stats.evaluations,
                    "lp_solves": result.stats.lp_solves, "lp_iterations": result.stats.lp_iterations,
                    "nonlinear_evaluations": result.stats.nonlinear_evaluations, "rounds": result.stats.rounds,
@@ -192,13 +240,13 @@ def placement_dict(result: Any) -> dict[str, Any]:
         "cautions": cautions.for_report("ballast", "machining", "handling"),
     }
     if not result.feasible:
-        out["shortfalls"] = [{"requirement": s.requirement.label, "kind": s.requirement.kind,
-                              "shortfall": {"value": s.amount, "unit": s.requirement.unit},
+        out["shortfalls"] = [{"case": s.requirement.case, "requirement": s.requirement.label,
+                              "kind": s.requirement.kind, "shortfall": {"value": s.amount, "unit": s.requirement.unit},
                               "best_alone": s.best_alone, "conflicts": list(s.conflicts),
                               "explanation": s.explanation} for s in result.shortfalls]
         return out
     nom, lo, hi = result.ballast_mass
-    out["ballast_kg"] = {"nominal": nom, "min": lo, "max": hi}
+    out["ballast_kg"] = {"nominal": nom, "min": lo, "max": hi, "least_continuous": result.least}
     out["removed"] = [p for al in result.allocations for p in al.candidate.replace]
     out["slots"] = []
     for al in result.allocations:
@@ -213,21 +261,20 @@ def placement_dict(result: Any) -> dict[str, Any]:
                                for p, m in zip(s.pieces, s.segment_masses(), strict=True)]
             entry["cg_m"] = s.props().center.tolist()
         out["slots"].append(entry)
-    for tag, mp, bal in (("before", result.props_before, result.balance_before),
-                         ("after", result.props_after, result.balance_after)):
-        out[tag] = {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
-        if bal is not None:
-            out[tag].update({"cg_height_m": bal.cg_height, "front_fraction": bal.front_fraction,
-                             "axle_loads_kg": {"front": bal.front, "rear": bal.rear},
-                             "corner_loads_kg": dict(zip(("front_left", "front_right", "rear_left", "rear_right"),
-                                                         map(float, bal.corners), strict=True)),
-                             "cg_left_of_centre_m": bal.cg_left_of_centre})
-    out["requirements"] = [{"key": a.requirement.key, "label": a.requirement.label, "kind": a.requirement.kind,
-                            "unit": a.requirement.unit, "bound": a.requirement.bound, "limit": a.requirement.limit,
-                            "nominal": a.nominal, "worst_of_band": a.worst, "margin_nominal": a.margin_nominal,
-                            "margin_worst": a.margin_worst, "binding": bool(a.binding), "passed": bool(a.passed)}
-                           for a in result.assessments]
-    out["rules"] = [rule_dict(r) for r in result.rules]
+    out["case_results"] = [{"case": c.name, "passed": bool(c.passed),
+                            "before": _balance_dict(c.props_before, c.balance_before),
+                            "after": _balance_dict(c.props_after, c.balance_after),
+                            "requirements": [_requirement_dict(a) for a in c.assessments],
+                            "rules": [rule_dict(r) for r in c.rules]} for c in result.cases]
+    out["rule_costs"] = [_cost_dict(c) for c in result.costs]
+    out["rule_totals"] = [{"key": t.rule_key, "label": t.label, "unit": t.unit, "cases": list(t.cases),
+                           "dual_sum": {"value": t.dual, "unit": _DUAL_UNIT[t.unit]},
+                           "dual_sum_per_step": {"kg": t.per_step[0], "step": t.per_step[1]},
+                           "least_ballast_kg": t.least, "least_ballast_without_in_every_case_kg": t.without,
+                           "saving_without_kg": t.saving} for t in result.rule_totals]
+    out["sensitivities"] = [_sensitivity_dict(s) for s in result.sensitivities]
+    out["tradeoff"] = [{"weight_cg_height": p.weight_height, "mean_cg_height_m": p.cg_height,
+                        "mean_yaw_inertia_kg_m2": p.yaw, "planned_kg": list(p.masses)} for p in result.tradeoff]
     return out
 
 
@@ -242,27 +289,66 @@ def _req_row(a: Any) -> list[str]:
             f"{a.margin_worst * scale:+{fmt}}", unit, state]
 
 
+def _cautions(out: list[str]) -> None:
+    out.append("")
+    out.append("CAUTIONS")
+    out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+
+
+def format_rule_costs(result: Any, everything: bool = False) -> list[str]:
+    """The table of what each rule costs (binding ones; every one with ``everything``)."""
+    out = ["WHAT EACH RULE COSTS (continuous problem before rounding; least ballast "
+           f"{result.least:.3f} kg over every case)"]
+    shown = [c for c in result.costs if everything or c.binding]
+    rows = []
+    for c in shown:
+        value, step = c.per_step
+        rows.append([c.requirement.case, c.requirement.label, "binding" if c.binding else "-",
+                     f"{value:.4f} kg {step}", f"{c.without:.3f}", f"{c.saving:.3f}"])
+    if rows:
+        out.append(table(["case", "rule or target", "", "dual: ballast per step of the limit", "kg without it",
+                          "kg saved"], rows, "lllrrr"))
+    if len({c.requirement.rule_key for c in shown}) < len(shown):
+        out.append("  a rule binding in several cases at once shares its dual value between them (their sum is what "
+                   "the rule costs); leaving it out of one case saves nothing while another case still holds it")
+    totals = [t for t in result.rule_totals if t.dual > 1e-12 or t.saving > 1e-9]
+    if totals:
+        out.append("  each rule over every case it applies in:")
+        out.append(table(["rule or target", "cases", "sum of duals", "kg without it in every case", "kg saved"],
+                         [[t.label, str(len(t.cases)), f"{t.per_step[0]:.4f} kg {t.per_step[1]}", f"{t.without:.3f}",
+                           f"{t.saving:.3f}"] for t in totals], "lrrrr"))
+    hidden = len(result.costs) - len(shown)
+    if hidden:
+        out.append(f"  {hidden} further requirement(s) not binding: 0 kg per step, no ballast saved without them "
+                   "(the JSON lists every one)")
+    return out
+
+
 def format_placement(result: Any) -> str:
-    """Readable text of a placement."""
-    out = [f"BALLAST PLACEMENT · {result.model.name} · plan '{result.plan.name}'"]
+    """Readable text of a placement: every case's balance and rules, what each rule costs, the sensitivities."""
+    names = ", ".join(c.name for c in result.cases)
+    out = [f"BALLAST PLACEMENT · {result.model.name} · plan '{result.plan.name}' · load cases {names}"]
     t = result.plan.targets
-    out.append(f"  objective: {t.objective.value} after the least ballast (allowance {t.ballast_allowance:.3f} kg); "
-               f"mass margin {t.mass_margin:.3f} kg at the LOW end of each density band")
+    out.append(f"  objective: {t.objective.value} (mean over the cases) after the least ballast (allowance "
+               f"{t.ballast_allowance:.3f} kg); the ballast is the same in every case")
+    out.append(f"  margins: mass {t.mass_margin:.3f} kg at the LOW end of each density band"
+               + (f" + scale resolution {t.scale_resolution:.3f} kg" if t.scale_resolution else "")
+               + ("; per rule: " + ", ".join(f"{k} {v:g} (SI)" for k, v in (result.margins or {}).items())
+                  if result.margins else ""))
     s = result.stats
     out.append(f"  solver: {', '.join(s.methods)} · {s.seconds:.3f} s · {s.evaluations} evaluations "
                f"({s.lp_solves} LP/MILP solves, {s.lp_iterations} iterations, {s.nonlinear_evaluations} nonlinear "
                f"function/gradient evaluations) · {s.rounds} round(s) of sizing and checking")
     out.append("")
     if not result.feasible:
-        out.append("NO PLACEMENT MEETS EVERY RULE AND TARGET")
+        out.append("NO PLACEMENT MEETS EVERY RULE AND TARGET IN EVERY CASE")
         for sf in result.shortfalls:
             out.append(f"  - {sf.explanation}")
-        binding = result.shortfalls[0].requirement.label if result.shortfalls else "?"
-        out.append(f"  binding constraint: {binding}")
+        if result.shortfalls:
+            r = result.shortfalls[0].requirement
+            out.append(f"  binding constraint: {r.label} in case '{r.case}'")
         out.extend(f"  note: {n}" for n in result.notes)
-        out.append("")
-        out.append("CAUTIONS")
-        out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+        _cautions(out)
         return "\n".join(out)
     rows = []
     for al in result.allocations:
@@ -291,41 +377,70 @@ def format_placement(result: Any) -> str:
             segs = ", ".join(f"{m:.3f}" for m in al.sizing.segment_masses())
             out.append(f"  {al.candidate.name}: plates at the high end of the band {segs} kg")
     out.append("")
-    b0, b1 = result.balance_before, result.balance_after
-    mp0, mp1 = result.props_before, result.props_after
-    out.append("MASS PROPERTIES (model frame)")
-    rows = [["mass kg", f"{mp0.mass:.3f}", f"{mp1.mass:.3f}"],
-            ["CG mm", _v(mp0.center), _v(mp1.center)]]
-    if b0 is not None and b1 is not None:
-        rows += [["CG height above ground mm", f"{b0.cg_height * 1e3:.2f}", f"{b1.cg_height * 1e3:.2f}"],
-                 ["CG left of centre plane mm", f"{b0.cg_left_of_centre * 1e3:.2f}", f"{b1.cg_left_of_centre * 1e3:.2f}"],
-                 ["front fraction", f"{b0.front_fraction:.4f}", f"{b1.front_fraction:.4f}"],
-                 ["front axle kg", f"{b0.front:.2f}", f"{b1.front:.2f}"],
-                 ["rear axle kg", f"{b0.rear:.2f}", f"{b1.rear:.2f}"],
-                 ["corners FL / FR kg", f"{b0.corners[0]:.2f} / {b0.corners[1]:.2f}",
-                  f"{b1.corners[0]:.2f} / {b1.corners[1]:.2f}"],
-                 ["corners RL / RR kg", f"{b0.corners[2]:.2f} / {b0.corners[3]:.2f}",
-                  f"{b1.corners[2]:.2f} / {b1.corners[3]:.2f}"]]
-        up = result.model.vehicle.up
-        yaw0 = float(up @ mp0.inertia @ up)
-        yaw1 = float(up @ mp1.inertia @ up)
-        rows.append(["yaw inertia about CG kg*m^2", f"{yaw0:.3f}", f"{yaw1:.3f}"])
-    out.append(table(["", "before", "after"], rows, "lrr"))
+    out.append("BALANCE IN EACH CASE (before -> after; model frame)")
+    out.append(_balance_table(result))
+    for c in result.cases:
+        out.append("")
+        out.append(f"RULES AND TARGETS · case '{c.name}' (bound includes the margins; worst = the worst mix of the "
+                   "density bands)")
+        if c.assessments:
+            out.append(table(["rule or target", "nominal", "worst", "bound", "margin", "unit", ""],
+                             [_req_row(a) for a in c.assessments], "lrrrrll"))
+        else:
+            out.append("  no rule or target applies in this case")
+        binding = [a.requirement.label for a in c.assessments if a.binding]
+        if binding:
+            out.append(f"  binding constraints: {'; '.join(binding)}")
+        failing = [r for r in c.rules if not r.passed]
+        out.append(f"  rule checks of the ballasted model in '{c.name}': " +
+                   ("all rules pass" if not failing else "FAIL: " + ", ".join(r.name for r in failing)))
     out.append("")
-    out.append("RULES AND TARGETS (bound includes the plan's margins; worst = the worst mix of the density bands)")
-    out.append(table(["rule or target", "nominal", "worst", "bound", "margin", "unit", ""],
-                     [_req_row(a) for a in result.assessments], "lrrrrll"))
-    binding = [a.requirement.label for a in result.assessments if a.binding]
-    if binding:
-        out.append(f"  binding constraints: {'; '.join(binding)}")
-    failing = [r for r in result.rules if not r.passed]
-    out.append("  rule checks of the ballasted model: " + ("all rules pass" if not failing else
-               "FAIL: " + ", ".join(r.name for r in failing)))
+    out.extend(format_rule_costs(result))
+    out.append("")
+    out.extend(_format_sensitivities(result))
+    if result.tradeoff:
+        out.append("")
+        out.append("CG HEIGHT / YAW INERTIA TRADE-OFF at the least ballast (means over the cases)")
+        out.append(table(["weight on CG height", "CG height mm", "yaw inertia kg*m^2", "kg per slot"],
+                         [[f"{p.weight_height:.2f}", f"{p.cg_height * 1e3:.2f}", f"{p.yaw:.3f}",
+                           ", ".join(f"{m:.2f}" for m in p.masses)] for p in result.tradeoff], "rrrl"))
+    failing_cases = [c.name for c in result.cases if not c.passed]
+    out.append("")
+    out.append("EVERY CASE PASSES" if not failing_cases else f"FAILS IN CASE(S): {', '.join(failing_cases)}")
     out.extend(f"  note: {n}" for n in result.notes)
-    out.append("")
-    out.append("CAUTIONS")
-    out.extend(f"  - {c}" for c in cautions.for_report("ballast", "machining", "handling"))
+    out.append("  (a linear estimate of the balance: check the car on the scales; the scrutineers decide)")
+    _cautions(out)
     return "\n".join(out)
+
+
+def _balance_table(result: Any) -> str:
+    rows = []
+    for c in result.cases:
+        b0, b1, mp0, mp1 = c.balance_before, c.balance_after, c.props_before, c.props_after
+        row = [c.name, f"{mp0.mass:.2f} -> {mp1.mass:.2f}"]
+        if b0 is not None and b1 is not None:
+            up = c.model.vehicle.up
+            row += [f"{b0.front_fraction:.4f} -> {b1.front_fraction:.4f}",
+                    f"{b0.cg_height * 1e3:.1f} -> {b1.cg_height * 1e3:.1f}",
+                    f"{b0.cg_left_of_centre * 1e3:+.1f} -> {b1.cg_left_of_centre * 1e3:+.1f}",
+                    f"{b1.front:.1f} / {b1.rear:.1f}",
+                    f"{float(up @ mp0.inertia @ up):.2f} -> {float(up @ mp1.inertia @ up):.2f}"]
+        else:
+            row += ["-"] * 5
+        rows.append(row + ["pass" if c.passed else "FAIL"])
+    return table(["case", "mass kg", "front fraction", "CG height mm", "CG left mm", "axles kg (after)",
+                  "yaw kg*m^2", ""], rows, "lrrrrrrl")
+
+
+def _format_sensitivities(result: Any) -> list[str]:
+    out = ["SENSITIVITIES PER SLOT (at the solution; per kg added, and per mm the block moves along the vehicle axes)"]
+    rows = [[s.case, s.slot, f"{s.mass:.2f}", f"{s.front_fraction_per_kg * 1e3:+.4f}",
+             f"{s.cg_height_per_kg * 1e3:+.3f}", f"{s.lateral_per_kg * 1e3:+.3f}", f"{s.yaw_per_kg:+.3f}",
+             f"{s.front_fraction_per_m_forward:+.5f}", f"{s.cg_height_per_m_up:.5f}", f"{s.yaw_per_m_forward * 1e-3:+.4f}"]
+            for s in result.sensitivities]
+    out.append(table(["case", "slot", "kg", "front 0.001/kg", "CG h mm/kg", "CG left mm/kg", "yaw kg*m^2/kg",
+                      "front 0.001/mm fwd", "CG h mm/mm up", "yaw kg*m^2/mm fwd"], rows, "llrrrrrrrr"))
+    return out
 
 
 def seat_dict(study: Any) -> dict[str, Any]:
@@ -338,8 +453,13 @@ def seat_dict(study: Any) -> dict[str, Any]:
         "material": study.material.key, "ballast_mass_kg": study.ballast_mass,
         "station_m": study.station, "lateral_m": study.lateral,
         "seat_range_above_ground_m": list(study.seat_range), "base_cg_height_m": study.base_cg_height,
-        "rows": [{"ballast_height_m": float(h), "cg_height_m": float(z), "front_fraction": float(f)}
-                 for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)],
+        "rows": [{"ballast_height_m": float(h), "cg_height_m": float(z), "front_fraction": float(f),
+                  "allowed_by_height_rules": bool(ok)}
+                 for h, z, f, ok in zip(study.heights, study.cg_heights, study.front_fractions, study.allowed,
+                                        strict=True)],
+        "height_rules": [{"rule": n, "lowest_m": lo, "highest_m": (hi if hi != float("inf") else None)}
+                         for n, lo, hi in study.height_rules],
+        "lowest_allowed_height_m": study.lowest_allowed,
         "cg_rise_per_ballast_height": study.slope,
         "cautions": cautions.for_report("ballast", "machining", "handling"),
     }
@@ -366,10 +486,18 @@ def format_seat(study: Any) -> str:
                f"seat structure from {study.seat_range[0] * 1e3:.1f} to {study.seat_range[1] * 1e3:.1f} mm above "
                "the ground")
     out.append("")
-    rows = [[f"{h * 1e3:.1f}", f"{z * 1e3:.2f}", f"{(z - study.base_cg_height) * 1e3:+.2f}", f"{f:.4f}"]
-            for h, z, f in zip(study.heights, study.cg_heights, study.front_fractions, strict=True)]
-    out.append(table(["ballast CG above ground mm", "car CG above ground mm", "car CG change mm", "front fraction"],
-                     rows, "rrrr"))
+    for name, lo, hi in study.height_rules:
+        out.append(f"  rule '{name}': the ballast's CG " + (f"at least {lo * 1e3:.1f} mm above the ground"
+                   if hi == float("inf") else f"between {lo * 1e3:.1f} and {hi * 1e3:.1f} mm above the ground"))
+    rows = [[f"{h * 1e3:.1f}", f"{z * 1e3:.2f}", f"{(z - study.base_cg_height) * 1e3:+.2f}", f"{f:.4f}",
+             "" if ok else "NOT ALLOWED by the ballast-height rule"]
+            for h, z, f, ok in zip(study.heights, study.cg_heights, study.front_fractions, study.allowed, strict=True)]
+    out.append(table(["ballast CG above ground mm", "car CG above ground mm", "car CG change mm", "front fraction",
+                      ""], rows, "rrrrl"))
+    if study.height_rules:
+        low = study.lowest_allowed
+        out.append("  lowest height the rules allow: " + (f"{low * 1e3:.1f} mm" if low is not None else
+                   "none of the tabulated heights"))
     outside = [h for h in study.heights if not study.seat_range[0] <= h <= study.seat_range[1]]
     if outside:
         out.append(f"  NOTE: {', '.join(f'{h * 1e3:.1f}' for h in outside)} mm lie outside the seat structure "

@@ -27,8 +27,8 @@ from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck, Vehicle
 
 __all__ = [
-    "Balance", "Bound", "RuleResult", "static_balance", "check_rules", "check_rules_in_cases", "ASSUMPTIONS",
-    "AT_LIMIT_RTOL",
+    "Balance", "Bound", "RuleResult", "static_balance", "check_rules", "check_rules_in_cases", "ballast_height_window",
+    "ASSUMPTIONS", "AT_LIMIT_RTOL",
 ]
 
 ASSUMPTIONS = (
@@ -204,7 +204,41 @@ def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
             rule.name, kind.value, _at_most(value, limit), value, Bound.AT_MOST, None, limit, limit - value, "m",
             "above ground",
         )
+    if kind is RuleCheck.BALLAST_HEIGHT:
+        return _ballast_height(model, rule, balance)
     raise ValueError(f"unknown rule check {kind!r}")
+
+
+def ballast_height_window(model: Model, rule: Rule) -> tuple[float, float]:
+    """Lowest and highest CG height above the ground (m) that a ``ballast_height`` rule allows in ``model``:
+    ``[limit, inf)``, or the CG height of the ``reference`` group ± ``band``."""
+    if model.vehicle is None:
+        raise ValueError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
+    if rule.reference is None:
+        return float(rule.limit or 0.0), float("inf")
+    parts = model.select((rule.reference,))
+    if not parts:
+        raise ValueError(f"rule '{rule.name}' ({rule.origin}): no part of group '{rule.reference}' in load case "
+                         f"'{model.case}', so the height it refers to is unknown")
+    h = float(model.vehicle.up @ model.mass_properties([rule.reference]).center) - model.vehicle.ground_level
+    band = float(rule.band or 0.0)
+    return h - band, h + band
+
+
+def _ballast_height(model: Model, rule: Rule, balance: Balance) -> RuleResult:
+    lo, hi = ballast_height_window(model, rule)
+    where = " + ".join(rule.groups)
+    bound, top = (Bound.AT_LEAST, None) if hi == float("inf") else (Bound.BETWEEN, hi)
+    if not model.select(rule.groups):
+        return RuleResult(rule.name, rule.check.value, True, 0.0, bound, lo, top, 0.0, "m",
+                          f"no part in {where}: nothing to check")
+    assert model.vehicle is not None
+    value = float(model.vehicle.up @ model.mass_properties(list(rule.groups)).center) - model.vehicle.ground_level
+    margin = min(value - lo, hi - value)
+    ok = _at_least(value, lo) and _at_most(value, hi)
+    ref = f", driver reference {rule.reference} +/- {float(rule.band or 0.0) * 1e3:.1f} mm" if rule.reference else ""
+    return RuleResult(rule.name, rule.check.value, ok, value, bound, lo, top, margin, "m",
+                      f"CG of {where} above ground{ref}")
 
 
 def check_rules(model: Model) -> list[RuleResult]:

@@ -26,7 +26,7 @@ PYEOF
 fi
 
 echo
-echo "── 2. Ballast placed across the plan's slots: least ballast, lowest CG, front share on target ──────"
+echo "── 2. Ballast placed across the plan's slots for all five load cases at once: least ballast, lowest CG ─"
 $MM place-ballast "$CAR" "$PLAN" \
   --out-model "$OUT/bl3_ballasted.toml" --step "$OUT/ballast_blocks.step" --stl "$OUT/ballast_blocks.stl" \
   --json "$OUT/ballast.json" --picture "$OUT/ballast.png" | tee "$OUT/ballast.txt"
