@@ -26,8 +26,10 @@ References
 
 from __future__ import annotations
 
+import functools
+import importlib.util
 import math
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -36,8 +38,8 @@ import numpy.typing as npt
 from .massprops import MassProperties, combine_arrays
 from .shapes import SHAPE_KINDS
 
-__all__ = ["BATCH_KINDS", "BatchError", "Batch", "UnitProperties", "unit_properties", "placed_properties",
-           "aggregate", "aggregate_batches"]
+__all__ = ["BATCH_KINDS", "KERNELS", "BatchError", "Batch", "UnitProperties", "unit_properties", "placed_properties",
+           "aggregate", "aggregate_batches", "kernel_for", "place", "rollup", "rollup_groups", "sums_to_properties"]
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -49,6 +51,12 @@ BATCH_KINDS: dict[str, tuple[str, ...]] = {
 BLOCK = 16384
 #: Largest accepted deviation of ``R Rᵀ`` from the identity (as :func:`massmodel.core.frames.is_orthogonal`).
 ORTHOGONALITY_TOL = 1e-9
+#: Roll-up kernels: "numpy" (array expressions, always available), "numba" (the compiled one-pass kernel of
+#: :mod:`massmodel.core.kernels`), "auto" (numba for batches of at least :data:`NUMBA_MIN_PARTS` parts when importable).
+KERNELS = ("auto", "numpy", "numba")
+#: Smallest batch for which "auto" picks the compiled kernel: below it importing numba (about 0.35 s, measured with
+#: bytecode caches) and loading its cached machine code cost more than the kernel saves (see docs/engine.md).
+NUMBA_MIN_PARTS = 1_000_000
 # the smaller dimension that must stay below the larger one, per kind: (small column, large column)
 _ORDERED = {"tube": (1, 0), "spherical_shell": (1, 0), "torus": (1, 0)}
 
@@ -98,6 +106,11 @@ def _taper(r0: FloatArray, r1: FloatArray, n: int, m: int) -> FloatArray:
     return total
 
 
+def _all_positive_finite(a: FloatArray) -> bool:
+    """Every entry finite and > 0, in two reductions without temporaries (NaN makes both comparisons false)."""
+    return bool(a.min() > 0.0) and bool(np.isfinite(a.max()))
+
+
 def _check_dims(kind: str, dims: npt.ArrayLike) -> FloatArray:
     if kind not in BATCH_KINDS:
         raise BatchError(f"kind {kind!r} is not a batch kind (batch kinds: {', '.join(BATCH_KINDS)})")
@@ -106,6 +119,9 @@ def _check_dims(kind: str, dims: npt.ArrayLike) -> FloatArray:
     if d.ndim != 2 or d.shape[1] != len(fields):
         raise BatchError(f"dims of a {kind} batch must have shape (N, {len(fields)}) for {', '.join(fields)}; "
                          f"got {d.shape}")
+    if len(d) and _all_positive_finite(d) and (kind not in _ORDERED or bool(np.all(
+            d[:, _ORDERED[kind][0]] < d[:, _ORDERED[kind][1]]))):
+        return d  # the common case in two reductions; the element-wise tests below only find the culprit
     bad = ~(np.isfinite(d) & (d > 0.0))
     if bad.any():
         n, j = np.argwhere(bad)[0]
@@ -230,7 +246,7 @@ def _check_placement(n: int, densities: npt.ArrayLike, rotations: npt.ArrayLike,
     for name, a, shape in (("densities", rho, (n,)), ("rotations", r, (n, 3, 3)), ("translations", t, (n, 3))):
         if a.shape != shape:
             raise BatchError(f"{name} must have shape {shape}, got {a.shape}")
-    if validate:
+    if validate and n and not (_all_positive_finite(rho) and bool(np.isfinite(t.sum()))):
         bad = ~(np.isfinite(rho) & (rho > 0.0))
         if bad.any():
             k = int(np.argmax(bad))
@@ -368,14 +384,21 @@ def aggregate(
     *,
     validate: bool = True,
     block: int = BLOCK,
+    kernel: str = "auto",
 ) -> MassProperties:
     """Combined mass properties of N placed primitives of one kind (about the combined CG, model axes).
 
-    Same inputs as :func:`placed_properties`. Parts are taken in blocks of ``block`` laid out as contiguous columns
-    (structure of arrays, so every array operation runs over long vectors held in cache): per block the rotated
-    tensors are summed as matrix products (:func:`_rotated_sum`) and the block is combined with
-    :func:`massmodel.core.massprops.combine_arrays`; the blocks are then combined with it again (exact: the parallel-axis
-    theorem). Memory beyond the inputs is O(block).
+    Same inputs as :func:`placed_properties`. Parts are taken in blocks of ``block``; per block the closed forms run
+    as array expressions on the block's dimension columns (held in cache), then the roll-up kernel places and sums
+    the block:
+
+    * ``kernel="numpy"``: the rotated tensors are summed as matrix products (:func:`_rotated_sum`) and the block is
+      combined with :func:`massmodel.core.massprops.combine_arrays`;
+    * ``kernel="numba"``: the compiled one-pass kernel :func:`massmodel.core.kernels.placed_sums` checks each
+      rotation, places the CG, rotates the tensor and accumulates the moments in one read of the block;
+    * ``kernel="auto"`` (default): :func:`kernel_for`.
+
+    The blocks are then combined with the parallel-axis theorem (exact). Memory beyond the inputs is O(block).
 
     Returns
     -------
@@ -386,21 +409,109 @@ def aggregate(
     if n == 0:
         return MassProperties.zero()
     rho, r, t = _check_placement(n, densities, rotations, translations, validate)
+    compiled = _numba_kernel() if kernel_for(n, kernel) == "numba" else None
     masses, centers, tensors = [], [], []
     for start in range(0, n, block):
         stop = min(n, start + block)
-        cols = _columns(r[start:stop])
-        if validate:
-            _check_orthogonal(cols, start)
         v, centroid, diag, pxy = _unit_columns(kind, d[start:stop].T.copy())
         w = rho[start:stop]
-        own = _rotated_sum(kind, cols, diag * w, None if pxy is None else pxy * w)
-        c = _center_columns(cols, centroid, t[start:stop].T.copy())
-        m, cg, inertia = combine_arrays(w * v, c.T, own[None])
+        if compiled is not None:
+            m, cg, inertia = _compiled_block(compiled, start, w, v, centroid, diag, pxy, r[start:stop],
+                                             t[start:stop], validate)
+        else:
+            cols = _columns(r[start:stop])
+            if validate:
+                _check_orthogonal(cols, start)
+            own = _rotated_sum(kind, cols, diag * w, None if pxy is None else pxy * w)
+            c = _center_columns(cols, centroid, t[start:stop].T.copy())
+            m, cg, inertia = combine_arrays(w * v, c.T, own[None])
         masses.append(m)
         centers.append(cg)
         tensors.append(inertia)
+    if len(masses) == 1:
+        return MassProperties(masses[0], centers[0], tensors[0])
     return MassProperties(*combine_arrays(np.array(masses), np.array(centers), np.array(tensors)))
+
+
+def kernel_for(n: int, kernel: str = "auto") -> str:
+    """The roll-up kernel used for ``n`` parts: ``kernel`` itself, or for "auto" "numba" when ``n`` ≥
+    :data:`NUMBA_MIN_PARTS` and numba is importable, else "numpy"."""
+    if kernel not in KERNELS:
+        raise BatchError(f"kernel must be one of {', '.join(KERNELS)}, got {kernel!r}")
+    if kernel == "auto":
+        return "numba" if n >= NUMBA_MIN_PARTS and _numba_kernel() is not None else "numpy"
+    if kernel == "numba" and _numba_kernel() is None:
+        raise BatchError("kernel 'numba' asked for, but numba is not importable here; use kernel='numpy'")
+    return kernel
+
+
+@functools.cache
+def _numba_kernel() -> Callable[..., tuple[FloatArray, int]] | None:
+    """:func:`massmodel.core.kernels.placed_sums`, imported on first use; None when numba is not installed or
+    does not import."""
+    if importlib.util.find_spec("numba") is None:
+        return None
+    try:
+        from . import kernels
+    except ImportError:  # pragma: no cover - a broken numba/llvmlite install: the numpy path still works
+        return None
+    return kernels.placed_sums  # type: ignore[no-any-return]
+
+
+_NO_CENTROID = np.empty((3, 0))
+_NO_PRODUCT = np.empty(0)
+
+
+def _compiled_block(fn: Callable[..., tuple[FloatArray, int]], start: int, rho: FloatArray, volume: FloatArray,
+                    centroid: FloatArray | None, diag: FloatArray, pxy: FloatArray | None, r: FloatArray,
+                    t: FloatArray, validate: bool) -> tuple[float, FloatArray, FloatArray]:
+    """One block through the compiled kernel: mass, CG and tensor about the CG."""
+    r = np.ascontiguousarray(r)
+    ref = np.empty(3)
+    sums, bad = fn(np.ascontiguousarray(rho), volume, _NO_CENTROID if centroid is None else centroid, diag,
+                   _NO_PRODUCT if pxy is None else pxy, r, np.ascontiguousarray(t), ref, validate, ORTHOGONALITY_TOL)
+    if bad:
+        _check_orthogonal(_columns(r), start)  # raises naming the part (the same test as the kernel's)
+        raise AssertionError(f"the compiled kernel refused {bad} rotations from part {start}, the numpy check none")
+    return sums_to_properties(sums, ref)
+
+
+def sums_to_properties(sums: FloatArray, ref: FloatArray) -> tuple[float, FloatArray, FloatArray]:
+    """Mass, CG and tensor about the CG from the sums of :func:`massmodel.core.kernels.placed_sums`.
+
+    Parameters
+    ----------
+    sums : (16,) float
+        ``W`` (kg), ``F = Σ m d`` (kg·m), ``S = Σ m d dᵀ`` and ``J = Σ R J Rᵀ`` (kg·m², entries xx, yy, zz, xy, xz,
+        yz), with ``d`` the CGs relative to ``ref``.
+    ref : (3,) float
+        m.
+
+    Returns
+    -------
+    mass : float
+        kg.
+    center : (3,) float
+        m (``ref`` when the mass is zero).
+    inertia : (3, 3) float
+        kg·m² about the CG: ``J + tr(S_G) E − S_G`` with ``S_G = S − W δ δᵀ``, ``δ = F / W`` (parallel-axis theorem,
+        Goldstein et al. (2002) §5.3).
+    """
+    w = float(sums[0])
+    s = _symmetric(sums[4:10])
+    j = _symmetric(sums[10:16])
+    if w == 0.0:
+        return 0.0, np.array(ref, dtype=float), j
+    delta = sums[1:4] / w
+    s -= w * np.outer(delta, delta)
+    inertia = j + np.trace(s) * np.eye(3) - s
+    return w, ref + delta, inertia
+
+
+def _symmetric(e: FloatArray) -> FloatArray:
+    """(3, 3) from the entries xx, yy, zz, xy, xz, yz."""
+    xx, yy, zz, xy, xz, yz = (float(x) for x in e)
+    return np.array([[xx, xy, xz], [xy, yy, yz], [xz, yz, zz]])
 
 
 @dataclass(frozen=True, slots=True)
@@ -414,10 +525,59 @@ class Batch:
     translations: FloatArray
 
 
-def aggregate_batches(batches: Iterable[Batch], *, validate: bool = True) -> MassProperties:
-    """Combined mass properties of several batches (e.g. one per kind), with :func:`combine_arrays`."""
-    parts = [aggregate(b.kind, b.dims, b.densities, b.rotations, b.translations, validate=validate) for b in batches]
+def aggregate_batches(batches: Iterable[Batch], *, validate: bool = True, kernel: str = "auto") -> MassProperties:
+    """Combined mass properties of several batches (e.g. one per kind), with :func:`combine_arrays`.
+
+    ``kernel="auto"`` decides once for the total number of parts (see :func:`kernel_for`)."""
+    items = list(batches)
+    chosen = kernel_for(sum(len(b.densities) for b in items), kernel)
+    parts = [aggregate(b.kind, b.dims, b.densities, b.rotations, b.translations, validate=validate, kernel=chosen)
+             for b in items]
     if not parts:
         return MassProperties.zero()
     return MassProperties(*combine_arrays(np.array([p.mass for p in parts]), np.array([p.center for p in parts]),
                                           np.array([p.inertia for p in parts])))
+
+
+def place(centers: FloatArray, tensors: FloatArray, rotations: FloatArray,
+          translations: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """Per-part properties moved actively into the model frame (the model's engine, see :class:`massmodel.core.model.Model`).
+
+    Parameters
+    ----------
+    centers : (N, 3) float
+        CGs in the part frames, m.
+    tensors : (N, 3, 3) float
+        Tensors about the CGs, part axes, kg·m² (tensor convention).
+    rotations : (N, 3, 3) float
+        Orthogonal, part axes → model axes (checked by the caller: :class:`massmodel.core.frames.Pose`).
+    translations : (N, 3) float
+        m.
+
+    Returns
+    -------
+    centers : (N, 3) float
+        ``R c + t``, m, model frame.
+    tensors : (N, 3, 3) float
+        ``R I Rᵀ`` (symmetrised), kg·m², model axes (Goldstein et al. (2002) §5.3).
+    """
+    moved = np.matmul(rotations, centers[:, :, None])[:, :, 0]
+    moved += translations
+    rotated = np.matmul(np.matmul(rotations, tensors), rotations.transpose(0, 2, 1))
+    rotated += rotated.transpose(0, 2, 1)
+    rotated *= 0.5
+    return moved, rotated
+
+
+def rollup(masses: FloatArray, centers: FloatArray, tensors: FloatArray) -> MassProperties:
+    """Combined properties of N parts given in one frame (:func:`massmodel.core.massprops.combine_arrays`; a few
+    numpy passes, so no compiled kernel is needed here: see docs/engine.md)."""
+    if len(masses) == 0:
+        return MassProperties.zero()
+    return MassProperties(*combine_arrays(masses, centers, tensors))
+
+
+def rollup_groups(masses: FloatArray, centers: FloatArray, tensors: FloatArray,
+                  members: Sequence[npt.NDArray[np.intp]]) -> list[MassProperties]:
+    """:func:`rollup` of each subset of parts (index arrays into the part arrays), in order."""
+    return [rollup(masses[idx], centers[idx], tensors[idx]) for idx in members]

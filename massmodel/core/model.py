@@ -9,6 +9,7 @@ which the loader checks).
 from __future__ import annotations
 
 import enum
+import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -17,8 +18,10 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import numpy.typing as npt
 
+from . import batch
 from .frames import Pose
-from .massprops import MassProperties, combine_arrays, parallel_axis_shift, validate_inertia
+from .massprops import InertiaError, MassProperties, parallel_axis_shift, validate_inertia
+from .shapes import SHAPE_KINDS
 
 if TYPE_CHECKING:
     from .loadcases import LoadCase
@@ -35,11 +38,13 @@ __all__ = [
     "Vehicle",
     "Model",
     "net_geometry",
+    "part_arrays",
     "group_of",
     "in_group",
 ]
 
 FloatArray = npt.NDArray[np.float64]
+_SHAPE_CLASSES = dict(SHAPE_KINDS)
 
 
 class Maturity(enum.Enum):
@@ -103,6 +108,83 @@ def net_geometry(shape: Any, cutouts: Sequence[Cutout] = ()) -> tuple[float, Flo
     return volume, centroid, 0.5 * (inertia + inertia.T)
 
 
+def part_arrays(components: Sequence[Component]) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """(masses (N,), CGs (N, 3), tensors (N, 3, 3)) of components in the model frame, by the vectorised engine.
+
+    Plain primitives are grouped by kind and evaluated with the array closed forms of
+    :func:`massmodel.core.batch.unit_properties` (each distinct shape object once: mirrored and patterned copies
+    share theirs); parts with cut-outs, extrusions, point masses and imported shapes take their net geometry from
+    :func:`net_geometry`. The mass source then scales each part (density, or mass / volume; a measured CG and
+    tensor replace the shape's), and :func:`massmodel.core.batch.place` moves all parts into the model frame at
+    once. Agrees with ``Component.props`` part by part to round-off (``tests/test_engine.py``).
+
+    Returns
+    -------
+    masses : (N,) float
+        kg.
+    centers : (N, 3) float
+        m, model frame.
+    tensors : (N, 3, 3) float
+        kg·m² about each part's CG, model axes, tensor convention.
+    """
+    n = len(components)
+    if n == 0:
+        return np.zeros(0), np.zeros((0, 3)), np.zeros((0, 3, 3))
+    volume = np.empty(n)
+    centroid = np.zeros((n, 3))
+    unit = np.zeros((n, 3, 3))
+    by_kind: dict[str, dict[int, tuple[list[int], tuple[float, ...]]]] = {}
+    direct: list[int] = []
+    for i, c in enumerate(components):
+        shape = c.shape
+        kind = getattr(shape, "kind", None)
+        if c.cutouts or kind not in batch.BATCH_KINDS or type(shape) is not _SHAPE_CLASSES.get(kind):
+            direct.append(i)
+            continue
+        entry = by_kind.setdefault(kind, {}).get(id(shape))
+        if entry is None:
+            by_kind[kind][id(shape)] = ([i], tuple(getattr(shape, f) for f in batch.BATCH_KINDS[kind]))
+        else:
+            entry[0].append(i)
+    for kind, shapes in by_kind.items():
+        rows = list(shapes.values())
+        props = batch.unit_properties(kind, np.array([dims for _, dims in rows]))
+        owner = np.concatenate([np.full(len(idx), k) for k, (idx, _) in enumerate(rows)])
+        at = np.concatenate([np.asarray(idx) for idx, _ in rows])
+        volume[at] = props.volume[owner]
+        if props.centroid is not None:
+            centroid[at] = props.centroid[owner]
+        unit[at] = props.tensors()[owner]
+    for i in direct:
+        c = components[i]
+        volume[i], centroid[i], unit[i] = net_geometry(c.shape, c.cutouts)
+    # the mass source: scale of the unit tensor (kg/m^3), mass, and measured CG/tensor where given
+    scale = np.empty(n)
+    masses = np.empty(n)
+    measured: list[tuple[int, Component]] = []
+    for i, c in enumerate(components):
+        if c.source is MassSource.MATERIAL or c.source is MassSource.DENSITY:
+            scale[i] = c.density
+            masses[i] = np.nan  # density x volume below
+        else:
+            v = volume[i]
+            scale[i] = c.mass / v if v > 0.0 else 0.0
+            masses[i] = c.mass
+            if c.source is MassSource.MEASURED:
+                measured.append((i, c))
+    by_density = np.isnan(masses)
+    masses[by_density] = scale[by_density] * volume[by_density]
+    tensors = unit * scale[:, None, None]
+    for i, c in measured:
+        local = c.props_local  # validated when the part was made
+        centroid[i] = local.center
+        tensors[i] = local.inertia
+    rotations = np.array([c.pose.linear for c in components], dtype=float).reshape(n, 3, 3)
+    translations = np.array([c.pose.translation for c in components], dtype=float).reshape(n, 3)
+    centers, inertias = batch.place(centroid, tensors, rotations, translations)
+    return masses, centers, inertias
+
+
 @dataclass(frozen=True, slots=True, eq=False)
 class Component:
     """One part of the model.
@@ -158,11 +240,18 @@ class Component:
     note: str = ""
     origin: str = ""
     volume: float = field(init=False)
-    props: MassProperties = field(init=False)
-    props_local: MassProperties = field(init=False)
+    _props_local: MassProperties | None = field(init=False, default=None, repr=False)
+    _props: MassProperties | None = field(init=False, default=None, repr=False)
 
     def __post_init__(self) -> None:
-        volume, centroid, unit = net_geometry(self.shape, self.cutouts)
+        # Everything a part can get wrong is checked here; the part-frame properties of a plain primitive (no
+        # cut-outs, not measured) are made only when asked for (``props_local``, ``props``): a model takes its
+        # roll-ups from the vectorised engine (Model.arrays), so a large model builds no per-part objects for them.
+        eager = bool(self.cutouts) or self.source is MassSource.MEASURED
+        if eager:
+            volume, centroid, unit = net_geometry(self.shape, self.cutouts)
+        else:
+            volume = float(self.shape.volume())
         object.__setattr__(self, "volume", volume)
         where = self.origin or f"component '{self.path}'"
         if self.source in (MassSource.MATERIAL, MassSource.DENSITY):
@@ -170,23 +259,56 @@ class Component:
                 raise ValueError(f"{where}: a density source needs a positive density")
             if volume <= 0.0:
                 raise ValueError(f"{where}: the shape has no volume, so density cannot give a mass")
-            local = self._local(self.density * volume, centroid, self.density * unit)
+            mass = self.density * volume
         elif self.source is MassSource.MASS:
             if self.mass is None or not self.mass > 0.0:
                 raise ValueError(f"{where}: field 'mass' must be a positive mass")
-            scale = self.mass / volume if volume > 0.0 else 0.0
-            local = self._local(self.mass, centroid, scale * unit)
+            mass = self.mass
+        elif self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
+            raise ValueError(f"{where}: measured properties need a positive mass and a CG")
         else:
-            if self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
-                raise ValueError(f"{where}: measured properties need a positive mass and a CG")
-            if self.measured_inertia is not None:
-                tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
-                local = MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
-            else:
-                tensor = (self.mass / volume) * unit if volume > 0.0 else np.zeros((3, 3))
-                local = self._local(self.mass, self.measured_cg, tensor)
-        object.__setattr__(self, "props_local", local)
-        object.__setattr__(self, "props", MassProperties._moved(local, self.pose.linear, self.pose.translation))
+            mass = self.mass
+        if not math.isfinite(mass):
+            raise InertiaError(f"mass must be finite and >= 0 kg, got {mass!r}")
+        if eager:
+            object.__setattr__(self, "_props_local", self._make_local(volume, centroid, unit))
+
+    def _make_local(self, volume: float, centroid: FloatArray, unit: FloatArray) -> MassProperties:
+        """Part-frame properties from the net geometry (volume m³, centroid m, tensor per density m⁵)."""
+        where = self.origin or f"component '{self.path}'"
+        if self.source in (MassSource.MATERIAL, MassSource.DENSITY):
+            assert self.density is not None
+            return self._local(self.density * volume, centroid, self.density * unit)
+        assert self.mass is not None
+        if self.source is MassSource.MASS:
+            scale = self.mass / volume if volume > 0.0 else 0.0
+            return self._local(self.mass, centroid, scale * unit)
+        if self.measured_inertia is not None:
+            tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
+            return MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
+        tensor = (self.mass / volume) * unit if volume > 0.0 else np.zeros((3, 3))
+        return self._local(self.mass, self.measured_cg, tensor)
+
+    @property
+    def props_local(self) -> MassProperties:
+        """Mass properties in the part frame (CG m, tensor kg·m² about it, part axes), made on first use."""
+        local = self._props_local
+        if local is None:
+            local = self._make_local(*net_geometry(self.shape, self.cutouts))
+            object.__setattr__(self, "_props_local", local)
+        return local
+
+    @property
+    def props(self) -> MassProperties:
+        """Mass properties in the model frame (``props_local`` moved by ``pose``), made on first use.
+
+        For one part; a model's roll-ups and per-part arrays come from the vectorised engine (:meth:`Model.arrays`).
+        """
+        placed = self._props
+        if placed is None:
+            placed = MassProperties._moved(self.props_local, self.pose.linear, self.pose.translation)
+            object.__setattr__(self, "_props", placed)
+        return placed
 
     def _local(self, mass: float, center: Any, tensor: FloatArray) -> MassProperties:
         """Part-frame properties from the shape's closed form: a primitive with valid sizes has a physical tensor,
@@ -469,40 +591,72 @@ class Model:
     def arrays(self, components: Sequence[Component] | None = None) -> tuple[FloatArray, FloatArray, FloatArray]:
         """(masses (N,), centres (N, 3), tensors (N, 3, 3)) of components in the model frame.
 
-        For all components (the default) the arrays are made once and kept; callers get copies.
+        For all components (the default) the arrays come from the vectorised engine (:func:`part_arrays`), made
+        once and kept; callers get copies. Components of this model are taken from those arrays; others (a part
+        built elsewhere) from their own ``props``.
         """
         if components is None:
             return tuple(a.copy() for a in self._all_arrays())  # type: ignore[return-value]
-        comps = components
-        n = len(comps)
-        masses = np.empty(n)
-        centers = np.empty((n, 3))
-        inertias = np.empty((n, 3, 3))
-        for i, c in enumerate(comps):
-            masses[i] = c.props.mass
-            centers[i] = c.props.center
-            inertias[i] = c.props.inertia
-        return masses, centers, inertias
+        masses, centers, inertias = self._all_arrays()
+        mine = [self._index.get(c.path) for c in components]
+        if all(i is not None and self.components[i] is c for i, c in zip(mine, components, strict=True)):
+            idx = np.array(mine, dtype=np.intp)
+            return masses[idx], centers[idx], inertias[idx]
+        return (np.array([c.props.mass for c in components], dtype=float).reshape(-1),
+                np.array([c.props.center for c in components], dtype=float).reshape(-1, 3),
+                np.array([c.props.inertia for c in components], dtype=float).reshape(-1, 3, 3))
 
     def _all_arrays(self) -> tuple[FloatArray, FloatArray, FloatArray]:
         """:meth:`arrays` of every component, made once (read-only; the model is immutable)."""
         if self._stacked is None:
-            stacked = self.arrays(self.components)
+            stacked = part_arrays(self.components)
             for a in stacked:
                 a.setflags(write=False)
             object.__setattr__(self, "_stacked", stacked)
         assert self._stacked is not None
         return self._stacked
 
+    def _indices(self, include: Iterable[str] = ("",), exclude: Iterable[str] = ()) -> npt.NDArray[np.intp]:
+        """Indices of the components :meth:`select` picks."""
+        inc, exc = list(include), list(exclude)
+        return np.array([
+            i for i, c in enumerate(self.components)
+            if any(in_group(c.path, g) for g in inc) and not any(in_group(c.path, g) for g in exc)
+        ], dtype=np.intp)
+
     def mass_properties(self, include: Iterable[str] = ("",), exclude: Iterable[str] = ()) -> MassProperties:
-        """Combined mass properties of the selected components (model frame, about their CG)."""
+        """Combined mass properties of the selected components (model frame, about their CG), from the vectorised
+        engine (:func:`massmodel.core.batch.rollup`)."""
         inc, exc = tuple(include), tuple(exclude)
+        masses, centers, inertias = self._all_arrays()
         if "" in inc and not exc:  # the whole model
-            return MassProperties.zero() if not self.components else MassProperties(*combine_arrays(*self._all_arrays()))
-        comps = self.select(inc, exc)
-        if not comps:
-            return MassProperties.zero()
-        return MassProperties(*combine_arrays(*self.arrays(comps)))
+            return batch.rollup(masses, centers, inertias)
+        idx = self._indices(inc, exc)
+        return batch.rollup(masses[idx], centers[idx], inertias[idx])
+
+    def group_members(self) -> dict[str, npt.NDArray[np.intp]]:
+        """Every group path (sorted) with the indices of its parts (a part lies in every proper prefix of its path).
+
+        Parts are first gathered by their parent path (one dictionary step per part), then each parent's list is
+        handed to the parent and its ancestors: the cost grows with the parts plus the groups times their depth.
+        """
+        by_parent: dict[str, list[int]] = {}
+        for i, c in enumerate(self.components):
+            by_parent.setdefault(c.path.rpartition("/")[0], []).append(i)
+        lists: dict[str, list[list[int]]] = {}
+        for parent, idx in by_parent.items():
+            group = parent
+            while group:
+                lists.setdefault(group, []).append(idx)
+                group = group.rpartition("/")[0]
+        return {g: np.sort(np.concatenate([np.asarray(x, dtype=np.intp) for x in lists[g]])) for g in sorted(lists)}
+
+    def group_properties(self) -> list[tuple[str, int, MassProperties]]:
+        """(group path, number of parts, combined properties) of every group, sorted by path (vectorised engine:
+        :func:`massmodel.core.batch.rollup_groups`)."""
+        members = self.group_members()
+        props = batch.rollup_groups(*self._all_arrays(), list(members.values()))
+        return [(g, len(idx), mp) for (g, idx), mp in zip(members.items(), props, strict=True)]
 
     def with_components(self, components: Sequence[Component], name: str | None = None) -> Model:
         """A copy of the model with another component list (and optionally another name)."""
