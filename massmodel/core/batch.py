@@ -98,11 +98,17 @@ class UnitProperties:
 
 
 def _taper(r0: FloatArray, r1: FloatArray, n: int, m: int) -> FloatArray:
-    """∫₀¹ tᵐ r(t)ⁿ dt for r(t) = r0 (1 − t) + r1 t, exactly (Bernstein form, as :mod:`massmodel.core.shapes`)."""
+    """∫₀¹ tᵐ r(t)ⁿ dt for r(t) = r0 (1 − t) + r1 t, exactly (Bernstein form, as :mod:`massmodel.core.shapes`):
+    ``Σᵢ C(n, i) r0ⁿ⁻ⁱ r1ⁱ (m + i)! (n − i)! / (n + m + 1)!``, the powers by repeated products."""
+    p0 = [np.ones_like(r0), r0]
+    p1 = [np.ones_like(r1), r1]
+    for _ in range(2, n + 1):
+        p0.append(p0[-1] * r0)
+        p1.append(p1[-1] * r1)
     total = np.zeros_like(r0)
     for i in range(n + 1):
-        total += math.comb(n, i) * r0 ** (n - i) * r1**i * (math.factorial(m + i) * math.factorial(n - i)
-                                                             / math.factorial(n + m + 1))
+        total += (math.comb(n, i) * math.factorial(m + i) * math.factorial(n - i) / math.factorial(n + m + 1)) \
+            * (p0[n - i] * p1[i])
     return total
 
 
@@ -161,17 +167,18 @@ def _unit_columns(kind: str, cols: FloatArray) -> tuple[FloatArray, FloatArray |
         diag = np.array([trans, trans, v * r2 / 2.0])
     elif kind == "sphere":
         (r,) = cols
-        v = 4.0 / 3.0 * pi * r**3
+        v = 4.0 / 3.0 * pi * (r * r * r)
         moment = 0.4 * v * r * r
         diag = np.array([moment, moment, moment])
     elif kind == "spherical_shell":
         ro, ri = cols
-        v = 4.0 / 3.0 * pi * (ro**3 - ri**3)
-        moment = 8.0 * pi / 15.0 * (ro**5 - ri**5)
+        ro3, ri3 = ro * ro * ro, ri * ri * ri  # products: numpy's power is slow for exponents other than 2
+        v = 4.0 / 3.0 * pi * (ro3 - ri3)
+        moment = 8.0 * pi / 15.0 * (ro3 * ro * ro - ri3 * ri * ri)
         diag = np.array([moment, moment, moment])
     elif kind == "hemisphere":
         (r,) = cols
-        v = 2.0 / 3.0 * pi * r**3
+        v = 2.0 / 3.0 * pi * (r * r * r)
         r2 = r * r
         trans = 83.0 / 320.0 * v * r2
         diag = np.array([trans, trans, 0.4 * v * r2])

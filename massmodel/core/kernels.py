@@ -48,7 +48,8 @@ def placed_sums(rho, volume, centroid, diag, pxy, rotations, translations, ref, 
     pxy : (n,) float
         xy product per density (tensor convention), m⁵; shape (0,) when zero for the kind.
     rotations : (n, 3, 3) float
-        Part axes → model axes (orthogonal).
+        Part axes → model axes, orthogonal (the tensor is rotated with ``R Rᵀ = E``, so a matrix that is not
+        orthogonal gives a wrong tensor when ``check`` is off, as in the numpy path).
     translations : (n, 3) float
         m.
     ref : (3,) float
@@ -77,7 +78,7 @@ def placed_sums(rho, volume, centroid, diag, pxy, rotations, translations, ref, 
     w = 0.0
     f0 = f1 = f2 = 0.0
     s00 = s11 = s22 = s01 = s02 = s12 = 0.0
-    j00 = j11 = j22 = j01 = j02 = j12 = 0.0
+    j00 = j11 = j22 = j01 = j02 = j12 = jd = 0.0
     bad = 0
     for k in range(n):
         r = rotations[k]
@@ -113,14 +114,18 @@ def placed_sums(rho, volume, centroid, diag, pxy, rotations, translations, ref, 
         s01 += mx0 * x1
         s02 += mx0 * x2
         s12 += mx1 * x2
-        d0, d1, d2 = rho[k] * diag[0, k], rho[k] * diag[1, k], rho[k] * diag[2, k]
-        # (R J R^T)_ij = sum_k d_k R_ik R_jk (+ p (R_i0 R_j1 + R_i1 R_j0) for the xy product)
-        j00 += d0 * a0 * a0 + d1 * a1 * a1 + d2 * a2 * a2
-        j11 += d0 * b0 * b0 + d1 * b1 * b1 + d2 * b2 * b2
-        j22 += d0 * c0 * c0 + d1 * c1 * c1 + d2 * c2 * c2
-        j01 += d0 * a0 * b0 + d1 * a1 * b1 + d2 * a2 * b2
-        j02 += d0 * a0 * c0 + d1 * a1 * c1 + d2 * a2 * c2
-        j12 += d0 * b0 * c0 + d1 * b1 * c1 + d2 * b2 * c2
+        # R diag(d) R^T = d_x E + (d_y - d_x) r_y r_y^T + (d_z - d_x) r_z r_z^T with r_k the columns of the
+        # orthogonal R (as the numpy path's _rotated_sum); d_x E is summed once, in jd
+        d0 = rho[k] * diag[0, k]
+        e1 = rho[k] * diag[1, k] - d0
+        e2 = rho[k] * diag[2, k] - d0
+        jd += d0
+        j00 += e1 * a1 * a1 + e2 * a2 * a2
+        j11 += e1 * b1 * b1 + e2 * b2 * b2
+        j22 += e1 * c1 * c1 + e2 * c2 * c2
+        j01 += e1 * a1 * b1 + e2 * a2 * b2
+        j02 += e1 * a1 * c1 + e2 * a2 * c2
+        j12 += e1 * b1 * c1 + e2 * b2 * c2
         if has_p:
             p = rho[k] * pxy[k]
             j00 += 2.0 * p * a0 * a1
@@ -133,5 +138,5 @@ def placed_sums(rho, volume, centroid, diag, pxy, rotations, translations, ref, 
     sums[0] = w
     sums[1], sums[2], sums[3] = f0, f1, f2
     sums[4], sums[5], sums[6], sums[7], sums[8], sums[9] = s00, s11, s22, s01, s02, s12
-    sums[10], sums[11], sums[12], sums[13], sums[14], sums[15] = j00, j11, j22, j01, j02, j12
+    sums[10], sums[11], sums[12], sums[13], sums[14], sums[15] = j00 + jd, j11 + jd, j22 + jd, j01, j02, j12
     return sums, bad

@@ -133,7 +133,9 @@ def part_arrays(components: Sequence[Component]) -> tuple[FloatArray, FloatArray
     volume = np.empty(n)
     centroid = np.zeros((n, 3))
     unit = np.zeros((n, 3, 3))
-    by_kind: dict[str, dict[int, tuple[list[int], tuple[float, ...]]]] = {}
+    # per batch kind: the parts, the row of each part's shape, the rows (dimensions of each distinct shape)
+    kinds: dict[str, tuple[list[int], list[int], list[tuple[float, ...]]]] = {}
+    row_of: dict[int, int] = {}
     direct: list[int] = []
     for i, c in enumerate(components):
         shape = c.shape
@@ -141,16 +143,17 @@ def part_arrays(components: Sequence[Component]) -> tuple[FloatArray, FloatArray
         if c.cutouts or kind not in batch.BATCH_KINDS or type(shape) is not _SHAPE_CLASSES.get(kind):
             direct.append(i)
             continue
-        entry = by_kind.setdefault(kind, {}).get(id(shape))
-        if entry is None:
-            by_kind[kind][id(shape)] = ([i], tuple(getattr(shape, f) for f in batch.BATCH_KINDS[kind]))
-        else:
-            entry[0].append(i)
-    for kind, shapes in by_kind.items():
-        rows = list(shapes.values())
-        props = batch.unit_properties(kind, np.array([dims for _, dims in rows]))
-        owner = np.concatenate([np.full(len(idx), k) for k, (idx, _) in enumerate(rows)])
-        at = np.concatenate([np.asarray(idx) for idx, _ in rows])
+        parts, owners, rows = kinds.setdefault(kind, ([], [], []))
+        row = row_of.get(id(shape))
+        if row is None:
+            row = row_of[id(shape)] = len(rows)
+            rows.append(tuple([getattr(shape, f) for f in batch.BATCH_KINDS[kind]]))
+        parts.append(i)
+        owners.append(row)
+    for kind, (parts, owners, rows) in kinds.items():
+        props = batch.unit_properties(kind, np.array(rows))
+        at = np.array(parts, dtype=np.intp)
+        owner = np.array(owners, dtype=np.intp)
         volume[at] = props.volume[owner]
         if props.centroid is not None:
             centroid[at] = props.centroid[owner]
@@ -158,27 +161,20 @@ def part_arrays(components: Sequence[Component]) -> tuple[FloatArray, FloatArray
     for i in direct:
         c = components[i]
         volume[i], centroid[i], unit[i] = net_geometry(c.shape, c.cutouts)
-    # the mass source: scale of the unit tensor (kg/m^3), mass, and measured CG/tensor where given
-    scale = np.empty(n)
-    masses = np.empty(n)
-    measured: list[tuple[int, Component]] = []
-    for i, c in enumerate(components):
-        if c.source is MassSource.MATERIAL or c.source is MassSource.DENSITY:
-            scale[i] = c.density
-            masses[i] = np.nan  # density x volume below
-        else:
-            v = volume[i]
-            scale[i] = c.mass / v if v > 0.0 else 0.0
-            masses[i] = c.mass
-            if c.source is MassSource.MEASURED:
-                measured.append((i, c))
-    by_density = np.isnan(masses)
-    masses[by_density] = scale[by_density] * volume[by_density]
+    # the mass source: density x volume, or a given mass (with the shape's tensor scaled to it, mass / volume)
+    by_density = np.array([c.source is MassSource.MATERIAL or c.source is MassSource.DENSITY for c in components])
+    given = np.array([c.density if d else c.mass for c, d in zip(components, by_density.tolist(), strict=True)],
+                     dtype=float)
+    solid = volume > 0.0
+    per_volume = np.divide(given, volume, out=np.zeros(n), where=solid & ~by_density)
+    scale = np.where(by_density, given, per_volume)
+    masses = np.where(by_density, given * volume, given)
     tensors = unit * scale[:, None, None]
-    for i, c in measured:
-        local = c.props_local  # validated when the part was made
-        centroid[i] = local.center
-        tensors[i] = local.inertia
+    for i, c in enumerate(components):
+        if c.source is MassSource.MEASURED:  # the measured CG and tensor, validated when the part was made
+            local = c.props_local
+            centroid[i] = local.center
+            tensors[i] = local.inertia
     rotations = np.array([c.pose.linear for c in components], dtype=float).reshape(n, 3, 3)
     translations = np.array([c.pose.translation for c in components], dtype=float).reshape(n, 3)
     centers, inertias = batch.place(centroid, tensors, rotations, translations)
