@@ -239,16 +239,32 @@ def test_the_numba_kernel_names_a_bad_rotation_like_numpy(rng, bad: int) -> None
 
 @needs_numba
 def test_kernel_choice() -> None:
-    assert batch.kernel_for(10, "auto") == "numpy"
+    batch.kernel_for(1, "numba")  # loads the compiled kernel, after which "auto" uses it from NUMBA_MIN_PARTS
+    assert batch.kernel_for(batch.NUMBA_MIN_PARTS - 1, "auto") == "numpy"
     assert batch.kernel_for(batch.NUMBA_MIN_PARTS, "auto") == "numba"
-    assert batch.kernel_for(10, "numba") == "numba"
+    assert batch.kernel_for(10, "numpy") == "numpy"
     with pytest.raises(batch.BatchError, match="kernel must be one of auto, numpy, numba"):
         batch.kernel_for(10, "fortran")
 
 
-def test_numba_is_not_imported_by_the_core_or_a_small_aggregate() -> None:
+def test_the_compiled_loop_runs_as_plain_python(rng) -> None:
+    """The kernel's source, run by the interpreter, gives the numpy path's result (the compiled code is that
+    source)."""
+    for b in random_batches(rng, 5):
+        ref = np.empty(3)
+        sums, bad = batch._placed_sums_loop(batch.KIND_IDS[b.kind], b.dims, b.densities, b.rotations,
+                                            b.translations, ref, True, batch.ORTHOGONALITY_TOL)
+        assert bad == 0
+        got = MassProperties(*batch.sums_to_properties(sums, ref))
+        assert_props_close(got, batch.aggregate(b.kind, b.dims, b.densities, b.rotations, b.translations,
+                                                kernel="numpy"), 1e-12)
+
+
+def test_numba_is_not_imported_by_the_core_or_an_aggregate_that_would_not_repay_it() -> None:
+    n = 200_000
     script = ("import sys, numpy as np, massmodel\nfrom massmodel.core import batch\n"
-              "batch.aggregate('box', np.ones((10, 3)), np.ones(10), np.tile(np.eye(3), (10, 1, 1)), np.zeros((10, 3)))\n"
+              f"batch.aggregate('box', np.ones(({n}, 3)), np.ones({n}), np.tile(np.eye(3), ({n}, 1, 1)), "
+              f"np.zeros(({n}, 3)))\n"
               "print('numba' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", script], cwd=REPO, env={**os.environ, "PYTHONPATH": str(REPO)},
                          capture_output=True, text=True, timeout=120, check=True)
