@@ -709,11 +709,18 @@ def place(centers: FloatArray, tensors: FloatArray, rotations: FloatArray,
     tensors : (N, 3, 3) float
         ``R I Rᵀ`` (symmetrised), kg·m², model axes (Goldstein et al. (2002) §5.3).
     """
-    moved = np.matmul(rotations, centers[:, :, None])[:, :, 0]
-    moved += translations
-    rotated = np.matmul(np.matmul(rotations, tensors), rotations.transpose(0, 2, 1))
-    rotated += rotated.transpose(0, 2, 1)
-    rotated *= 0.5
+    n = len(centers)
+    moved = np.empty((n, 3))
+    rotated = np.empty((n, 3, 3))
+    for start in range(0, n, BLOCK):  # in blocks: the temporaries stay small (memory), the block in cache
+        stop = min(n, start + BLOCK)
+        r = rotations[start:stop]
+        np.matmul(r, centers[start:stop, :, None], out=moved[start:stop, :, None])
+        moved[start:stop] += translations[start:stop]
+        out = rotated[start:stop]
+        np.matmul(np.matmul(r, tensors[start:stop]), r.transpose(0, 2, 1), out=out)
+        out += out.transpose(0, 2, 1).copy()
+        out *= 0.5
     return moved, rotated
 
 

@@ -169,7 +169,8 @@ def part_arrays(components: Sequence[Component]) -> tuple[FloatArray, FloatArray
     per_volume = np.divide(given, volume, out=np.zeros(n), where=solid & ~by_density)
     scale = np.where(by_density, given, per_volume)
     masses = np.where(by_density, given * volume, given)
-    tensors = unit * scale[:, None, None]
+    unit *= scale[:, None, None]
+    tensors = unit  # now per part, kg*m^2
     for i, c in enumerate(components):
         if c.source is MassSource.MEASURED:  # the measured CG and tensor, validated when the part was made
             local = c.props_local
