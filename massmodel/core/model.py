@@ -280,6 +280,7 @@ class Component:
         if self.source is MassSource.MASS:
             scale = self.mass / volume if volume > 0.0 else 0.0
             return self._local(self.mass, centroid, scale * unit)
+        assert self.measured_cg is not None  # checked in __post_init__
         if self.measured_inertia is not None:
             tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
             return MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
