@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 from conftest import assert_close, assert_props_close, random_rotations
-from massmodel.core import batch
+from massmodel.core import batch, closed_forms
 from massmodel.core.frames import Pose, RotationKind, reflection_across_plane, rotation_from_sequence
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, Cutout, MassSource, Maturity, Model, in_group
@@ -252,7 +252,7 @@ def test_the_compiled_loop_runs_as_plain_python(rng) -> None:
     source)."""
     for b in random_batches(rng, 5):
         ref = np.empty(3)
-        sums, bad = batch._placed_sums_loop(batch.KIND_IDS[b.kind], b.dims, b.densities, b.rotations,
+        sums, bad = closed_forms.placed_sums_loop(batch.KIND_IDS[b.kind], b.dims, b.densities, b.rotations,
                                             b.translations, ref, True, batch.ORTHOGONALITY_TOL)
         assert bad == 0
         got = MassProperties(*batch.sums_to_properties(sums, ref))
