@@ -58,7 +58,7 @@ ORTHOGONALITY_TOL = 1e-9
 #: :mod:`massmodel.core.kernels`), "auto" (see :func:`kernel_for`).
 KERNELS = ("auto", "numpy", "numba")
 #: "auto" loads the compiled kernel for a batch of at least this many parts: loading numba and the cached machine
-#: code costs about 1 s once per process (measured: import 0.35 s, first call 0.7 s), the kernel saves about 35 ns
+#: code costs about 1 s once per process (measured: import 0.3 s, first call 0.7 s), the kernel saves about 35 ns
 #: a part (docs/engine.md), so it repays its load from about 3e7 parts.
 NUMBA_LOAD_PARTS = 30_000_000
 #: Once the compiled kernel is loaded in the process (by a large batch or an explicit kernel="numba"), "auto" uses
