@@ -221,7 +221,7 @@ class _Reader:
         """``at`` and ``rotate`` of a table (field names in errors start with ``prefix``, e.g. ``cut[0].``)."""
         # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
         at = self.vector(table["at"], "length", item, prefix + "at") if "at" in table else np.zeros(3)
-        linear = Pose.identity().linear  # shared and read-only: a pose without rotation keeps no matrix of its own
+        linear = np.eye(3)
         if "rotate" in table:
             rot = table["rotate"]
             if not isinstance(rot, dict):
