@@ -25,6 +25,18 @@ def assert_props_close(actual, expected, rtol: float = 1e-9) -> None:
     assert_close(actual.inertia, expected.inertia, rtol, "inertia")
 
 
+def random_rotations(rng: np.random.Generator, n: int) -> np.ndarray:
+    """Uniform random rotations (unit quaternions), about 40 % of them turned into reflections."""
+    q = rng.normal(size=(n, 4))
+    q /= np.linalg.norm(q, axis=1)[:, None]
+    w, x, y, z = q.T
+    r = np.array([[1 - 2 * (y * y + z * z), 2 * (x * y - z * w), 2 * (x * z + y * w)],
+                  [2 * (x * y + z * w), 1 - 2 * (x * x + z * z), 2 * (y * z - x * w)],
+                  [2 * (x * z - y * w), 2 * (y * z + x * w), 1 - 2 * (x * x + y * y)]]).transpose(2, 0, 1)
+    r[rng.random(n) < 0.4, 1, :] *= -1.0  # mirrored copies (det -1)
+    return r
+
+
 @pytest.fixture
 def rng():
     return np.random.default_rng(20261201)

@@ -6,22 +6,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from conftest import assert_close, assert_props_close
+from conftest import assert_close, assert_props_close, random_rotations
 from massmodel.core import batch
 from massmodel.core.frames import Pose
 from massmodel.core.model import Component, MassSource, Maturity, Model
 from massmodel.core.shapes import SHAPE_KINDS
-
-
-def random_rotations(rng: np.random.Generator, n: int) -> np.ndarray:
-    q = rng.normal(size=(n, 4))
-    q /= np.linalg.norm(q, axis=1)[:, None]
-    w, x, y, z = q.T
-    r = np.array([[1 - 2 * (y * y + z * z), 2 * (x * y - z * w), 2 * (x * z + y * w)],
-                  [2 * (x * y + z * w), 1 - 2 * (x * x + z * z), 2 * (y * z - x * w)],
-                  [2 * (x * z - y * w), 2 * (y * z + x * w), 1 - 2 * (x * x + y * y)]]).transpose(2, 0, 1)
-    r[rng.random(n) < 0.4, 1, :] *= -1.0  # mirrored copies (det -1)
-    return r
 
 
 def random_batch(rng: np.random.Generator, kind: str, n: int) -> batch.Batch:

@@ -1,5 +1,6 @@
 """The core needs numpy alone: importing massmodel, loading the demo car, building and printing its report, and the
-``report`` command must not import the CAD kernel, the mesh or plotting libraries, or scipy."""
+``report`` command must not import the CAD kernel, the mesh or plotting libraries, scipy, or numba (the compiled kernel does
+not pay for its import on a model of this size; see docs/engine.md)."""
 
 from __future__ import annotations
 
@@ -10,7 +11,7 @@ import sys
 from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
-HEAVY = ("cadquery", "OCP", "trimesh", "pyvista", "vtk", "matplotlib", "scipy", "manifold3d")
+HEAVY = ("cadquery", "OCP", "trimesh", "pyvista", "vtk", "matplotlib", "scipy", "manifold3d", "numba")
 
 SCRIPT = """
 import contextlib, io, json, sys

@@ -6,5 +6,6 @@ pure functions (``massprops``), the vectorised roll-up (``batch``), materials, c
 objects (components, slots, rules, vehicle, load cases), the error type of user input, atomic writes, the cautions
 text and the measurement-uncertainty helpers.
 
-May import: numpy and the standard library. Nothing else in massmodel.
+May import: numpy and the standard library; numba only lazily, in ``kernels`` (which compiles ``closed_forms`` for
+``batch``, loaded only for very large batches). Nothing else in massmodel.
 """

@@ -3,7 +3,9 @@
 For large assemblies (thousands to millions of parts: fasteners, cells, lattice struts, sampled designs) building a
 :class:`massmodel.core.model.Component` per part costs more than the physics. Here N primitives of one kind are given as
 arrays (dimensions, densities, rotations, translations) and their mass properties are evaluated with the same closed
-forms as :mod:`massmodel.core.shapes`, as array expressions, then combined with :func:`massmodel.core.massprops.combine_arrays`.
+forms as :mod:`massmodel.core.shapes` (written once, in :mod:`massmodel.core.closed_forms`), as array expressions or
+in the compiled one-pass kernel, then combined with the parallel-axis theorem. The model's roll-ups use this
+module too (:func:`place`, :func:`rollup`, :func:`rollup_groups`; see :func:`massmodel.core.model.part_arrays`).
 
 Conventions
 -----------
@@ -26,18 +28,21 @@ References
 
 from __future__ import annotations
 
-import math
-from collections.abc import Iterable
+import functools
+import importlib.util
+import sys
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
 
+from .closed_forms import FORMS, KIND_IDS, sums_to_properties
 from .massprops import MassProperties, combine_arrays
 from .shapes import SHAPE_KINDS
 
-__all__ = ["BATCH_KINDS", "BatchError", "Batch", "UnitProperties", "unit_properties", "placed_properties",
-           "aggregate", "aggregate_batches"]
+__all__ = ["BATCH_KINDS", "KERNELS", "BatchError", "Batch", "UnitProperties", "unit_properties", "placed_properties",
+           "aggregate", "aggregate_batches", "kernel_for", "place", "rollup", "rollup_groups", "sums_to_properties"]
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -49,6 +54,16 @@ BATCH_KINDS: dict[str, tuple[str, ...]] = {
 BLOCK = 16384
 #: Largest accepted deviation of ``R Rᵀ`` from the identity (as :func:`massmodel.core.frames.is_orthogonal`).
 ORTHOGONALITY_TOL = 1e-9
+#: Roll-up kernels: "numpy" (array expressions, always available), "numba" (the compiled one-pass kernel of
+#: :mod:`massmodel.core.kernels`), "auto" (see :func:`kernel_for`).
+KERNELS = ("auto", "numpy", "numba")
+#: "auto" loads the compiled kernel for a batch of at least this many parts: loading numba and the cached machine
+#: code costs about 1 s once per process (measured: import 0.3 s, first call 0.7 s), the kernel saves about 35 ns
+#: a part (docs/engine.md), so it repays its load from about 3e7 parts.
+NUMBA_LOAD_PARTS = 30_000_000
+#: Once the compiled kernel is loaded in the process (by a large batch or an explicit kernel="numba"), "auto" uses
+#: it from this many parts (it is faster than the numpy path from about 1e4 parts).
+NUMBA_MIN_PARTS = 10_000
 # the smaller dimension that must stay below the larger one, per kind: (small column, large column)
 _ORDERED = {"tube": (1, 0), "spherical_shell": (1, 0), "torus": (1, 0)}
 
@@ -89,13 +104,9 @@ class UnitProperties:
         return out
 
 
-def _taper(r0: FloatArray, r1: FloatArray, n: int, m: int) -> FloatArray:
-    """∫₀¹ tᵐ r(t)ⁿ dt for r(t) = r0 (1 − t) + r1 t, exactly (Bernstein form, as :mod:`massmodel.core.shapes`)."""
-    total = np.zeros_like(r0)
-    for i in range(n + 1):
-        total += math.comb(n, i) * r0 ** (n - i) * r1**i * (math.factorial(m + i) * math.factorial(n - i)
-                                                             / math.factorial(n + m + 1))
-    return total
+def _all_positive_finite(a: FloatArray) -> bool:
+    """Every entry finite and > 0, in two reductions without temporaries (NaN makes both comparisons false)."""
+    return bool(a.min() > 0.0) and bool(np.isfinite(a.max()))
 
 
 def _check_dims(kind: str, dims: npt.ArrayLike) -> FloatArray:
@@ -106,6 +117,9 @@ def _check_dims(kind: str, dims: npt.ArrayLike) -> FloatArray:
     if d.ndim != 2 or d.shape[1] != len(fields):
         raise BatchError(f"dims of a {kind} batch must have shape (N, {len(fields)}) for {', '.join(fields)}; "
                          f"got {d.shape}")
+    if len(d) and _all_positive_finite(d) and (kind not in _ORDERED or bool(np.all(
+            d[:, _ORDERED[kind][0]] < d[:, _ORDERED[kind][1]]))):
+        return d  # the common case in two reductions; the element-wise tests below only find the culprit
     bad = ~(np.isfinite(d) & (d > 0.0))
     if bad.any():
         n, j = np.argwhere(bad)[0]
@@ -123,79 +137,13 @@ def _check_dims(kind: str, dims: npt.ArrayLike) -> FloatArray:
 def _unit_columns(kind: str, cols: FloatArray) -> tuple[FloatArray, FloatArray | None, FloatArray, FloatArray | None]:
     """The closed forms on dimension columns ``cols`` (k, n): volume (n,), centroid (3, n) or None, tensor
     diagonal (3, n) and xy product (n,) or None, per density (see :class:`UnitProperties`)."""
+    args = [*cols, *([0.0] * (3 - len(cols)))]
+    v, cx, cy, cz, dx, dy, dz, pxy = FORMS[kind](*args)
     centroid = None
-    pxy = None
-    pi = math.pi
-    if kind == "box":
-        a, b, c = cols
-        v = a * b * c
-        a2, b2, c2 = a * a, b * b, c * c
-        s = v / 12.0
-        diag = np.array([(b2 + c2) * s, (a2 + c2) * s, (a2 + b2) * s])
-    elif kind in ("cylinder", "tube"):
-        if kind == "cylinder":
-            r, length = cols
-            r2 = r * r
-            v = pi * r2 * length
-        else:
-            ro, ri, length = cols
-            v = pi * (ro * ro - ri * ri) * length
-            r2 = ro * ro + ri * ri
-        trans = v * (3.0 * r2 + length * length) / 12.0
-        diag = np.array([trans, trans, v * r2 / 2.0])
-    elif kind == "sphere":
-        (r,) = cols
-        v = 4.0 / 3.0 * pi * r**3
-        moment = 0.4 * v * r * r
-        diag = np.array([moment, moment, moment])
-    elif kind == "spherical_shell":
-        ro, ri = cols
-        v = 4.0 / 3.0 * pi * (ro**3 - ri**3)
-        moment = 8.0 * pi / 15.0 * (ro**5 - ri**5)
-        diag = np.array([moment, moment, moment])
-    elif kind == "hemisphere":
-        (r,) = cols
-        v = 2.0 / 3.0 * pi * r**3
-        r2 = r * r
-        trans = 83.0 / 320.0 * v * r2
-        diag = np.array([trans, trans, 0.4 * v * r2])
-        centroid = np.array([np.zeros_like(r), np.zeros_like(r), 3.0 * r / 8.0])
-    elif kind == "cone":
-        r, h = cols
-        v = pi * r * r * h / 3.0
-        trans = v * (3.0 / 20.0 * r * r + 3.0 / 80.0 * h * h)
-        diag = np.array([trans, trans, 0.3 * v * r * r])
-        centroid = np.array([np.zeros_like(r), np.zeros_like(r), h / 4.0])
-    elif kind == "frustum":
-        r0, r1, h = cols
-        t20 = _taper(r0, r1, 2, 0)
-        t40 = _taper(r0, r1, 4, 0)
-        v = pi * h * t20
-        zc = h * _taper(r0, r1, 2, 1) / t20
-        about_base = pi * h * (0.25 * t40 + h * h * _taper(r0, r1, 2, 2))
-        trans = about_base - v * zc * zc
-        diag = np.array([trans, trans, 0.5 * pi * h * t40])
-        centroid = np.array([np.zeros_like(r0), np.zeros_like(r0), zc])
-    elif kind == "wedge":
-        a, b, length = cols
-        v = 0.5 * a * b * length
-        l2 = length * length / 12.0
-        diag = np.array([v * (b * b / 18.0 + l2), v * (a * a / 18.0 + l2), v * (a * a + b * b) / 18.0])
-        pxy = v * a * b / 36.0
-        centroid = np.array([a / 3.0, b / 3.0, length / 2.0])
-    elif kind == "torus":
-        big, small = cols
-        v = 2.0 * pi * pi * big * small * small
-        r2, a2 = big * big, small * small
-        diameter = v * (4.0 * r2 + 5.0 * a2) / 8.0
-        diag = np.array([diameter, diameter, v * (4.0 * r2 + 3.0 * a2) / 4.0])
-    else:  # ellipsoid
-        a, b, c = cols
-        v = 4.0 / 3.0 * pi * a * b * c
-        a2, b2, c2 = a * a, b * b, c * c
-        s = v / 5.0
-        diag = np.array([(b2 + c2) * s, (a2 + c2) * s, (a2 + b2) * s])
-    return v, centroid, diag, pxy
+    if not all(isinstance(x, float) for x in (cx, cy, cz)):
+        zero = np.zeros_like(v)
+        centroid = np.array([zero if isinstance(x, float) else x for x in (cx, cy, cz)])
+    return v, centroid, np.array([dx, dy, dz]), None if isinstance(pxy, float) else pxy
 
 
 def unit_properties(kind: str, dims: npt.ArrayLike) -> UnitProperties:
@@ -230,7 +178,7 @@ def _check_placement(n: int, densities: npt.ArrayLike, rotations: npt.ArrayLike,
     for name, a, shape in (("densities", rho, (n,)), ("rotations", r, (n, 3, 3)), ("translations", t, (n, 3))):
         if a.shape != shape:
             raise BatchError(f"{name} must have shape {shape}, got {a.shape}")
-    if validate:
+    if validate and n and not (_all_positive_finite(rho) and bool(np.isfinite(t.sum()))):
         bad = ~(np.isfinite(rho) & (rho > 0.0))
         if bad.any():
             k = int(np.argmax(bad))
@@ -368,14 +316,22 @@ def aggregate(
     *,
     validate: bool = True,
     block: int = BLOCK,
+    kernel: str = "auto",
 ) -> MassProperties:
     """Combined mass properties of N placed primitives of one kind (about the combined CG, model axes).
 
-    Same inputs as :func:`placed_properties`. Parts are taken in blocks of ``block`` laid out as contiguous columns
-    (structure of arrays, so every array operation runs over long vectors held in cache): per block the rotated
-    tensors are summed as matrix products (:func:`_rotated_sum`) and the block is combined with
-    :func:`massmodel.core.massprops.combine_arrays`; the blocks are then combined with it again (exact: the parallel-axis
-    theorem). Memory beyond the inputs is O(block).
+    Same inputs as :func:`placed_properties`. Parts are taken in blocks of ``block`` and each block is summed by a
+    roll-up kernel:
+
+    * ``kernel="numpy"``: the closed forms run as array expressions on the block's dimension columns (held in
+      cache), the rotated tensors are summed as matrix products (:func:`_rotated_sum`) and the block is
+      combined with :func:`massmodel.core.massprops.combine_arrays`;
+    * ``kernel="numba"``: the compiled one-pass kernel (:func:`massmodel.core.closed_forms.placed_sums_loop`) evaluates the closed form,
+      checks the rotation, places the CG, rotates the tensor and accumulates the moments, part by part, in one
+      read of the block;
+    * ``kernel="auto"`` (default): :func:`kernel_for`.
+
+    The blocks are then combined with the parallel-axis theorem (exact). Memory beyond the inputs is O(block).
 
     Returns
     -------
@@ -386,21 +342,70 @@ def aggregate(
     if n == 0:
         return MassProperties.zero()
     rho, r, t = _check_placement(n, densities, rotations, translations, validate)
+    compiled = _numba_kernel() if kernel_for(n, kernel) == "numba" else None
     masses, centers, tensors = [], [], []
     for start in range(0, n, block):
         stop = min(n, start + block)
-        cols = _columns(r[start:stop])
-        if validate:
-            _check_orthogonal(cols, start)
-        v, centroid, diag, pxy = _unit_columns(kind, d[start:stop].T.copy())
         w = rho[start:stop]
-        own = _rotated_sum(kind, cols, diag * w, None if pxy is None else pxy * w)
-        c = _center_columns(cols, centroid, t[start:stop].T.copy())
-        m, cg, inertia = combine_arrays(w * v, c.T, own[None])
+        if compiled is not None:
+            m, cg, inertia = _compiled_block(compiled, KIND_IDS[kind], start, d[start:stop], w, r[start:stop],
+                                             t[start:stop], validate)
+        else:
+            v, centroid, diag, pxy = _unit_columns(kind, d[start:stop].T.copy())
+            cols = _columns(r[start:stop])
+            if validate:
+                _check_orthogonal(cols, start)
+            own = _rotated_sum(kind, cols, diag * w, None if pxy is None else pxy * w)
+            c = _center_columns(cols, centroid, t[start:stop].T.copy())
+            m, cg, inertia = combine_arrays(w * v, c.T, own[None])
         masses.append(m)
         centers.append(cg)
         tensors.append(inertia)
+    if len(masses) == 1:
+        return MassProperties(masses[0], centers[0], tensors[0])
     return MassProperties(*combine_arrays(np.array(masses), np.array(centers), np.array(tensors)))
+
+
+def kernel_for(n: int, kernel: str = "auto") -> str:
+    """The roll-up kernel used for ``n`` parts: ``kernel`` itself, or for "auto" "numba" when numba is importable
+    and either the compiled kernel is already loaded in this process and ``n`` ≥ :data:`NUMBA_MIN_PARTS`, or ``n``
+    ≥ :data:`NUMBA_LOAD_PARTS` (enough to repay loading it); else "numpy"."""
+    if kernel not in KERNELS:
+        raise BatchError(f"kernel must be one of {', '.join(KERNELS)}, got {kernel!r}")
+    if kernel == "auto":
+        loaded = "massmodel.core.kernels" in sys.modules
+        wanted = n >= NUMBA_MIN_PARTS if loaded else n >= NUMBA_LOAD_PARTS
+        return "numba" if wanted and _numba_kernel() is not None else "numpy"
+    if kernel == "numba" and _numba_kernel() is None:
+        raise BatchError("kernel 'numba' asked for, but numba is not importable here; use kernel='numpy'")
+    return kernel
+
+
+@functools.cache
+def _numba_kernel() -> Callable[..., tuple[FloatArray, int]] | None:
+    """The compiled :func:`massmodel.core.closed_forms.placed_sums_loop` (:data:`massmodel.core.kernels.placed_sums`),
+    imported on first use;
+    None when numba is not installed or does not import."""
+    if importlib.util.find_spec("numba") is None:
+        return None
+    try:
+        from . import kernels
+    except ImportError:  # pragma: no cover - a broken numba/llvmlite install: the numpy path still works
+        return None
+    return kernels.placed_sums  # type: ignore[no-any-return]
+
+
+def _compiled_block(fn: Callable[..., tuple[FloatArray, int]], kind_id: int, start: int, dims: FloatArray,
+                    rho: FloatArray, r: FloatArray, t: FloatArray, validate: bool) -> tuple[float, FloatArray, FloatArray]:
+    """One block through the compiled kernel: mass, CG and tensor about the CG."""
+    r = np.ascontiguousarray(r)
+    ref = np.empty(3)
+    sums, bad = fn(kind_id, np.ascontiguousarray(dims), np.ascontiguousarray(rho), r, np.ascontiguousarray(t), ref,
+                   validate, ORTHOGONALITY_TOL)
+    if bad:
+        _check_orthogonal(_columns(r), start)  # raises naming the part (the same test as the kernel's)
+        raise AssertionError(f"the compiled kernel refused {bad} rotations from part {start}, the numpy check none")
+    return sums_to_properties(sums, ref)
 
 
 @dataclass(frozen=True, slots=True)
@@ -414,10 +419,66 @@ class Batch:
     translations: FloatArray
 
 
-def aggregate_batches(batches: Iterable[Batch], *, validate: bool = True) -> MassProperties:
-    """Combined mass properties of several batches (e.g. one per kind), with :func:`combine_arrays`."""
-    parts = [aggregate(b.kind, b.dims, b.densities, b.rotations, b.translations, validate=validate) for b in batches]
+def aggregate_batches(batches: Iterable[Batch], *, validate: bool = True, kernel: str = "auto") -> MassProperties:
+    """Combined mass properties of several batches (e.g. one per kind), with :func:`combine_arrays`.
+
+    ``kernel="auto"`` decides once for the total number of parts (see :func:`kernel_for`)."""
+    items = list(batches)
+    chosen = kernel_for(sum(len(b.densities) for b in items), kernel)
+    parts = [aggregate(b.kind, b.dims, b.densities, b.rotations, b.translations, validate=validate, kernel=chosen)
+             for b in items]
     if not parts:
         return MassProperties.zero()
     return MassProperties(*combine_arrays(np.array([p.mass for p in parts]), np.array([p.center for p in parts]),
                                           np.array([p.inertia for p in parts])))
+
+
+def place(centers: FloatArray, tensors: FloatArray, rotations: FloatArray,
+          translations: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """Per-part properties moved actively into the model frame (the model's engine, see :class:`massmodel.core.model.Model`).
+
+    Parameters
+    ----------
+    centers : (N, 3) float
+        CGs in the part frames, m.
+    tensors : (N, 3, 3) float
+        Tensors about the CGs, part axes, kg·m² (tensor convention).
+    rotations : (N, 3, 3) float
+        Orthogonal, part axes → model axes (checked by the caller: :class:`massmodel.core.frames.Pose`).
+    translations : (N, 3) float
+        m.
+
+    Returns
+    -------
+    centers : (N, 3) float
+        ``R c + t``, m, model frame.
+    tensors : (N, 3, 3) float
+        ``R I Rᵀ`` (symmetrised), kg·m², model axes (Goldstein et al. (2002) §5.3).
+    """
+    n = len(centers)
+    moved = np.empty((n, 3))
+    rotated = np.empty((n, 3, 3))
+    for start in range(0, n, BLOCK):  # in blocks: the temporaries stay small (memory), the block in cache
+        stop = min(n, start + BLOCK)
+        r = rotations[start:stop]
+        np.matmul(r, centers[start:stop, :, None], out=moved[start:stop, :, None])
+        moved[start:stop] += translations[start:stop]
+        out = rotated[start:stop]
+        np.matmul(np.matmul(r, tensors[start:stop]), r.transpose(0, 2, 1), out=out)
+        out += out.transpose(0, 2, 1).copy()
+        out *= 0.5
+    return moved, rotated
+
+
+def rollup(masses: FloatArray, centers: FloatArray, tensors: FloatArray) -> MassProperties:
+    """Combined properties of N parts given in one frame (:func:`massmodel.core.massprops.combine_arrays`; a few
+    numpy passes, so no compiled kernel is needed here: see docs/engine.md)."""
+    if len(masses) == 0:
+        return MassProperties.zero()
+    return MassProperties(*combine_arrays(masses, centers, tensors))
+
+
+def rollup_groups(masses: FloatArray, centers: FloatArray, tensors: FloatArray,
+                  members: Sequence[npt.NDArray[np.intp]]) -> list[MassProperties]:
+    """:func:`rollup` of each subset of parts (index arrays into the part arrays), in order."""
+    return [rollup(masses[idx], centers[idx], tensors[idx]) for idx in members]

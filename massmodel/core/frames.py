@@ -32,6 +32,7 @@ import numpy as np
 import numpy.typing as npt
 
 __all__ = [
+    "IDENTITY",
     "RotationKind",
     "Pose",
     "elementary_rotation",
@@ -41,6 +42,11 @@ __all__ = [
 ]
 
 FloatArray = npt.NDArray[np.float64]
+
+#: The (3, 3) identity, read-only and shared by every pose without a rotation (a product with it is the other factor's
+#: matrix, shared too: a model of many parts keeps one matrix per distinct rotation instead of one per part).
+IDENTITY: FloatArray = np.eye(3)
+IDENTITY.setflags(write=False)
 
 
 class RotationKind(enum.Enum):
@@ -191,8 +197,8 @@ class Pose:
 
     @classmethod
     def identity(cls) -> Pose:
-        """The pose that leaves coordinates unchanged."""
-        return cls._trusted(np.eye(3), np.zeros(3))
+        """The pose that leaves coordinates unchanged (one shared instance: poses are immutable)."""
+        return _IDENTITY_POSE
 
     @classmethod
     def from_translation(cls, translation: npt.ArrayLike) -> Pose:
@@ -200,7 +206,7 @@ class Pose:
         t = np.array(translation, dtype=float).reshape(3)
         if not np.isfinite(t).all():
             raise ValueError("pose must be finite")
-        return cls._trusted(np.eye(3), t)
+        return cls._trusted(IDENTITY, t)
 
     @property
     def is_mirrored(self) -> bool:
@@ -218,8 +224,15 @@ class Pose:
 
     def __mul__(self, other: Pose) -> Pose:
         """``self * other`` is ``other`` followed by ``self``."""
-        # a product of orthogonal matrices is orthogonal: no new checks (round-off grows by ~1e-16 per product)
-        return Pose._trusted(self.linear @ other.linear, self.linear @ other.translation + self.translation)
+        # a product of orthogonal matrices is orthogonal: no new checks (round-off grows by ~1e-16 per product);
+        # a factor without rotation leaves the other's (read-only) matrix as it is, shared
+        if other.linear is IDENTITY:
+            linear = self.linear
+        elif self.linear is IDENTITY:
+            linear = other.linear
+        else:
+            linear = self.linear @ other.linear
+        return Pose._trusted(linear, self.linear @ other.translation + self.translation)
 
     def inverse(self) -> Pose:
         """The pose mapping parent coordinates back to the child frame."""
@@ -241,3 +254,6 @@ class Pose:
 
     def __repr__(self) -> str:
         return f"Pose(linear={self.linear.tolist()}, translation={self.translation.tolist()})"
+
+
+_IDENTITY_POSE = Pose._trusted(IDENTITY, np.zeros(3))

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import copy
 import enum
+import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -18,10 +19,13 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from . import batch
 from .frames import Pose
 from .groups import in_group
 from .loadcases import LoadCase
-from .massprops import MassProperties, combine_arrays, parallel_axis_shift, validate_inertia
+from .massprops import InertiaError, MassProperties, parallel_axis_shift, validate_inertia
+from .shapes import SHAPE_KINDS
+from .specs import AllowedContact, Rule, RuleCheck, Slot, Vehicle
 from .uncertainty import PartUncertainty
 
 __all__ = [
@@ -36,11 +40,13 @@ __all__ = [
     "Vehicle",
     "Model",
     "net_geometry",
+    "part_arrays",
     "group_of",
     "in_group",
 ]
 
 FloatArray = npt.NDArray[np.float64]
+_SHAPE_CLASSES = dict(SHAPE_KINDS)
 
 
 class Maturity(enum.Enum):
@@ -104,6 +110,80 @@ def net_geometry(shape: Any, cutouts: Sequence[Cutout] = ()) -> tuple[float, Flo
     return volume, centroid, 0.5 * (inertia + inertia.T)
 
 
+def part_arrays(components: Sequence[Component]) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """(masses (N,), CGs (N, 3), tensors (N, 3, 3)) of components in the model frame, by the vectorised engine.
+
+    Plain primitives are grouped by kind and evaluated with the array closed forms of
+    :func:`massmodel.core.batch.unit_properties` (each distinct shape object once: mirrored and patterned copies
+    share theirs); parts with cut-outs, extrusions, point masses and imported shapes take their net geometry from
+    :func:`net_geometry`. The mass source then scales each part (density, or mass / volume; a measured CG and
+    tensor replace the shape's), and :func:`massmodel.core.batch.place` moves all parts into the model frame at
+    once. Agrees with ``Component.props`` part by part to round-off (``tests/test_engine.py``).
+
+    Returns
+    -------
+    masses : (N,) float
+        kg.
+    centers : (N, 3) float
+        m, model frame.
+    tensors : (N, 3, 3) float
+        kg·m² about each part's CG, model axes, tensor convention.
+    """
+    n = len(components)
+    if n == 0:
+        return np.zeros(0), np.zeros((0, 3)), np.zeros((0, 3, 3))
+    volume = np.empty(n)
+    centroid = np.zeros((n, 3))
+    unit = np.zeros((n, 3, 3))
+    # per batch kind: the parts, the row of each part's shape, the rows (dimensions of each distinct shape)
+    kinds: dict[str, tuple[list[int], list[int], list[tuple[float, ...]]]] = {}
+    row_of: dict[int, int] = {}
+    direct: list[int] = []
+    for i, c in enumerate(components):
+        shape = c.shape
+        kind = getattr(shape, "kind", None)
+        if c.cutouts or kind not in batch.BATCH_KINDS or type(shape) is not _SHAPE_CLASSES.get(kind):
+            direct.append(i)
+            continue
+        parts, owners, rows = kinds.setdefault(kind, ([], [], []))
+        row = row_of.get(id(shape))
+        if row is None:
+            row = row_of[id(shape)] = len(rows)
+            rows.append(tuple([getattr(shape, f) for f in batch.BATCH_KINDS[kind]]))
+        parts.append(i)
+        owners.append(row)
+    for kind, (parts, owners, rows) in kinds.items():
+        props = batch.unit_properties(kind, np.array(rows))
+        at = np.array(parts, dtype=np.intp)
+        owner = np.array(owners, dtype=np.intp)
+        volume[at] = props.volume[owner]
+        if props.centroid is not None:
+            centroid[at] = props.centroid[owner]
+        unit[at] = props.tensors()[owner]
+    for i in direct:
+        c = components[i]
+        volume[i], centroid[i], unit[i] = net_geometry(c.shape, c.cutouts)
+    # the mass source: density x volume, or a given mass (with the shape's tensor scaled to it, mass / volume)
+    by_density = np.array([c.source is MassSource.MATERIAL or c.source is MassSource.DENSITY for c in components])
+    given = np.array([c.density if d else c.mass for c, d in zip(components, by_density.tolist(), strict=True)],
+                     dtype=float)
+    solid = volume > 0.0
+    per_volume = np.divide(given, volume, out=np.zeros(n), where=solid & ~by_density)
+    scale = np.where(by_density, given, per_volume)
+    masses = np.where(by_density, given * volume, given)
+    unit *= scale[:, None, None]
+    tensors = unit  # now per part, kg*m^2
+    for i, c in enumerate(components):
+        if c.source is MassSource.MEASURED:  # the measured CG and tensor, validated when the part was made
+            local = c.props_local
+            centroid[i] = local.center
+            tensors[i] = local.inertia
+    rotations = np.array([c.pose.linear for c in components], dtype=float).reshape(n, 3, 3)
+    translations = np.array([c.pose.translation for c in components], dtype=float).reshape(n, 3)
+    centers, inertias = batch.place(centroid, tensors, rotations, translations)
+    return masses, centers, inertias
+
+
 @dataclass(frozen=True, slots=True, eq=False)
 class Component:
     """One part of the model.
@@ -163,11 +243,18 @@ class Component:
     origin: str = ""
     uncertainty: PartUncertainty | None = None
     volume: float = field(init=False)
-    props: MassProperties = field(init=False)
-    props_local: MassProperties = field(init=False)
+    _props_local: MassProperties | None = field(init=False, default=None, repr=False)
+    _props: MassProperties | None = field(init=False, default=None, repr=False)
 
     def __post_init__(self) -> None:
-        volume, centroid, unit = net_geometry(self.shape, self.cutouts)
+        # Everything a part can get wrong is checked here; the part-frame properties of a plain primitive (no
+        # cut-outs, not measured) are made only when asked for (``props_local``, ``props``): a model takes its
+        # roll-ups from the vectorised engine (Model.arrays), so a large model builds no per-part objects for them.
+        eager = bool(self.cutouts) or self.source is MassSource.MEASURED
+        if eager:
+            volume, centroid, unit = net_geometry(self.shape, self.cutouts)
+        else:
+            volume = float(self.shape.volume())
         object.__setattr__(self, "volume", volume)
         where = self.origin or f"component '{self.path}'"
         if self.source in (MassSource.MATERIAL, MassSource.DENSITY):
@@ -175,23 +262,57 @@ class Component:
                 raise ValueError(f"{where}: a density source needs a positive density")
             if volume <= 0.0:
                 raise ValueError(f"{where}: the shape has no volume, so density cannot give a mass")
-            local = self._local(self.density * volume, centroid, self.density * unit)
+            mass = self.density * volume
         elif self.source is MassSource.MASS:
             if self.mass is None or not self.mass > 0.0:
                 raise ValueError(f"{where}: field 'mass' must be a positive mass")
-            scale = self.mass / volume if volume > 0.0 else 0.0
-            local = self._local(self.mass, centroid, scale * unit)
+            mass = self.mass
+        elif self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
+            raise ValueError(f"{where}: measured properties need a positive mass and a CG")
         else:
-            if self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
-                raise ValueError(f"{where}: measured properties need a positive mass and a CG")
-            if self.measured_inertia is not None:
-                tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
-                local = MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
-            else:
-                tensor = (self.mass / volume) * unit if volume > 0.0 else np.zeros((3, 3))
-                local = self._local(self.mass, self.measured_cg, tensor)
-        object.__setattr__(self, "props_local", local)
-        object.__setattr__(self, "props", MassProperties._moved(local, self.pose.linear, self.pose.translation))
+            mass = self.mass
+        if not math.isfinite(mass):
+            raise InertiaError(f"mass must be finite and >= 0 kg, got {mass!r}")
+        if eager:
+            object.__setattr__(self, "_props_local", self._make_local(volume, centroid, unit))
+
+    def _make_local(self, volume: float, centroid: FloatArray, unit: FloatArray) -> MassProperties:
+        """Part-frame properties from the net geometry (volume m³, centroid m, tensor per density m⁵)."""
+        where = self.origin or f"component '{self.path}'"
+        if self.source in (MassSource.MATERIAL, MassSource.DENSITY):
+            assert self.density is not None
+            return self._local(self.density * volume, centroid, self.density * unit)
+        assert self.mass is not None
+        if self.source is MassSource.MASS:
+            scale = self.mass / volume if volume > 0.0 else 0.0
+            return self._local(self.mass, centroid, scale * unit)
+        assert self.measured_cg is not None  # checked in __post_init__
+        if self.measured_inertia is not None:
+            tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
+            return MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
+        tensor = (self.mass / volume) * unit if volume > 0.0 else np.zeros((3, 3))
+        return self._local(self.mass, self.measured_cg, tensor)
+
+    @property
+    def props_local(self) -> MassProperties:
+        """Mass properties in the part frame (CG m, tensor kg·m² about it, part axes), made on first use."""
+        local = self._props_local
+        if local is None:
+            local = self._make_local(*net_geometry(self.shape, self.cutouts))
+            object.__setattr__(self, "_props_local", local)
+        return local
+
+    @property
+    def props(self) -> MassProperties:
+        """Mass properties in the model frame (``props_local`` moved by ``pose``), made on first use.
+
+        For one part; a model's roll-ups and per-part arrays come from the vectorised engine (:meth:`Model.arrays`).
+        """
+        placed = self._props
+        if placed is None:
+            placed = MassProperties._moved(self.props_local, self.pose.linear, self.pose.translation)
+            object.__setattr__(self, "_props", placed)
+        return placed
 
     def _local(self, mass: float, center: Any, tensor: FloatArray) -> MassProperties:
         """Part-frame properties from the shape's closed form: a primitive with valid sizes has a physical tensor,
@@ -234,154 +355,6 @@ class Component:
 def group_of(path: str) -> str:
     """Parent path of a part path ('' at top level)."""
     return path.rpartition("/")[0]
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class Slot:
-    """A space reserved for a part (typically ballast): an envelope solid placed in the model frame.
-
-    Parameters
-    ----------
-    name : str
-        Unique slot name.
-    shape : primitive
-        Envelope in the slot frame.
-    pose : Pose
-        Slot frame in the model frame.
-    clearance : float
-        Required gap between a part and the envelope walls, m.
-    origin : str
-        Where it was defined.
-    """
-
-    name: str
-    shape: Any
-    pose: Pose
-    clearance: float
-    origin: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class AllowedContact:
-    """Parts meant to touch or overlap, which packaging checks do not report (e.g. a lumped display shape inside
-    another part, plates stacked on each other).
-
-    Parameters
-    ----------
-    first, second : str
-        Part or group paths; a pair of parts is covered when one lies in ``first`` and the other in ``second``
-        (both in the same group when ``first == second``).
-    note : str
-        Why the contact is intended.
-    origin : str
-        Where it was defined.
-    """
-
-    first: str
-    second: str
-    note: str = ""
-    origin: str = ""
-
-    def covers(self, a: str, b: str) -> bool:
-        """Whether the pair of part paths ``a``, ``b`` is covered (in either order)."""
-        return (in_group(a, self.first) and in_group(b, self.second)) or (
-            in_group(a, self.second) and in_group(b, self.first)
-        )
-
-
-class RuleCheck(enum.Enum):
-    """Kinds of rule check."""
-
-    MIN_MASS = "min_mass"
-    MIN_GROUP_MASS = "min_group_mass"
-    MIN_AXLE_LOAD = "min_axle_load"
-    FRONT_FRACTION = "front_fraction"
-    MAX_CG_HEIGHT = "max_cg_height"
-    BALLAST_HEIGHT = "ballast_height"  # ballast in a named place sits high enough (or at the driver's CG height)
-
-
-@dataclass(frozen=True, slots=True)
-class Rule:
-    """One rule of the series' regulations as a check.
-
-    ``limit`` is in SI (kg for masses and loads, m for heights); ``minimum``/``maximum`` are fractions for
-    FRONT_FRACTION. ``groups`` lists the groups summed by MIN_GROUP_MASS; ``exclude`` the groups left out of
-    MIN_MASS; ``axle`` is "front" or "rear" for MIN_AXLE_LOAD. ``cases`` names the load cases the rule applies in
-    (empty: every case whose ``general_rules`` is true, and the base; see :mod:`massmodel.core.loadcases`).
-    BALLAST_HEIGHT: the parts in ``groups`` (the ballast's place) have their CG at least ``limit`` above the ground,
-    or within ``band`` of the CG height of the group ``reference`` (the seated driver).
-    """
-
-    name: str
-    check: RuleCheck
-    limit: float | None = None
-    minimum: float | None = None
-    maximum: float | None = None
-    groups: tuple[str, ...] = ()
-    exclude: tuple[str, ...] = ()
-    axle: str | None = None
-    origin: str = ""
-    cases: tuple[str, ...] = ()
-    reference: str | None = None
-    band: float | None = None
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class Vehicle:
-    """The vehicle context of a model.
-
-    Parameters
-    ----------
-    forward, left, up : (3,) float
-        Unit vectors of the vehicle directions in model axes (ISO 8855 by default: +x, +y, +z). Right-handed.
-    wheelbase : float
-        m.
-    track_front, track_rear : float
-        Lateral distance between the tyre contact centres, m.
-    front_axle_station : float
-        ``forward · p`` of the front axle line, m.
-    ground_level : float
-        ``up · p`` of the ground plane, m.
-    """
-
-    forward: FloatArray
-    left: FloatArray
-    up: FloatArray
-    wheelbase: float
-    track_front: float
-    track_rear: float
-    front_axle_station: float
-    ground_level: float
-
-    def __post_init__(self) -> None:
-        for name in ("forward", "left", "up"):
-            v = np.array(getattr(self, name), dtype=float).reshape(3)
-            v.setflags(write=False)
-            object.__setattr__(self, name, v)
-        basis = np.array([self.forward, self.left, self.up])
-        if not np.allclose(basis @ basis.T, np.eye(3), atol=1e-12) or np.linalg.det(basis) < 0.0:
-            raise ValueError("vehicle axes forward, left, up must be orthonormal and right-handed")
-        for name in ("wheelbase", "track_front", "track_rear"):
-            if not getattr(self, name) > 0.0:
-                raise ValueError(f"vehicle field '{name}' must be a positive length")
-
-    @property
-    def basis(self) -> FloatArray:
-        """(3, 3): rows forward, left, up in model axes (model → vehicle-direction components)."""
-        return np.array([self.forward, self.left, self.up])
-
-    @property
-    def rear_axle_station(self) -> float:
-        """``forward · p`` of the rear axle line, m."""
-        return self.front_axle_station - self.wheelbase
-
-    def contact_points(self) -> FloatArray:
-        """(4, 3) tyre contact centres FL, FR, RL, RR in model coordinates, m."""
-        rows = []
-        for station, track in ((self.front_axle_station, self.track_front), (self.rear_axle_station, self.track_rear)):
-            for side in (+1.0, -1.0):
-                rows.append(station * self.forward + side * 0.5 * track * self.left + self.ground_level * self.up)
-        return np.array(rows)
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -480,40 +453,87 @@ class Model:
     def arrays(self, components: Sequence[Component] | None = None) -> tuple[FloatArray, FloatArray, FloatArray]:
         """(masses (N,), centres (N, 3), tensors (N, 3, 3)) of components in the model frame.
 
-        For all components (the default) the arrays are made once and kept; callers get copies.
+        For all components (the default) the arrays come from the vectorised engine (:func:`part_arrays`), made
+        once and kept; callers get copies. Components of this model are taken from those arrays; others (a part
+        built elsewhere) from their own ``props``.
         """
         if components is None:
             return tuple(a.copy() for a in self._all_arrays())  # type: ignore[return-value]
-        comps = components
-        n = len(comps)
-        masses = np.empty(n)
-        centers = np.empty((n, 3))
-        inertias = np.empty((n, 3, 3))
-        for i, c in enumerate(comps):
-            masses[i] = c.props.mass
-            centers[i] = c.props.center
-            inertias[i] = c.props.inertia
-        return masses, centers, inertias
+        masses, centers, inertias = self._all_arrays()
+        mine = [self._index.get(c.path) for c in components]
+        if all(i is not None and self.components[i] is c for i, c in zip(mine, components, strict=True)):
+            idx = np.array(mine, dtype=np.intp)
+            return masses[idx], centers[idx], inertias[idx]
+        return (np.array([c.props.mass for c in components], dtype=float).reshape(-1),
+                np.array([c.props.center for c in components], dtype=float).reshape(-1, 3),
+                np.array([c.props.inertia for c in components], dtype=float).reshape(-1, 3, 3))
+
+    def adopt_arrays(self, masses: FloatArray, centers: FloatArray, inertias: FloatArray) -> None:
+        """Keep part arrays made elsewhere as this model's :meth:`arrays` (a cache: the model stays immutable).
+
+        For callers that assemble a model from another's components with a few rows rebuilt by the same engine
+        (:mod:`massmodel.studies`), so that the rows are not computed again. They must be exactly what
+        :func:`part_arrays` gives for ``self.components`` (shapes (N,), (N, 3), (N, 3, 3)).
+        """
+        n = len(self.components)
+        if masses.shape != (n,) or centers.shape != (n, 3) or inertias.shape != (n, 3, 3):
+            raise ValueError(f"arrays of {masses.shape[0]} parts for a model of {n}")
+        stacked = tuple(np.array(a, dtype=float) for a in (masses, centers, inertias))
+        for a in stacked:
+            a.setflags(write=False)
+        object.__setattr__(self, "_stacked", stacked)
 
     def _all_arrays(self) -> tuple[FloatArray, FloatArray, FloatArray]:
         """:meth:`arrays` of every component, made once (read-only; the model is immutable)."""
         if self._stacked is None:
-            stacked = self.arrays(self.components)
+            stacked = part_arrays(self.components)
             for a in stacked:
                 a.setflags(write=False)
             object.__setattr__(self, "_stacked", stacked)
         assert self._stacked is not None
         return self._stacked
 
+    def _indices(self, include: Iterable[str] = ("",), exclude: Iterable[str] = ()) -> npt.NDArray[np.intp]:
+        """Indices of the components :meth:`select` picks."""
+        inc, exc = list(include), list(exclude)
+        return np.array([
+            i for i, c in enumerate(self.components)
+            if any(in_group(c.path, g) for g in inc) and not any(in_group(c.path, g) for g in exc)
+        ], dtype=np.intp)
+
     def mass_properties(self, include: Iterable[str] = ("",), exclude: Iterable[str] = ()) -> MassProperties:
-        """Combined mass properties of the selected components (model frame, about their CG)."""
+        """Combined mass properties of the selected components (model frame, about their CG), from the vectorised
+        engine (:func:`massmodel.core.batch.rollup`)."""
         inc, exc = tuple(include), tuple(exclude)
+        masses, centers, inertias = self._all_arrays()
         if "" in inc and not exc:  # the whole model
-            return MassProperties.zero() if not self.components else MassProperties(*combine_arrays(*self._all_arrays()))
-        comps = self.select(inc, exc)
-        if not comps:
-            return MassProperties.zero()
-        return MassProperties(*combine_arrays(*self.arrays(comps)))
+            return batch.rollup(masses, centers, inertias)
+        idx = self._indices(inc, exc)
+        return batch.rollup(masses[idx], centers[idx], inertias[idx])
+
+    def group_members(self) -> dict[str, npt.NDArray[np.intp]]:
+        """Every group path (sorted) with the indices of its parts (a part lies in every proper prefix of its path).
+
+        Parts are first gathered by their parent path (one dictionary step per part), then each parent's list is
+        handed to the parent and its ancestors: the cost grows with the parts plus the groups times their depth.
+        """
+        by_parent: dict[str, list[int]] = {}
+        for i, c in enumerate(self.components):
+            by_parent.setdefault(c.path.rpartition("/")[0], []).append(i)
+        lists: dict[str, list[list[int]]] = {}
+        for parent, idx in by_parent.items():
+            group = parent
+            while group:
+                lists.setdefault(group, []).append(idx)
+                group = group.rpartition("/")[0]
+        return {g: np.sort(np.concatenate([np.asarray(x, dtype=np.intp) for x in lists[g]])) for g in sorted(lists)}
+
+    def group_properties(self) -> list[tuple[str, int, MassProperties]]:
+        """(group path, number of parts, combined properties) of every group, sorted by path (vectorised engine:
+        :func:`massmodel.core.batch.rollup_groups`)."""
+        members = self.group_members()
+        props = batch.rollup_groups(*self._all_arrays(), list(members.values()))
+        return [(g, len(idx), mp) for (g, idx), mp in zip(members.items(), props, strict=True)]
 
     def with_components(self, components: Sequence[Component], name: str | None = None) -> Model:
         """A copy of the model with another component list (and optionally another name)."""

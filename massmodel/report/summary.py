@@ -20,7 +20,6 @@ from massmodel.core.atomic import write_text_atomic
 from massmodel.core.frames import is_orthogonal
 from massmodel.core.massprops import (
     MassProperties,
-    combine_arrays,
     inertia_about_point,
     inertia_in_axes,
     principal_axes,
@@ -148,11 +147,12 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
     out["inertia_about_points"] = [inertia_about_entry(total, r) for r in inertia_requests]
     out["rules"] = [rule_dict(r) for r in check_rules(model)]
     out["rules_passed"] = all(r["passed"] for r in out["rules"])
-    out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in _group_rollups(model)]
-    out["maturity_kg"] = {
-        m.value: float(sum(c.props.mass for c in model.components if c.maturity is m)) for m in Maturity
-    }
+    out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in model.group_properties()]
     masses, centers, inertias = model._all_arrays()
+    maturity = [c.maturity for c in model.components]
+    out["maturity_kg"] = {
+        m.value: float(masses[[k is m for k in maturity]].sum()) if maturity else 0.0 for m in Maturity
+    }
     # one conversion of the stacked arrays to lists instead of three small ones per component
     rows = zip(masses.tolist(), centers.tolist(), inertias.tolist(), strict=True)
     out["components"] = [
@@ -174,27 +174,6 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
     ]
     out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
     out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
-    return out
-
-
-def _group_rollups(model: Model) -> list[tuple[str, int, MassProperties]]:
-    """(group path, number of parts, combined properties) of every group, sorted by path.
-
-    One pass over the paths builds each group's member list (a part lies in every proper prefix of its path), so
-    the cost grows with the number of parts times their depth, not with parts times groups.
-    """
-    members: dict[str, list[int]] = {}
-    for i, c in enumerate(model.components):
-        segs = c.path.split("/")
-        for k in range(1, len(segs)):
-            members.setdefault("/".join(segs[:k]), []).append(i)
-    if not members:
-        return []
-    masses, centers, inertias = model._all_arrays()
-    out = []
-    for g in sorted(members):
-        idx = np.array(members[g])
-        out.append((g, len(idx), MassProperties(*combine_arrays(masses[idx], centers[idx], inertias[idx]))))
     return out
 
 

@@ -22,10 +22,10 @@ from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
-from massmodel.core import expr
+from massmodel.core import batch, expr
 from massmodel.core.loadcases import BASE_CASE
-from massmodel.core.massprops import MassProperties, combine_arrays
-from massmodel.core.model import Model
+from massmodel.core.massprops import MassProperties
+from massmodel.core.model import Model, part_arrays
 from massmodel.modelfile.loader import ModelSource, build_model
 from massmodel.modelfile.reader import ModelFileError, read_toml
 
@@ -246,12 +246,11 @@ class Evaluator:
         if self._reduced is None:
             return model, model.mass_properties()
         masses, centers, inertias = (a.copy() for a in self._base_arrays)
-        for i in self._rebuilt_index:
-            props = model.components[i].props
-            masses[i] = props.mass
-            centers[i] = props.center
-            inertias[i] = props.inertia
-        return model, MassProperties(*combine_arrays(masses, centers, inertias))
+        idx = self._rebuilt_index
+        if idx:  # the rebuilt rows by the same engine as a full build (massmodel.core.batch), then one roll-up
+            masses[idx], centers[idx], inertias[idx] = part_arrays([model.components[i] for i in idx])
+        model.adopt_arrays(masses, centers, inertias)  # the rows a full build would make: kept for rule values
+        return model, batch.rollup(masses, centers, inertias)
 
 
 def _texts(value: Any, out: set[str]) -> None:

@@ -211,9 +211,8 @@ def evaluate_outputs(model: Model, outputs: Sequence[Output], plan: OutputPlan |
             result = check_rule(model, rule, balance)
             rule_values.append(float(result.value))
             margins.append(float(result.margin))
-        else:  # check_rule's sum over the same parts in the same order, and its margin value - limit
-            comps = model.components
-            value = float(sum(comps[i].props.mass for i in chosen))
+        else:  # check_rule's sum (the engine's masses of the same parts, one numpy sum), and its margin
+            value = float(model.arrays()[0][chosen].sum())
             rule_values.append(value)
             margins.append(value - float(rule.limit or 0.0))
     values: list[float] = []

@@ -172,7 +172,7 @@ def _at_least_result(rule: Rule, value: float, unit: str, detail: str) -> RuleRe
 
 def _mass_of(model: Model, include: tuple[str, ...] = ("",), exclude: tuple[str, ...] = ()) -> float:
     """Mass of the parts in any of ``include`` and in none of ``exclude``, kg (each part counted once)."""
-    return float(sum(c.props.mass for c in model.select(include, exclude)))
+    return float(model.mass_properties(include, exclude).mass)
 
 
 def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
