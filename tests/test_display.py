@@ -16,7 +16,6 @@ import pytest
 
 from massmodel.core import display
 from massmodel.core.frames import Pose
-from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Component, MassSource, Maturity, Model
 from massmodel.core.shapes import Box, PointMass
 from massmodel.modelfile.loader import load_model
