@@ -232,6 +232,15 @@ class OpenedModel:
         fields = {"source": self.source, "overrides": self.overrides, "case": self.case, "edits": self.edits}
         return OpenedModel(**{**fields, **changes})
 
+    def _edited(self, kind: str, what: Any) -> OpenedModel:
+        """A copy with one more edit, applied to this model directly (the source is not evaluated again: a sweep of
+        probe positions costs one model copy each)."""
+        out = object.__new__(OpenedModel)
+        for name, value in (("source", self.source), ("overrides", self.overrides), ("case", self.case),
+                            ("edits", (*self.edits, (kind, what))), ("model", _apply(self.model, kind, what))):
+            object.__setattr__(out, name, value)
+        return out
+
     def with_parameters(self, **values: str | float) -> OpenedModel:
         """The same file with parameters set (expression texts like ``"10 kg"``), added to those set before."""
         texts = {name: _override_text(name, v) for name, v in values.items()}
@@ -245,13 +254,13 @@ class OpenedModel:
         """The model with one more part (e.g. from :func:`point_mass`); its path must be new."""
         if not isinstance(component, Component):
             raise TypeError(f"with_part takes a Component (e.g. from massmodel.point_mass), got {type(component).__name__}")
-        return self._replace(edits=(*self.edits, ("add", component)))
+        return self._edited("add", component)
 
     def without(self, *paths: str) -> OpenedModel:
         """The model without these parts or groups (paths or group paths, e.g. ``"fuel"``)."""
         if not paths or any(not isinstance(p, str) or not p.strip("/") for p in paths):
             raise ValueError(f"without() needs part or group paths such as 'fuel', got {paths!r}")
-        return self._replace(edits=(*self.edits, ("remove", tuple(paths))))
+        return self._edited("remove", tuple(paths))
 
     # --- results ----------------------------------------------------------------------------------------------
 

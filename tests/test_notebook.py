@@ -106,6 +106,8 @@ def test_point_mass_and_with_part_follow_the_closed_form(car: OpenedModel) -> No
     assert after.mass == pytest.approx(big_m + m, rel=1e-12)
     assert_close(after.center, (big_m * before.center + m * p) / (big_m + m), 1e-12, "CG")
     assert_close(after.inertia, before.inertia + mu * (r @ r * np.eye(3) - np.outer(r, r)), 1e-10, "inertia")
+    # the part added to the built model directly equals the source re-evaluated with the edit replayed
+    assert_props_close(car.with_part(probe).with_parameters().mass_properties(), after, rtol=1e-12)
 
 
 def test_without_removes_parts_and_groups(car: OpenedModel) -> None:
