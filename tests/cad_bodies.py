@@ -8,9 +8,9 @@ numbers with the formulas spelled out (not massmodel's reader run backwards):
 * change of axes ``c_e = A (c − o)``, ``I_e = A I Aᵀ`` (Goldstein, Poole & Safko, Classical Mechanics, 3rd ed.,
   §5.4), with ``A`` the rows of the estimate axes in model axes;
 * tensor about a point ``p``: ``I_p = I_G + m(|d|² E − d dᵀ)``, ``d = c_e − p`` (ibid. §5.3, parallel-axis theorem);
-* positive products ``P_xy = +∫xy dm`` = minus the tensor entry (REFERENCES.md §5, SAWE Paper 3360);
+* positive products ``P_xy = +∫xy dm`` = minus the tensor entry (docs/references.md §5, SAWE Paper 3360);
 * unit factors from the exact definitions 1 in = 0.0254 m, 1 ft = 0.3048 m, 1 lb = 0.45359237 kg,
-  g_n = 9.80665 m/s² (REFERENCES.md §9; NIST SP 811 App. B).
+  g_n = 9.80665 m/s² (docs/references.md §9; NIST SP 811 App. B).
 """
 
 from __future__ import annotations

@@ -29,7 +29,7 @@ G0 = 9.80665  # m/s², standard gravity (NIST SP 811)
 
 
 def test_round_trip_check_values():
-    # REFERENCES.md §3 (V): m = 1000 kg, L = 2.5 m, h = 0.50 m, r_s = 0.30 m, theta = 20 deg -> dF = 285.546 N.
+    # docs/references.md §3 (V): m = 1000 kg, L = 2.5 m, h = 0.50 m, r_s = 0.30 m, theta = 20 deg -> dF = 285.546 N.
     theta = np.radians(20.0)
     df = load_change(1000.0 * G0, 2.5, 0.50, 0.30, theta)
     assert df == pytest.approx(285.546, abs=5e-4)
@@ -39,7 +39,7 @@ def test_round_trip_check_values():
 
 
 def test_angle_from_rise():
-    # sin(theta) = H / L (ISO 10392 geometry, REFERENCES.md §3)
+    # sin(theta) = H / L (ISO 10392 geometry, docs/references.md §3)
     assert angle_from_rise(0.5 * 2.6, 2.6) == pytest.approx(np.pi / 6, rel=1e-15)
     with pytest.raises(ValueError, match="between 0 and the wheelbase"):
         angle_from_rise(2.7, 2.6)

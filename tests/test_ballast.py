@@ -1,6 +1,6 @@
 """Sizing one ballast block: density bands, rounding at the low end of the band, plates, stock, bad input.
 
-Reference values: ASTM B777-15 Table 1 density bands and the worked check of REFERENCES.md §2 (a 100 × 50 × 20 mm
+Reference values: ASTM B777-15 Table 1 density bands and the worked check of docs/references.md §2 (a 100 × 50 × 20 mm
 block of Class 1 weighs 1.685–1.730 kg, of Class 4 1.825–1.885 kg). Exact block volumes come from
 massmodel.ballast.block (checked against OpenCascade in tests/test_block.py).
 """
@@ -40,7 +40,7 @@ def box_env(size, clearance=0.001, at=(0.0, 0.0, 0.0), linear=None, name="s"):
 
 @pytest.mark.parametrize(("cls", "lo", "hi"), [(1, 1.685, 1.730), (4, 1.825, 1.885)])
 def test_astm_b777_worked_check(cls, lo, hi):
-    # REFERENCES.md §2 worked check: a 100 x 50 x 20 mm block (100 cm^3), ASTM B777-15 Table 1 bands.
+    # docs/references.md §2 worked check: a 100 x 50 x 20 mm block (100 cm^3), ASTM B777-15 Table 1 bands.
     sizing = heaviest_block(box_env((0.102, 0.052, 0.022)), spec_from_parts(CLASS[cls], "+z", increment=0.5e-3))
     assert [p.geometry.size for p in sizing.pieces] == [(0.1, 0.05, 0.02)]
     nominal, low, high = sizing.masses()

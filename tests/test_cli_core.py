@@ -87,7 +87,7 @@ def test_report_inertia_about_points(capsys, car: Path, tmp_path: Path) -> None:
 
 
 def test_report_inertia_in_vehicle_axes_uses_parameters(capsys, tmp_path: Path) -> None:
-    # SAE J670e axes (x forward, y right, z down; REFERENCES.md §4): vehicle axes are (+x, -y, -z) in model axes
+    # SAE J670e axes (x forward, y right, z down; docs/references.md §4): vehicle axes are (+x, -y, -z) in model axes
     text = """
 [model]
 name = "sae"

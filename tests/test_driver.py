@@ -45,7 +45,7 @@ def totals(segments):
 # --- published fractions --------------------------------------------------------------------------------------
 
 def test_plagenhoef_sums_as_transcribed_and_normalised_fractions_sum_to_one():
-    # REFERENCES.md §10 (R2): the male set sums to 100.70 % with both limbs counted; the female set to 100.00 %
+    # docs/references.md §10 (R2): the male set sums to 100.70 % with both limbs counted; the female set to 100.00 %
     assert MALE.percent_sum == pytest.approx(100.70, abs=1e-12)
     assert FEMALE.percent_sum == pytest.approx(100.00, abs=1e-12)
     for data in (MALE, FEMALE):
@@ -59,7 +59,7 @@ def test_plagenhoef_sums_as_transcribed_and_normalised_fractions_sum_to_one():
 
 
 def test_cg_locations_are_the_tabulated_ones():
-    # REFERENCES.md §10 (R2), male, % of segment length from the proximal end
+    # docs/references.md §10 (R2), male, % of segment length from the proximal end
     assert {k: v[1] for k, v in MALE.segments.items()} == {
         "head_neck": 55.0, "trunk": 50.0, "upper_arm": 43.6, "forearm": 43.0, "hand": 46.8, "thigh": 43.3,
         "shank": 43.4, "foot": 50.0}
@@ -193,7 +193,7 @@ def test_driver_table_expands_into_fourteen_parts():
 
 
 def test_driver_mass_properties_against_an_independent_sum():
-    # Handbook closed forms (Machinery's Handbook 31st ed. pp.253-254; REFERENCES.md §1): cylinder
+    # Handbook closed forms (Machinery's Handbook 31st ed. pp.253-254; docs/references.md §1): cylinder
     # I_axis = m r^2/2, I_transverse = m(3r^2 + L^2)/12; ellipsoid I_a = m(b^2 + c^2)/5. Rotated into model axes
     # and moved to the common CG by the parallel-axis theorem, summed here without massmodel.core.massprops.
     model = loads_model(HEAD + DRIVER, label="car.toml")
@@ -222,7 +222,7 @@ def test_driver_mass_properties_against_an_independent_sum():
 
 def test_driver_mass_properties_against_opencascade():
     # Independent oracle: OpenCascade volume properties of each placed segment solid, accumulated with its density
-    # (GProp_GProps.Add(props, density); REFERENCES.md §1), eps 1e-14 for the NURBS ellipsoids.
+    # (GProp_GProps.Add(props, density); docs/references.md §1), eps 1e-14 for the NURBS ellipsoids.
     pytest.importorskip("cadquery")
     from OCP.BRepGProp import BRepGProp
     from OCP.GProp import GProp_GProps

@@ -1,8 +1,8 @@
 """Reading CAD estimates (JSON and CSV) under their declared conventions, and refusing bad ones clearly.
 
-Sources named beside the checks: REFERENCES.md §9 (unit factors, derived here from the exact definitions
-1 in = 0.0254 m, 1 ft = 0.3048 m, 1 lb = 0.45359237 kg, g_n = 9.80665 m/s², NIST SP 811 App. B), REFERENCES.md §5
-(positive vs negative products of inertia, SAWE Paper 3360), REFERENCES.md §1 (right triangular prism, derivation
+Sources named beside the checks: docs/references.md §9 (unit factors, derived here from the exact definitions
+1 in = 0.0254 m, 1 ft = 0.3048 m, 1 lb = 0.45359237 kg, g_n = 9.80665 m/s², NIST SP 811 App. B), docs/references.md §5
+(positive vs negative products of inertia, SAWE Paper 3360), docs/references.md §1 (right triangular prism, derivation
 V), OpenCascade as an independent oracle on a cadquery solid.
 """
 
@@ -56,7 +56,7 @@ def read(d, name="est.json"):
 @pytest.mark.parametrize(
     "unit, exact, published, rel",
     [
-        ("lb*in^2", LB * IN**2, 2.926397e-4, 2e-7),  # REFERENCES.md §9
+        ("lb*in^2", LB * IN**2, 2.926397e-4, 2e-7),  # docs/references.md §9
         ("lb*in*s^2", LB * G0 * IN, 0.1129848, 5e-7),  # §9: lb is pound-force in this unit
         ("slug*ft^2", (LB * G0 / FT) * FT**2, 1.355818, 5e-7),  # §9: 1 slug = 1 lbf s²/ft
         ("kg*mm^2", 1e-6, 1e-6, 0.0),  # §9
@@ -77,7 +77,7 @@ def test_inertia_units_from_exact_definitions(unit, exact, published, rel):
 
 
 def test_lb_in_s2_is_386_lb_in2_and_the_diagnosis_uses_that_factor(tmp_path):
-    # REFERENCES.md §9: 1 lb·in·s² = 386.0886 lb·in² (= g_n / 1 in exactly).
+    # docs/references.md §9: 1 lb·in·s² = 386.0886 lb·in² (= g_n / 1 in exactly).
     from massmodel.compare.diagnose import candidates
 
     est = read(doc(units={"mass": "kg", "length": "mm", "inertia": "lb*in^2"}))
@@ -86,7 +86,7 @@ def test_lb_in_s2_is_386_lb_in2_and_the_diagnosis_uses_that_factor(tmp_path):
     assert G0 / IN == pytest.approx(386.0886, rel=2e-7)
     est = read(doc())
     labels = [c.label for c in candidates(est) if c.kind == "inertia_unit"]
-    # lb·in² read as kg·mm²: 0.45359237 × 0.0254² / 1e-6 = 292.6397 (REFERENCES.md §9)
+    # lb·in² read as kg·mm²: 0.45359237 × 0.0254² / 1e-6 = 292.6397 (docs/references.md §9)
     assert any("in lb*in^2, not the declared kg*mm^2 (factor 292.6397)" in t for t in labels)
     for unit, factor in (("g*mm^2", "0.001"), ("kg*m^2", "1000000"), ("slug*ft^2", "1355818")):
         assert any(f"in {unit}, not the declared kg*mm^2 (factor {factor})" in t for t in labels), unit
@@ -97,10 +97,10 @@ def _wedge_solid(a_mm, b_mm, length_mm):
 
 
 def test_positive_products_about_a_corner_read_into_the_tensor_convention_about_the_cg():
-    # Right triangular prism, legs a (x), b (y), length L (z), right angle at the origin (REFERENCES.md §1, V):
+    # Right triangular prism, legs a (x), b (y), length L (z), right angle at the origin (docs/references.md §1, V):
     # centroid (a/3, b/3, L/2); centroidal I_xx = m(b²/18 + L²/12), I_yy = m(a²/18 + L²/12), I_zz = m(a²+b²)/18,
     # tensor I_xy = +m a b/36. About the right-angle corner: ∫xy dm = +m a b/12, ∫xz dm = m a L/6,
-    # ∫yz dm = m b L/6. Written in the POSITIVE convention (P = +∫xy dm, REFERENCES.md §5) about the corner.
+    # ∫yz dm = m b L/6. Written in the POSITIVE convention (P = +∫xy dm, docs/references.md §5) about the corner.
     a, b, length, rho = 0.09, 0.05, 0.03, 2700.0
     m = rho * a * b * length / 2
     g = np.array([a / 3, b / 3, length / 2])

@@ -1,6 +1,6 @@
 """Tests for massmodel.cad.imported: STEP and mesh files as component and slot shapes.
 
-Sources (see /work/shared/REFERENCES.md §1): closed forms of the cuboid and the solid cylinder from Machinery's
+Sources (see docs/references.md §1): closed forms of the cuboid and the solid cylinder from Machinery's
 Handbook 31st ed. pp.253-254 (R): cuboid I_xx = m(b² + c²)/12 and cyclic; cylinder of radius r and length L,
 I_axis = m r²/2, I_transverse = m(3r² + L²)/12; hexagonal prism area 3√3/2 R² (regular hexagon of circumradius R,
 from memory). The STEP files are written in the tests by cadquery, independently of massmodel's reader.

@@ -30,7 +30,7 @@ from massmodel.core.massprops import (
 
 
 def box_props(m, a, b, c, center=(0.0, 0.0, 0.0)):
-    # Machinery's Handbook 31st ed. p. 253 / REFERENCES.md §1: I_a = m(b² + c²)/12 and cyclic.
+    # Machinery's Handbook 31st ed. p. 253 / docs/references.md §1: I_a = m(b² + c²)/12 and cyclic.
     return MassProperties(m, center, np.diag([m * (b * b + c * c) / 12, m * (a * a + c * c) / 12, m * (a * a + b * b) / 12]))
 
 
@@ -98,7 +98,7 @@ def test_cube_split_into_eight_recombines():
 
 
 def test_products_sign_conventions():
-    # REFERENCES.md §5: positive P_xy = +∫xy dm vs tensor I_xy = -∫xy dm.
+    # docs/references.md §5: positive P_xy = +∫xy dm vs tensor I_xy = -∫xy dm.
     mp = combine([MassProperties.point(1.0, [1, 1, 0]), MassProperties.point(1.0, [-1, -1, 0])])
     assert mp.inertia[0, 1] == pytest.approx(-2.0)  # -Σ m x y
     assert products_positive(mp.inertia)[0, 1] == pytest.approx(2.0)

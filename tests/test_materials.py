@@ -1,4 +1,4 @@
-"""The built-in materials library against its published sources (REFERENCES.md §2)."""
+"""The built-in materials library against its published sources (docs/references.md §2)."""
 
 from __future__ import annotations
 
@@ -71,7 +71,7 @@ maturity = "calculated"
 
 @pytest.mark.parametrize(("cls", "low_kg", "high_kg"), [(1, 1.685, 1.730), (4, 1.825, 1.885)])
 def test_worked_block_check(tmp_path: Path, cls: int, low_kg: float, high_kg: float) -> None:
-    # REFERENCES.md §2 worked check: a 100 x 50 x 20 mm block (100 cm^3) of Class 1 alloy weighs 1.685-1.730 kg;
+    # docs/references.md §2 worked check: a 100 x 50 x 20 mm block (100 cm^3) of Class 1 alloy weighs 1.685-1.730 kg;
     # of Class 4, 1.825-1.885 kg.
     block = load_model(block_file(tmp_path, f"tungsten_b777_class{cls}")).component("ballast/block")
     assert block.volume == pytest.approx(100e-6, rel=1e-12)

@@ -434,7 +434,7 @@ pattern = { count = 3, step = [10, 0, 0] }     # in the group's frame: along mod
     plates = model.select(["stack"])
     assert [c.path for c in plates] == [f"stack/plate-{k}" for k in range(1, 6)]
     assert [c.props.center[2] for c in plates] == pytest.approx([0.006, 0.018, 0.030, 0.042, 0.054], rel=1e-12)
-    m = 11340.0 * 0.1 * 0.1 * 0.01  # lead 11.34 g/cm^3 (REFERENCES.md §2)
+    m = 11340.0 * 0.1 * 0.1 * 0.01  # lead 11.34 g/cm^3 (docs/references.md §2)
     total = model.mass_properties(["stack"])
     assert total.mass == pytest.approx(5 * m, rel=1e-12)
     assert_close(total.center, [0.0, 0.0, 0.030], 1e-12)
@@ -685,7 +685,7 @@ def test_rulebook_errors_name_the_rulebook(tmp_path: Path) -> None:
 
 
 # --------------------------------------------------------------------------------------------------------------
-# SAE z-down vehicle axes (REFERENCES.md §4: SAE J670e x forward, y right, z down)
+# SAE z-down vehicle axes (docs/references.md §4: SAE J670e x forward, y right, z down)
 # --------------------------------------------------------------------------------------------------------------
 
 CAR_PARTS = """

@@ -31,7 +31,7 @@ def make_test(kind, periods, body_mass, fixture=None, compare=None, gravity=G0, 
 
 
 def test_bifilar_check_value():
-    # REFERENCES.md §6 (V): m = 10 kg, D = 0.5 m, L = 2 m, T = 2 s -> I = 0.31051 kg m^2
+    # docs/references.md §6 (V): m = 10 kg, D = 0.5 m, L = 2 m, T = 2 s -> I = 0.31051 kg m^2
     # (Jardin & Mueller, AIAA 2007-6822: I = m g T^2 D^2 / (16 pi^2 L)).
     assert bifilar_inertia(10.0, 2.0, 0.5, 2.0, G0) == pytest.approx(0.31051, abs=5e-6)
     res = reduce_pendulum(make_test(PendulumKind.BIFILAR, [2.0, 2.01, 1.99], 10.0, wire_spacing=0.5, wire_length=2.0))

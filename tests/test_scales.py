@@ -36,7 +36,7 @@ def iso_vehicle(wheelbase=2.6, tf=1.5, tr=1.4, station=0.0, ground=-0.3) -> Vehi
 
 
 def test_jazar_example_40_from_scale_readings_in_newton():
-    # Jazar, Vehicle Dynamics: Theory and Application (Springer 2008), Ch. 2, Example 40 (REFERENCES.md §3):
+    # Jazar, Vehicle Dynamics: Theory and Application (Springer 2008), Ch. 2, Example 40 (docs/references.md §3):
     # l = 2.34 m, Fz1 = 2000 N, Fz2 = 1800 N per wheel -> a1 = 1.1084 m, a2 = 1.2316 m.
     s = loads_session('[session]\nname = "j"\n[[weighing]]\nreadings = ["2000 N", "2000 N", "1800 N", "1800 N"]\n')
     corners = reduce_weighings(s.weighings)

@@ -1,6 +1,6 @@
 """Tests for massmodel.core.shapes: primitive solids against handbook closed forms and two independent oracles.
 
-Sources (see /work/shared/REFERENCES.md §1):
+Sources (see docs/references.md §1):
 - closed forms: Machinery's Handbook 31st ed. pp.253-254 (R), Wikipedia "List of moment of inertia tensors" (R),
   rows flagged V derived here (derivation named beside the check);
 - OpenCascade through OCP (`BRepGProp.VolumeProperties_s`, `GProp_GProps.MatrixOfInertia`: about the centre
@@ -231,7 +231,7 @@ def surface_distance(shape: Shape, p: np.ndarray) -> np.ndarray:
 
 
 # ----------------------------------------------------------------------------------------------------------
-# 1. Handbook closed forms (REFERENCES.md §1), written out here
+# 1. Handbook closed forms (docs/references.md §1), written out here
 # ----------------------------------------------------------------------------------------------------------
 
 
@@ -270,17 +270,17 @@ def handbook(shape: Shape) -> tuple[float, np.ndarray, np.ndarray]:
         m = 4 / 3 * math.pi * s.radius**3
         return m, zero, np.eye(3) * 0.4 * m * s.radius**2
     if isinstance(s, SphericalShell):
-        # REFERENCES §1 thick shell (V): (2/5) m (R⁵ − r⁵)/(R³ − r³).
+        # docs/references.md §1 thick shell (V): (2/5) m (R⁵ − r⁵)/(R³ − r³).
         big, small = s.outer_radius, s.inner_radius
         m = 4 / 3 * math.pi * (big**3 - small**3)
         return m, zero, np.eye(3) * 0.4 * m * (big**5 - small**5) / (big**3 - small**3)
     if isinstance(s, Hemisphere):
-        # REFERENCES §1 hemisphere (V): centroid 3R/8 from the flat face; I_axis 2/5 m R²; transverse 83/320 m R².
+        # docs/references.md §1 hemisphere (V): centroid 3R/8 from the flat face; I_axis 2/5 m R²; transverse 83/320 m R².
         r = s.radius
         m = 2 / 3 * math.pi * r**3
         return m, np.array([0, 0, 3 * r / 8]), np.diag([83 / 320 * m * r * r] * 2 + [0.4 * m * r * r])
     if isinstance(s, Cone):
-        # REFERENCES §1 cone (R, V): centroid h/4 above the base; I_axis 3/10 m r²; transverse about the centroid
+        # docs/references.md §1 cone (R, V): centroid h/4 above the base; I_axis 3/10 m r²; transverse about the centroid
         # 3/20 m r² + 3/80 m h² (equivalently about the apex 3/20 m r² + 3/5 m h², shifted by (3h/4)²).
         r, h = s.radius, s.height
         m = math.pi * r * r * h / 3
@@ -289,7 +289,7 @@ def handbook(shape: Shape) -> tuple[float, np.ndarray, np.ndarray]:
         assert math.isclose(about_apex - m * (3 * h / 4) ** 2, t, rel_tol=1e-13)
         return m, np.array([0, 0, h / 4]), np.diag([t, t, 0.3 * m * r * r])
     if isinstance(s, Frustum):
-        # REFERENCES §1 frustum (R2, V): centroid from the LARGE end h(R² + 2Rr + 3r²)/[4(R² + Rr + r²)];
+        # docs/references.md §1 frustum (R2, V): centroid from the LARGE end h(R² + 2Rr + 3r²)/[4(R² + Rr + r²)];
         # I_axis = (3/10) m (R⁵ − r⁵)/(R³ − r³). Transverse: derivation V by integrating discs,
         # dI = [r(z)²/4 + z²] dm about the base centre (Gauss-Legendre, exact for this polynomial), then shifted.
         r0, r1, h = s.base_radius, s.top_radius, s.height
@@ -306,7 +306,7 @@ def handbook(shape: Shape) -> tuple[float, np.ndarray, np.ndarray]:
         tr = about_base - m * zc * zc
         return m, np.array([0, 0, zc]), np.diag([tr, tr, axial])
     if isinstance(s, Wedge):
-        # REFERENCES §1 right triangular prism (V): centroid (a/3, b/3, L/2); I_zz = m(a² + b²)/18;
+        # docs/references.md §1 right triangular prism (V): centroid (a/3, b/3, L/2); I_zz = m(a² + b²)/18;
         # I_xx = m(b²/18 + L²/12); I_yy = m(a²/18 + L²/12); tensor I_xy = +m a b/36 (sign verified below).
         a, b, length = s.leg_x, s.leg_y, s.length
         m = a * b * length / 2
@@ -581,7 +581,7 @@ def test_mesh_chord_error(name: str) -> None:
 
 
 def test_cylinder_segment_count_and_volume_error() -> None:
-    # REFERENCES §1: a tessellated cylinder with N segments has relative volume error about −6.6/N²
+    # docs/references.md §1: a tessellated cylinder with N segments has relative volume error about −6.6/N²
     # (exactly N sin(2π/N)/(2π) − 1 for the inscribed polygon); N is the fewest with r(1 − cos(π/N)) <= tol.
     cyl = Cylinder(0.045, 0.23)
     tol = 2e-6

@@ -1,4 +1,4 @@
-"""Steady-state load transfer against the closed forms of REFERENCES.md §8 and the rigid-body equilibrium."""
+"""Steady-state load transfer against the closed forms of docs/references.md §8 and the rigid-body equilibrium."""
 
 from __future__ import annotations
 

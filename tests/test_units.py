@@ -3,7 +3,7 @@
 Reference values are derived in this file from the exact definitions in NIST SP 811
 (2008), Appendix B, which rest on the 1959 international yard and pound agreement:
 1 in = 0.0254 m, 1 ft = 0.3048 m, 1 lb = 0.45359237 kg, g_n = 9.80665 m/s².
-Published conversion factors are from ../shared/REFERENCES.md §9.
+Published conversion factors are from docs/references.md §9.
 """
 
 from __future__ import annotations
@@ -105,14 +105,14 @@ def test_unit_names_complete_and_read_only() -> None:
 @pytest.mark.parametrize(
     ("text", "derived", "published", "digits_rel"),
     [
-        # REFERENCES.md §9: 1 lb·in² = 2.926397e-4 kg·m²
+        # docs/references.md §9: 1 lb·in² = 2.926397e-4 kg·m²
         ("lb*in^2", POUND * INCH**2, 2.926397e-4, 2e-7),
-        # REFERENCES.md §9: 1 lb·in·s² = 0.1129848 kg·m² (lb is pound-force in this unit)
+        # docs/references.md §9: 1 lb·in·s² = 0.1129848 kg·m² (lb is pound-force in this unit)
         ("lb*in*s^2", POUND * G0 * INCH, 0.1129848, 5e-7),
         ("lbf*in*s^2", POUND * G0 * INCH, 0.1129848, 5e-7),
-        # REFERENCES.md §9: 1 slug·ft² = 1.355818 kg·m²
+        # docs/references.md §9: 1 slug·ft² = 1.355818 kg·m²
         ("slug*ft^2", POUND * G0 / FOOT * FOOT**2, 1.355818, 5e-7),
-        # REFERENCES.md §9: 1 kg·mm² = 1e-6 kg·m²; 1 g·mm² = 1e-9 kg·m²
+        # docs/references.md §9: 1 kg·mm² = 1e-6 kg·m²; 1 g·mm² = 1e-9 kg·m²
         ("kg*mm^2", 1e-6, 1e-6, 1e-15),
         ("g*mm^2", 1e-9, 1e-9, 1e-15),
         ("kg·m^2", 1.0, 1.0, 0.0),
@@ -127,7 +127,7 @@ def test_inertia_unit_factors(text: str, derived: float, published: float, digit
 
 
 def test_lb_in_s2_is_386_lb_in2() -> None:
-    # REFERENCES.md §9: 1 lb·in·s² = 386.0886 lb·in²; exactly g_n/(1 in) = 9.80665/0.0254
+    # docs/references.md §9: 1 lb·in·s² = 386.0886 lb·in²; exactly g_n/(1 in) = 9.80665/0.0254
     ratio = parse_unit("lb*in*s^2").value / parse_unit("lb*in^2").value
     assert ratio == pytest.approx(G0 / INCH, rel=REL)
     assert ratio == pytest.approx(386.0886, rel=1.5e-7)  # printed to 7 significant digits

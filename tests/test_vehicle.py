@@ -17,7 +17,7 @@ def iso_vehicle(wheelbase=2.5, tf=1.5, tr=1.4, station=0.0, ground=0.0):
 
 
 def test_jazar_example_40_longitudinal_cg():
-    # Jazar, Vehicle Dynamics: Theory and Application (Springer 2008), Ch. 2, Example 40 (REFERENCES.md §3):
+    # Jazar, Vehicle Dynamics: Theory and Application (Springer 2008), Ch. 2, Example 40 (docs/references.md §3):
     # l = 2.34 m, Fz1 = 2000 N, Fz2 = 1800 N per wheel -> a1 = 1.1084 m, a2 = 1.2316 m.
     wheelbase = 2.34
     front_n, rear_n = 2 * 2000.0, 2 * 1800.0
@@ -47,7 +47,7 @@ def test_corner_loads_lever_rule():
 
 
 def test_sae_axes_give_the_same_loads():
-    # SAE J670e: x forward, y right, z down (REFERENCES.md §4). The same car described in both frames.
+    # SAE J670e: x forward, y right, z down (docs/references.md §4). The same car described in both frames.
     iso = iso_vehicle(station=0.0, ground=0.0)
     sae = Vehicle(np.array([1.0, 0, 0]), np.array([0, -1.0, 0]), np.array([0, 0, -1.0]), 2.5, 1.5, 1.4, 0.0, 0.0)
     p = np.array([-1.1, 0.05, 0.3])

@@ -25,6 +25,8 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from . import display
+
 __all__ = [
     "InertiaError",
     "MassProperties",
@@ -217,10 +219,22 @@ class MassProperties:
         )
 
     def __repr__(self) -> str:
+        """One line, rounded: mass, CG (m) and the six tensor entries (kg·m² about the CG), reference frame."""
+        i = self.inertia
+        entries = " ".join(f"{k} {i[a, b] + 0.0:.4g}" for k, (a, b) in _TENSOR_ENTRIES)
         return (
-            f"MassProperties(mass={self.mass!r} kg, center={self.center.tolist()} m, "
-            f"inertia={self.inertia.tolist()} kg*m^2)"
+            f"<MassProperties {self.mass:.4g} kg, CG {display.vector(self.center, 4)} m, inertia about CG "
+            f"{entries} kg*m^2 (tensor convention); reference frame>"
         )
+
+    def _repr_html_(self) -> str:
+        """A small table: mass, CG and the tensor about the CG (reference frame, tensor convention)."""
+        rows = [["mass", f"{self.mass:.4g} kg"], ["CG (reference frame)", f"{display.vector(self.center, 4)} m"]]
+        rows += [[f"{k} about CG", f"{self.inertia[a, b] + 0.0:.4g} kg·m²"] for k, (a, b) in _TENSOR_ENTRIES]
+        return display.html_table(rows, caption="Mass properties (tensor convention, I_xy = -∫xy dm)")
+
+
+_TENSOR_ENTRIES = (("Ixx", (0, 0)), ("Iyy", (1, 1)), ("Izz", (2, 2)), ("Ixy", (0, 1)), ("Ixz", (0, 2)), ("Iyz", (1, 2)))
 
 
 def parallel_axis_shift(mass: npt.ArrayLike, offset: npt.ArrayLike) -> FloatArray:

@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
-from . import batch
+from . import batch, display
 from .frames import Pose
 from .groups import in_group
 from .loadcases import LoadCase
@@ -327,6 +327,14 @@ class Component:
         other = copy.copy(self)
         object.__setattr__(other, "uncertainty", uncertainty)
         return other
+    def __repr__(self) -> str:
+        """One line: path, mass, where the mass comes from, shape, CG in mm (model frame)."""
+        source = f"material {self.material}" if self.source is MassSource.MATERIAL else self.source.value
+        kind = getattr(self.shape, "kind", type(self.shape).__name__)
+        return (
+            f"<Component {self.path!r}: {self.props.mass:.4g} kg ({source}, {self.maturity.value}), {kind}, "
+            f"CG {display.vector(self.props.center, 0, 1e3)} mm model frame>"
+        )
 
     @property
     def group(self) -> str:
@@ -413,6 +421,30 @@ class Model:
         object.__setattr__(self, "_index", MappingProxyType(index))
         object.__setattr__(self, "parameters", MappingProxyType(dict(self.parameters)))
         object.__setattr__(self, "materials", MappingProxyType(dict(self.materials)))
+
+    def __repr__(self) -> str:
+        """One line: name, load case (when not the base), parts, mass, CG in mm (model frame)."""
+        case = f" case {self.case!r}" if self.case != "base" else ""
+        total = self.mass_properties()
+        cg = f", CG {display.vector(total.center, 0, 1e3)} mm" if total.mass > 0 else ""
+        return f"<Model {self.name!r}{case}: {len(self.components)} parts, {total.mass:.1f} kg{cg}>"
+
+    def _repr_html_(self) -> str:
+        """A small table of the model's key figures (the full report: :func:`massmodel.report.summary.build_report`)."""
+        total = self.mass_properties()
+        rows: list[list[object]] = [
+            ["load case", self.case],
+            ["source", self.source or "built in Python"],
+            ["parts", len(self.components)],
+            ["top-level groups", ", ".join(sorted({c.path.split("/")[0] for c in self.components if "/" in c.path}))],
+            ["mass", f"{total.mass:.1f} kg"],
+        ]
+        if total.mass > 0:
+            rows.append(["CG (model frame)", f"{display.vector(total.center, 0, 1e3)} mm"])
+        if self.vehicle is not None:
+            rows.append(["wheelbase", f"{display.number(self.vehicle.wheelbase, 0, 1e3)} mm"])
+        rows.append(["rules", len(self.rules)])
+        return display.html_table(rows, caption=f"Model '{self.name}'")
 
     def component(self, path: str) -> Component:
         """The component with this path (KeyError naming close matches when absent)."""

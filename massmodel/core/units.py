@@ -404,7 +404,7 @@ def unit_product(parts: Sequence[tuple[str, int, bool]]) -> Quantity:
     factor, dim = _combine(parts)
     if dim.time > 0 and any(name == "lb" for name, _, _ in parts):
         # "lb·in·s²" is the customary US inertia unit, where lb is pound-force
-        # (REFERENCES §9: 1 lb·in·s² = 386.0886 lb·in²). Read literally it would be
+        # (docs/references.md §9: 1 lb·in·s² = 386.0886 lb·in²). Read literally it would be
         # kg·m·s², which is no physical quantity; read lb as lbf when that gives a
         # dimension free of time (inertia for lb·in·s², mass for lb·s²/in).
         as_force = [("lbf" if name == "lb" else name, e, d) for name, e, d in parts]

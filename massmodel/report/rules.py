@@ -16,35 +16,9 @@ from __future__ import annotations
 
 from typing import Any
 
-from massmodel.vehicle.balance import Bound, RuleResult
+from massmodel.vehicle.balance import DECIMALS, RuleResult, limit_text
 
 __all__ = ["DECIMALS", "dict_limit_text", "limit_text", "rule_dict", "rule_limit_text"]
-
-#: Decimals shown for a rule's value, limits and margin, by unit (kg to 10 g; m to 0.1 mm; a share to 1e-4).
-DECIMALS = {"kg": 2, "m": 4, "fraction": 4}
-
-
-def limit_text(bound: Bound | str, limit_min: float | None, limit_max: float | None, unit: str) -> str:
-    """The limits of a rule as text with their unit, e.g. ``">= 425.00 kg"`` or ``"0.4000 .. 0.5000 fraction"``.
-
-    Parameters
-    ----------
-    bound : Bound or its value ("at_least", "at_most", "between")
-    limit_min, limit_max : float or None
-        In ``unit``; the one the bound does not use may be None.
-    unit : str
-        "kg", "m" or "fraction" (other units get 4 decimals).
-    """
-    kind = Bound(bound)
-    d = DECIMALS.get(unit, 4)
-    if kind is Bound.AT_LEAST:
-        text = f">= {limit_min:.{d}f}"
-    elif kind is Bound.AT_MOST:
-        text = f"<= {limit_max:.{d}f}"
-    else:
-        text = f"{limit_min:.{d}f} .. {limit_max:.{d}f}"
-    return f"{text} {unit}"
-
 
 def rule_limit_text(result: RuleResult) -> str:
     """The limits of one result as text with their unit (see :func:`limit_text`)."""

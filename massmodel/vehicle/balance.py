@@ -23,12 +23,13 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core import display
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck, Vehicle
 
 __all__ = [
-    "Balance", "Bound", "RuleResult", "static_balance", "check_rules", "check_rules_in_cases", "ballast_height_window",
-    "ASSUMPTIONS", "AT_LIMIT_RTOL",
+    "Balance", "Bound", "RuleResult", "RULE_HEADERS", "static_balance", "check_rules", "check_rules_in_cases",
+    "ballast_height_window", "limit_text", "DECIMALS", "ASSUMPTIONS", "AT_LIMIT_RTOL",
 ]
 
 ASSUMPTIONS = (
@@ -81,6 +82,28 @@ class Balance:
     front: float
     rear: float
     corners: FloatArray
+
+    def __repr__(self) -> str:
+        """One line: mass, axle loads (kg), front fraction, CG height (mm)."""
+        return (
+            f"<Balance {self.mass:.1f} kg: front {self.front:.1f} kg, rear {self.rear:.1f} kg "
+            f"(front {self.front_fraction:.4f}), CG {display.number(self.cg_height, 1, 1e3)} mm above ground, "
+            f"{display.number(self.cg_behind_front_axle, 1, 1e3)} mm behind the front axle>"
+        )
+
+    def _repr_html_(self) -> str:
+        """Corner and axle loads (kg) and the CG position in vehicle terms."""
+        c = self.corners
+        rows = [["front", f"{c[0]:.2f}", f"{c[1]:.2f}", f"{self.front:.2f}"],
+                ["rear", f"{c[2]:.2f}", f"{c[3]:.2f}", f"{self.rear:.2f}"]]
+        loads = display.html_table(rows, ["kg", "left", "right", "axle"], "Static loads (mass-equivalent kg)", (1, 2, 3))
+        where = [
+            ["front fraction", f"{self.front_fraction:.4f}"],
+            ["CG height above ground", f"{display.number(self.cg_height, 1, 1e3)} mm"],
+            ["CG behind front axle", f"{display.number(self.cg_behind_front_axle, 1, 1e3)} mm"],
+            ["CG left of centre plane", f"{display.number(self.cg_left_of_centre, 1, 1e3)} mm"],
+        ]
+        return loads + display.html_table(where, caption=f"CG of {self.mass:.1f} kg; assumptions: {ASSUMPTIONS}")
 
     @property
     def front_fraction(self) -> float:
@@ -141,6 +164,32 @@ class Bound(enum.Enum):
     BETWEEN = "between"  # limit_min <= value <= limit_max
 
 
+#: Decimals shown for a rule's value, limits and margin, by unit (kg to 10 g; m to 0.1 mm; a share to 1e-4).
+DECIMALS = {"kg": 2, "m": 4, "fraction": 4}
+
+
+def limit_text(bound: Bound | str, limit_min: float | None, limit_max: float | None, unit: str) -> str:
+    """The limits of a rule as text with their unit, e.g. ``">= 425.00 kg"`` or ``"0.4000 .. 0.5000 fraction"``.
+
+    Parameters
+    ----------
+    bound : Bound or its value ("at_least", "at_most", "between")
+    limit_min, limit_max : float or None
+        In ``unit``; the one the bound does not use may be None.
+    unit : str
+        "kg", "m" or "fraction" (other units get 4 decimals).
+    """
+    kind = Bound(bound)
+    d = DECIMALS.get(unit, 4)
+    if kind is Bound.AT_LEAST:
+        text = f">= {limit_min:.{d}f}"
+    elif kind is Bound.AT_MOST:
+        text = f"<= {limit_max:.{d}f}"
+    else:
+        text = f"{limit_min:.{d}f} .. {limit_max:.{d}f}"
+    return f"{text} {unit}"
+
+
 @dataclass(frozen=True, slots=True)
 class RuleResult:
     """Outcome of one rule check (numbers only; `massmodel.report.rules` writes them as text).
@@ -162,6 +211,28 @@ class RuleResult:
     margin: float
     unit: str
     detail: str
+
+    def cells(self) -> list[str]:
+        """Verdict, name, value, limit and margin as display texts with units (the rule-check table's row)."""
+        digits = 4 if self.unit in ("fraction", "m") else 2
+        if self.passed:  # a margin that rounds to zero shows no minus sign ...
+            margin = display.number(self.margin, digits)
+            margin = margin if margin.startswith("-") else "+" + margin
+        else:  # ... but a failing rule keeps it
+            margin = f"{self.margin:+.{digits}f}"
+        return ["pass" if self.passed else "FAIL", self.name, f"{display.number(self.value, digits)} {self.unit}",
+                limit_text(self.bound, self.limit_min, self.limit_max, self.unit), f"{margin} {self.unit}"]
+
+    def __repr__(self) -> str:
+        verdict, name, value, limit, margin = self.cells()
+        return f"<RuleResult {verdict} {name!r}: {value}, limit {limit}, margin {margin}>"
+
+    def _repr_html_(self) -> str:
+        return display.html_table([self.cells()], RULE_HEADERS, numeric=(2, 3, 4))
+
+
+#: Column headers of :meth:`RuleResult.cells`.
+RULE_HEADERS = ("", "rule", "value", "limit", "margin")
 
 
 def _at_least_result(rule: Rule, value: float, unit: str, detail: str) -> RuleResult:

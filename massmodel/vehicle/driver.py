@@ -6,7 +6,7 @@ trunk, head and neck, and both upper arms, forearms, hands, thighs, shanks and f
 its pose. The right limbs mirror the left ones across the driver's own mid-plane (through the hip point, normal to
 the vehicle's left direction).
 
-Data (flags as in REFERENCES.md §10):
+Data (flags as in docs/references.md §10):
 
 - Segment masses (% of body mass) and CG locations (% of segment length from the proximal end): Plagenhoef, Evans &
   Abdelnour (1983), "Anatomical data for analyzing human motion", Research Quarterly for Exercise and Sport 54(2),
@@ -101,7 +101,7 @@ _LIMBS = ("upper_arm", "forearm", "hand", "thigh", "shank", "foot")
 _PLAGENHOEF = ("Plagenhoef, Evans & Abdelnour (1983), Research Quarterly for Exercise and Sport 54(2), as "
                "transcribed on a university biomechanics lab page (R2)")
 
-# (mass %, CG % from proximal) per segment, one side: REFERENCES.md §10 (male) and the same lab page (female).
+# (mass %, CG % from proximal) per segment, one side: docs/references.md §10 (male) and the same lab page (female).
 SEGMENT_DATA: dict[str, SegmentData] = {
     "plagenhoef_1983_male": SegmentData("plagenhoef_1983_male", _PLAGENHOEF + ", male; masses normalised from "
                                         "100.70 %", {
