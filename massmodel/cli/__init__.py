@@ -28,6 +28,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "massmodel.cli.compare",
     "massmodel.cli.measure",
     "massmodel.cli.transfer",
+    "massmodel.cli.chassis",
     "massmodel.cli.view",
 )
 

@@ -40,6 +40,7 @@ from massmodel.core.model import (
 from massmodel.core.shapes import MAX_LENGTH_M, SHAPE_KINDS, ShapeError
 
 from . import cases as modelfile_cases
+from . import chassis as modelfile_chassis
 from . import driver as modelfile_driver
 from .reader import SOURCE_KEY, ModelFileError, parse_toml, read_toml, resolve_extends
 
@@ -47,7 +48,7 @@ __all__ = ["ModelFileError", "ModelSource", "build_model", "load_model", "loads_
            "source_from_text", "SHAPE_FILE_FIELDS", "PALETTE"]
 
 TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule", "case",
-                  "driver", "allowed_contact"}
+                  "driver", "allowed_contact", "chassis"}
 UNIT_KINDS: dict[str, units.Dimension] = {
     "length": units.LENGTH,
     "mass": units.MASS,
@@ -609,6 +610,7 @@ def _build(
     if not components:  # nothing to weigh: the fractions and the CG of no mass are undefined
         empty = f"case '{active.name}'" if active else "[[part]]"
         raise rd.error(empty, None, "the model has no parts (none defined, or every one optional or switched off)")
+    chassis = modelfile_chassis.read_chassis(rd, data.get("chassis"), vehicle, components)
 
     return Model(
         name=head["name"].strip(),
@@ -623,6 +625,7 @@ def _build(
         case=active.name if active else BASE_CASE,
         load_cases=cases,
         allowed_contacts=contacts,
+        chassis=chassis,
     )
 
 
