@@ -34,6 +34,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "massmodel.cli.measure",
     "massmodel.cli.page",
     "massmodel.cli.transfer",
+    "massmodel.cli.chassis",
     "massmodel.cli.view",
     "massmodel.cli.uncertainty",
     "massmodel.cli.studies",

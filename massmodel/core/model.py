@@ -395,6 +395,8 @@ class Model:
         Every load case the file defines (the same tuple in the base model and in each case's model).
     allowed_contacts : tuple of AllowedContact
         Pairs of parts meant to touch or overlap (left out of interference and clearance findings).
+    chassis : object or None
+        The ``[chassis]`` inputs (:class:`massmodel.vehicle.chassis.ChassisSpec`), None when the file has none.
     """
 
     name: str
@@ -409,6 +411,7 @@ class Model:
     case: str = "base"
     load_cases: tuple[LoadCase, ...] = ()
     allowed_contacts: tuple[AllowedContact, ...] = ()
+    chassis: Any = None
     _index: Mapping[str, int] = field(init=False, repr=False)
     _stacked: tuple[FloatArray, FloatArray, FloatArray] | None = field(init=False, repr=False, default=None)
 
@@ -582,4 +585,5 @@ class Model:
             case=self.case,
             load_cases=self.load_cases,
             allowed_contacts=self.allowed_contacts,
+            chassis=self.chassis,
         )

@@ -35,7 +35,7 @@ def _check_section_types(data: dict[str, Any], label: str) -> None:
 def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tuple[Path, ...]) -> dict[str, Any]:
     """Merge a model that ``extends`` another file into one data tree.
 
-    The child's parameters override the base's; its [vehicle] replaces the base's; materials must not clash; its
+    The child's parameters override the base's; its [vehicle] and [chassis] replace the base's; materials must not clash; its
     groups, parts, slots and rules are added after the base's; ``remove`` (in [model]) drops base parts and groups
     by path (a group path removes everything in it). [units] must agree, so that bare numbers keep their meaning.
     """
@@ -79,6 +79,8 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
     merged["parameters"] = {**base.get("parameters", {}), **data.get("parameters", {})}
     if "vehicle" in data:
         merged["vehicle"] = data["vehicle"]
+    if "chassis" in data:  # like [vehicle], the child's [chassis] replaces the base's
+        merged["chassis"] = data["chassis"]
     mats = dict(base.get("materials", {}))
     for key, value in data.get("materials", {}).items():
         if key in mats:

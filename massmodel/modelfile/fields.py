@@ -28,7 +28,7 @@ __all__ = ["FieldReader", "GroupFrame", "expression_message", "shape_keys", "mat
            "group_frames", "flag", "enclosing_groups", "SHAPE_FILE_FIELDS", "PALETTE", "UNIT_KINDS"]
 
 TOP_LEVEL_KEYS = {"model", "units", "parameters", "vehicle", "materials", "group", "part", "slot", "rule", "case",
-                  "driver", "allowed_contact", "uncertainty"}
+                  "driver", "allowed_contact", "uncertainty", "chassis"}
 UNIT_KINDS: dict[str, units.Dimension] = {
     "length": units.LENGTH,
     "mass": units.MASS,

@@ -35,6 +35,7 @@ from massmodel.core.model import (
 )
 
 from . import cases as modelfile_cases
+from . import chassis as modelfile_chassis
 from . import driver as modelfile_driver
 from .extends import resolve_extends
 from .fields import (
@@ -348,6 +349,7 @@ def _build(
         empty = f"case '{active.name}'" if active else "[[part]]"
         raise rd.error(empty, None, "the model has no parts (none defined, or every one optional or switched off)")
 
+    chassis = modelfile_chassis.read_chassis(rd, data.get("chassis"), vehicle, components)
     return Model(
         name=head["name"].strip(),
         components=tuple(components),
@@ -361,6 +363,7 @@ def _build(
         case=active.name if active else BASE_CASE,
         load_cases=cases,
         allowed_contacts=contacts,
+        chassis=chassis,
     )
 
 
