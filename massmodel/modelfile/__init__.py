@@ -1,9 +1,11 @@
 """Input files: the one file layer every reader uses, and the model-file loader.
 
 ``reader``: reading text (missing files, non-UTF-8 bytes, deep nesting), TOML and JSON, the ``[units]`` table, the
-point syntax, the base of every file's reader, and :class:`ModelFileError`; ``extends``: merging a model that extends
+point syntax, the base of every file's reader, and :class:`ModelFileError`; ``uncertainty``: the ``[uncertainty]``
+section (per-part standard uncertainties, merged across ``extends``); ``extends``: merging a model that extends
 another; ``fields``: the values of a model file in SI (quantities, poses, shapes, paths, colours); ``parts``,
-``cases`` and ``driver``: the ``[[part]]``, ``[[case]]`` and ``[[driver]]`` tables; ``loader``: :func:`load_model`,
+``cases``, ``driver`` and ``chassis``: the ``[[part]]``, ``[[case]]``, ``[[driver]]`` tables and the ``[chassis]``
+section; ``loader``: :func:`load_model`,
 :class:`ModelSource`, :func:`read_source`, :func:`build_model`. Each module imports only those listed before it
 (the loader imports them all; nothing imports the loader).
 
