@@ -211,3 +211,44 @@ def test_the_print_view_fits_the_page_width(tmp_path: Path, browser) -> None:
     pdf = page.pdf(format="A4")
     assert pdf.startswith(b"%PDF") and len(pdf) > 10_000
     ctx.close()
+
+
+def test_extras_show_the_results_of_the_other_commands(tmp_path: Path) -> None:
+    # The demo car declares uncertainties and a [chassis] section: both sections appear with the numbers of their own
+    # commands' data; a ballast result and a previous version appear only when given.
+    from massmodel.page.extras import collect_extras
+    from massmodel.report.uncertainty import report_uncertainty
+
+    models = load_case_models(DEMO)
+    extras = collect_extras(models, confidence=0.95)
+    assert set(extras) == {"uncertainty", "chassis"}
+    u = report_uncertainty(models["base"], 0.95)
+    assert extras["uncertainty"]["quantities"]["mass"] == u["quantities"]["mass"]
+    # one row per rule and case it applies in, as the rule table
+    assert len(extras["uncertainty"]["rules_at_confidence"]) == sum(len(m.rules) for m in models.values())
+    page = build_page(models, str(DEMO), PageOptions(pictures=False, view3d=False, extras=extras))
+    assert page.sections[-3:] == ("uncertainty", "chassis", "cautions")
+    g = u["growth"]["predicted_mass_kg"]
+    assert f"{g:.2f}\u2009kg" in page.html
+    share = extras["chassis"]["roll"]["lateral_load_transfer_front_share"]
+    assert f"{100 * share:.1f}\u2009%" in page.html
+    previous = REPO / "parts_demo" / "brindlecombe_bl3_previous.toml"
+    with_diff = collect_extras(models, previous=previous)
+    d = with_diff["changes"]
+    assert d["delta_mass_kg"] == pytest.approx(models["base"].mass_properties().mass - load_case_models(previous)[
+        "base"].mass_properties().mass, rel=1e-9, abs=1e-9)
+
+
+def test_a_ballast_file_that_is_not_a_placement_result_is_refused(tmp_path: Path, capsys) -> None:
+    model = tmp_path / "car.toml"
+    model.write_text(SMALL)
+    bogus = tmp_path / "plan.json"
+    bogus.write_text('{"format": "something else"}')
+    out = tmp_path / "page.html"
+    assert main(["publish", str(model), "-o", str(out), "--no-pictures", "--ballast", str(bogus)]) == 2
+    err = capsys.readouterr().err
+    assert str(bogus) in err and "not a place-ballast result" in err and err.count("\n") == 1
+    assert not out.exists()
+    # the ballast file is an input too: the page may not overwrite it
+    assert main(["publish", str(model), "-o", str(bogus), "--no-pictures", "--ballast", str(bogus)]) == 2
+    assert bogus.read_text() == '{"format": "something else"}'

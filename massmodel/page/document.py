@@ -260,6 +260,7 @@ table.parts td:first-child { font-family: ui-monospace, Menlo, Consolas, monospa
 .chip { font: 600 11px ui-monospace, Menlo, Consolas, monospace; padding: 1px 6px; border-radius: 2px;
         color: #fff; }
 .chip-pass { background: var(--pass); } .chip-fail { background: var(--fail); } .chip-none { background: var(--muted); }
+.chip-unsure { background: #b36b00; }
 .note { color: var(--muted); font-size: 13px; }
 dl.conventions { display: grid; grid-template-columns: max-content 1fr; gap: 2px 14px; font-size: 13px; }
 dl.conventions dt { font-weight: 600; }

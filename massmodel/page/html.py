@@ -9,7 +9,7 @@ import html
 import math
 from collections.abc import Sequence
 
-__all__ = ["esc", "num", "table", "chip", "figure_png", "tile"]
+__all__ = ["esc", "num", "table", "chip", "confidence_chip", "figure_png", "tile"]
 
 
 def esc(text: object) -> str:
@@ -34,6 +34,14 @@ def chip(passed: bool | None) -> str:
     if passed is None:
         return '<span class="chip chip-none">not checked</span>'
     return '<span class="chip chip-pass">pass</span>' if passed else '<span class="chip chip-fail">FAIL</span>'
+
+
+def confidence_chip(passes_at_confidence: bool, margin: float) -> str:
+    """The verdict with uncertainty: pass at the confidence, "not sure" (inside the limit, but by less than the
+    margin the confidence needs), or FAIL (outside the limit)."""
+    if passes_at_confidence:
+        return chip(True)
+    return '<span class="chip chip-unsure">not sure</span>' if margin >= 0.0 else chip(False)
 
 
 def table(

@@ -7,63 +7,20 @@ in by adding a builder that reads its own entry of ``PageInputs.extras``.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 
 from massmodel.core import cautions
+from massmodel.page.extras import EXTRA_BUILDERS
 from massmodel.page.html import chip, esc, num, table, tile
+from massmodel.page.inputs import PageInputs, Section
 from massmodel.report.rules import dict_limit_text
 
 __all__ = ["PageInputs", "Section", "SECTION_BUILDERS", "summary_line"]
 
 MM = 1000.0
-
-
-@dataclass(frozen=True)
-class Section:
-    """One section of the page: an anchor id, a title and its HTML body."""
-
-    key: str
-    title: str
-    body: str
-
-
-@dataclass(frozen=True)
-class PageInputs:
-    """What the page shows.
-
-    Attributes
-    ----------
-    reports : mapping of str to dict
-        Load case → the JSON report of that case's model (:func:`massmodel.report.summary.build_report`), base first.
-    source : str
-        The model file.
-    pictures : list of (str, str, str)
-        (base64 PNG, alt text, caption) of each picture.
-    view3d : bool
-        Whether the page holds a 3-D view (False: the model has no shaped part).
-    view_groups : list of (name, colour, mass kg, parts)
-        The groups the 3-D view can hide.
-    extras : mapping
-        Results of other commands that have a section of their own (keyed by section).
-    notes : list of str
-        Lines about what the page could not include, shown in the header.
-    """
-
-    reports: Mapping[str, dict[str, Any]]
-    source: str
-    pictures: list[tuple[str, str, str]] = field(default_factory=list)
-    view3d: bool = False
-    view_groups: list[tuple[str, str, float, int]] = field(default_factory=list)
-    extras: Mapping[str, Any] = field(default_factory=dict)
-    notes: list[str] = field(default_factory=list)
-
-    @property
-    def base(self) -> dict[str, Any]:
-        return next(iter(self.reports.values()))
 
 
 def _rules(inputs: PageInputs) -> list[tuple[str, dict[str, Any]]]:
@@ -258,5 +215,6 @@ SECTION_BUILDERS: list[SectionBuilder] = [
     _budget_section,
     _inertia_section,
     _pictures_section,
+    *EXTRA_BUILDERS,
     _cautions_section,
 ]
