@@ -100,3 +100,22 @@ def test_chart_labels_never_overlap_stay_inside_and_skip_groups_spread_around_th
     # four wheels: their common CG lies between the axles where no wheel is, so it gets no label
     assert not any(t.startswith("wheels ") for t in texts)
     assert any(t.startswith("driver ") for t in texts)
+
+
+def test_chart_draws_the_cg_uncertainty_of_a_model_that_declares_it(car, tmp_path):
+    # The ellipse's half-axes are 2 u of station and height, u from the RSS propagation (massmodel.uncertainty,
+    # Zimmerman & Nakai, docs/references.md §5); a model without [uncertainty] has no ellipse.
+    from massmodel.uncertainty import rss_uncertainties
+
+    est = rss_uncertainties(car)
+    chart = render_cg_chart(car, tmp_path / "c.png")
+    text = " ".join(" ".join(chart.notes).split())  # the notes are wrapped into lines
+    station_u = abs(car.vehicle.forward[0]) * est["cg_x"].u  # forward is the model's x axis in the demo
+    assert (f"CG ellipse: ± 2 standard uncertainties (RSS) of station ({2e3 * station_u:.1f} mm) and height "
+            f"({2e3 * est['cg_height'].u:.1f} mm)") in text
+    plain = loads_model(
+        '[model]\nname = "p"\n[vehicle]\nwheelbase = "2 m"\ntrack_front = "1.2 m"\ntrack_rear = "1.2 m"\n'
+        'front_axle_station = "0 m"\nground_level = "-0.2 m"\n[[part]]\npath = "a/b"\nshape = "box"\n'
+        'size = ["1 m", "0.5 m", "0.2 m"]\nat = ["-1 m", "0 m", "0 m"]\nmass = "100 kg"\nmaturity = "measured"\n',
+        label="plain.toml")
+    assert not any("CG ellipse" in n for n in render_cg_chart(plain, tmp_path / "p.png").notes)

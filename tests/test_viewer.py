@@ -409,3 +409,17 @@ def test_group_cg_in_empty_space_is_not_labelled_and_ballast_is_labelled_once_pe
         mine = [t for t in texts if t.startswith(f"{slot}: ")]
         assert mine and all(t.endswith(f" {mass:.2f} kg") for t in mine)
     assert not any(t.startswith("ballast ") for t in texts)
+
+
+def test_title_block_shows_the_standard_uncertainty_of_the_totals(car):
+    # ± u from the RSS propagation (massmodel.uncertainty; Zimmerman & Nakai, docs/references.md §5) where the
+    # model declares uncertainties, as the report does
+    from massmodel.pictures.sheet import title_block_rows
+    from massmodel.uncertainty import rss_uncertainties
+
+    rows = dict(title_block_rows(build_scene(car)))
+    est = rss_uncertainties(car)
+    assert rows["uncertainty, k = 1"] == (f"mass ± {est['mass'].u:.2f} kg · CG height ± {1e3 * est['cg_height'].u:.1f} mm"
+                                          f" · front ± {est['front_fraction'].u:.4f}")
+    plain = dict(title_block_rows(build_scene(loads_model(SMALL, label="small.toml"))))
+    assert "uncertainty, k = 1" not in plain

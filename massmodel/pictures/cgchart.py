@@ -155,7 +155,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
     """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
-    from matplotlib.patches import Polygon, Rectangle
+    from matplotlib.patches import Ellipse, Polygon, Rectangle
 
     out = Path(path)
     if out.suffix.lower() != ".png":
@@ -172,6 +172,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
     height = float(v.up @ total.center) - v.ground_level
     bands = station_bands(model)
     hmax = height_limit(model)
+    cg_u = _cg_uncertainty(model)
     front, rear = v.front_axle_station, v.rear_axle_station
     u = min(w / 1800.0, h / 1200.0)
 
@@ -241,6 +242,9 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
         for g, gm, gx, gy in group_cgs:
             size_pt = (6 + 14 * np.sqrt(gm / total.mass)) * u * (1.0 if g in in_material else 0.5)
             target.plot([gx], [gy], marker="D", ms=size_pt, mfc=colour[g], mec=INK, mew=0.8, zorder=4)
+        if cg_u is not None:  # ± 2 standard uncertainties of station and height (k = 2), correlation not drawn
+            target.add_patch(Ellipse((station, height), 4 * cg_u[0], 4 * cg_u[1], fc=CG_COLOUR, ec=CG_COLOUR,
+                                     alpha=0.18, lw=1.2, zorder=5))
         target.plot([station], [height], marker="o", ms=16 * u, mfc=CG_COLOUR, mec=INK, mew=1.6, zorder=6)
         target.plot([station], [height], marker="+", ms=30 * u, color=INK, mew=1.4, zorder=6)
         target.grid(True, color="#d8d0bd", lw=0.6)
@@ -350,6 +354,22 @@ class _LabelPlacer:
         return False
 
 
+def _cg_uncertainty(model: Model) -> tuple[float, float] | None:
+    """Standard uncertainties (m, k = 1, RSS) of the CG's station along forward and of its height, or None when
+    the model declares no uncertainties (:mod:`massmodel.uncertainty`); the model-axis terms are combined as
+    independent."""
+    from massmodel.uncertainty import rss_uncertainties
+    from massmodel.uncertainty.inputs import declares_uncertainty
+
+    if not declares_uncertainty(model):
+        return None
+    assert model.vehicle is not None
+    est = rss_uncertainties(model)
+    axes = np.array([est[k].u for k in ("cg_x", "cg_y", "cg_z")])
+    along = float(np.sqrt(np.sum((model.vehicle.forward * axes) ** 2)))
+    return along, float(est["cg_height"].u)
+
+
 def _notes(model: Model, station: float, height: float, bands: list[StationBand], hmax: float | None) -> list[str]:
     import textwrap
 
@@ -374,6 +394,10 @@ def _notes(model: Model, station: float, height: float, bands: list[StationBand]
     for r in check_rules(model):
         if r.check in ("min_mass", "min_group_mass"):
             lines.append(f"• {r.name}: {r.value:.2f} {r.unit} ({'pass' if r.passed else 'FAIL'}, limit {rule_limit_text(r)})")
+    cg_u = _cg_uncertainty(model)
+    if cg_u is not None:
+        lines.append(f"• CG ellipse: ± 2 standard uncertainties (RSS) of station ({2e3 * cg_u[0]:.1f} mm) and "
+                     f"height ({2e3 * cg_u[1]:.1f} mm)")
     lines.append("")
     wrapped: list[str] = []
     for line in lines:

@@ -81,11 +81,23 @@ def _m(v: float, digits: int = 4) -> str:
     return f"{v:.{digits}f}"
 
 
+def model_uncertainty(model: Any) -> dict[str, float]:
+    """Standard uncertainties (k = 1, RSS; SI) of the model's totals by quantity name, or {} when the model
+    declares none (:mod:`massmodel.uncertainty`)."""
+    from massmodel.uncertainty import rss_uncertainties
+    from massmodel.uncertainty.inputs import declares_uncertainty
+
+    if not declares_uncertainty(model):
+        return {}
+    return {name: est.u for name, est in rss_uncertainties(model).items()}
+
+
 def title_block_rows(scene: Scene) -> list[tuple[str, str]]:
     """(label, text) rows of the title block, every number from the scene's report (SI, units written)."""
     rep = scene.report
     cg = rep["cg_m"]
     src = Path(rep["source"]).name if rep["source"] else "(built in Python)"
+    u = model_uncertainty(scene.model)
     rows = [
         ("model", str(rep["model"])),
         ("file", src),
@@ -97,6 +109,11 @@ def title_block_rows(scene: Scene) -> list[tuple[str, str]]:
         rows.append(("CG to front axle", f"{_m(rep['cg_behind_front_axle_m'])} m behind"))
         ff = rep["front_fraction"]
         rows.append(("front mass fraction", f"{ff:.4f} ({100 * ff:.2f} %)"))
+    if u:  # standard uncertainties (k = 1, RSS) of the totals above
+        parts = [f"mass ± {u['mass']:.2f} kg"]
+        if "cg_height" in u:
+            parts += [f"CG height ± {1e3 * u['cg_height']:.1f} mm", f"front ± {u['front_fraction']:.4f}"]
+        rows.append(("uncertainty, k = 1", " · ".join(parts)))
     else:
         rows.append(("vehicle", "none declared: no ground, axles or balance"))
     rules = rep["rules"]
