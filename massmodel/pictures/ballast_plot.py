@@ -143,8 +143,9 @@ def plot_placement(result: Any, path: str | Path) -> Path:
     head_h, foot_h = 0.5 + 0.17 * (n_cases + 1), 0.75
     height = head_h + 3.0 + 3.4 + table_h + foot_h + 1.2
     fig = _figure((13.0, height))
-    grid = fig.add_gridspec(3, 2, height_ratios=[3.0, 3.4, max(table_h, 0.4)], hspace=0.35 * 3.0 / height * 3.5,
-                            wspace=0.18, top=1.0 - head_h / height, bottom=foot_h / height)
+    grid = fig.add_gridspec(3, 3, height_ratios=[3.0, 3.4, max(table_h, 0.4)], width_ratios=[1.1, 1.3, 0.8],
+                            hspace=0.35 * 3.0 / height * 3.5, wspace=0.22, top=1.0 - head_h / height,
+                            bottom=foot_h / height)
     side = fig.add_subplot(grid[0, :])
     _view(side, result, (0, 2), f"side elevation: {_axis_name(result, 0)} vs {_axis_name(result, 2)} (mm, model frame)")
     side.legend(loc="upper left", fontsize=6, frameon=False, ncol=2)
@@ -152,17 +153,18 @@ def plot_placement(result: Any, path: str | Path) -> Path:
     if used:  # the blocks are thin: a zoomed section of the side view around them
         pts = np.vstack([_box_outline(p, (0, 2), p.geometry.size, p.pose) for p in used])
         lo, hi = pts.min(axis=0), pts.max(axis=0)
-        inset = side.inset_axes((0.64, 0.52, 0.35, 0.46))
-        _view(inset, result, (0, 2), "")
+        # its own panel below the side view, so that it hides no part of the car
+        enlarged = fig.add_subplot(grid[1, 1])
+        _view(enlarged, result, (0, 2), "the blocks, side elevation enlarged (mm)")
         pad = np.array([60.0, 25.0])
-        inset.set_xlim(lo[0] - pad[0], hi[0] + pad[0])
-        inset.set_ylim(lo[1] - pad[1], hi[1] + pad[1])
-        inset.set_aspect("auto")
-        inset.tick_params(labelsize=6)
-        side.indicate_inset_zoom(inset, edgecolor="#555555")
+        enlarged.set_xlim(lo[0] - pad[0], hi[0] + pad[0])
+        enlarged.set_ylim(lo[1] - pad[1], hi[1] + pad[1])
+        enlarged.set_aspect("auto")
+        enlarged.tick_params(labelsize=6)
+        side.indicate_inset_zoom(enlarged, edgecolor="#555555")
     plan = fig.add_subplot(grid[1, 0])
     _view(plan, result, (0, 1), f"plan view: {_axis_name(result, 0)} vs {_axis_name(result, 1)} (mm, model frame)")
-    bars = fig.add_subplot(grid[1, 1])
+    bars = fig.add_subplot(grid[1, 2] if used else grid[1, 1:])
     names = [al.candidate.name for al in result.allocations]
     x = np.arange(len(names))
     caps = [al.capacity for al in result.allocations]
