@@ -114,7 +114,8 @@ def build_page(models: dict[str, Any], source: str, options: PageOptions | None 
     reports = {name: build_report(m) for name, m in models.items()}
     base = next(iter(models.values()))
     notes: list[str] = []
-    payload, groups = None, []
+    payload: dict[str, Any] | None = None
+    groups: list[Any] = []
     script = viewer_script() if opts.view3d else None
     if opts.view3d:
         from massmodel.page.scene3d import scene_payload

@@ -177,7 +177,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
     u = min(w / 1800.0, h / 1200.0)
 
     fig = Figure(figsize=(w / 100.0, h / 100.0), dpi=100, facecolor="#efeadd")
-    FigureCanvasAgg(fig)
+    canvas = FigureCanvasAgg(fig)
     fig.text(0.015, 0.975, f"CG chart · {model.name}", fontsize=20 * u, weight="bold", color=INK, va="top")
     fig.text(0.015, 0.94, "side view: station along forward (front to the right) and height above the ground, m; "
              f"limits from the rules for the current mass {total.mass:.2f} kg", fontsize=11.5 * u, color=INK, va="top")
@@ -253,7 +253,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
     ax.set_ylim(-0.1 - 0.042 * max(len(bands), 1), y_hi)
     ax.set_aspect("equal", adjustable="box")
     ax.apply_aspect()  # the axes' final place, so that labels can be measured where they will be drawn
-    renderer = fig.canvas.get_renderer()
+    renderer = canvas.get_renderer()
     placer = _LabelPlacer(ax, renderer)
     placer.reserve_point(station, height, 14 * u)
     for _, _, gx, gy in group_cgs:
@@ -291,7 +291,7 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
 
 
 # Label offsets (points) around a marker, nearest first.
-_NEAR = [(7, 7), (7, -16), (-7, 7), (-7, -16), (12, 22), (12, -30), (-12, 22), (-12, -30), (24, 0), (-24, 0),
+_NEAR: list[tuple[float, float]] = [(7, 7), (7, -16), (-7, 7), (-7, -16), (12, 22), (12, -30), (-12, 22), (-12, -30), (24, 0), (-24, 0),
          (20, 40), (20, -48), (-20, 40), (-20, -48), (40, 60), (40, -70), (-40, 60), (-40, -70)]
 
 

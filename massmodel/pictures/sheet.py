@@ -270,9 +270,10 @@ def write_png_atomic(fig: Any, path: Path, software: str = "massmodel render",
     fig.patch.set_alpha(0.0)
     canvas.draw()
     rgba = np.asarray(canvas.buffer_rgba())
-    base = np.empty(rgba.shape[:2] + (3,), np.uint16)
+    base: Any = np.empty(rgba.shape[:2] + (3,), np.uint16)
     base[:] = np.rint(np.array(paper[:3]) * 255.0).astype(np.uint16)
-    for img, x, y in under or []:
+    for image, x, y in under or []:
+        img: Any = image  # (H, W, 3) uint8
         h, w = img.shape[:2]
         base[y : y + h, x : x + w] = img[: base.shape[0] - y, : base.shape[1] - x]
     alpha = rgba[:, :, 3:4].astype(np.uint16)
@@ -335,8 +336,8 @@ def _compose(scene: Scene, panels: list[Panel], rendered: list[RenderedView], si
     ax.patch.set_visible(False)
     renderer = canvas.get_renderer()
     placer = _Placer(fig, ax, renderer)
-    font = {"family": "DejaVu Sans", "color": INK}
-    mono = {"family": "DejaVu Sans Mono", "color": INK}
+    font: dict[str, Any] = {"family": "DejaVu Sans", "color": INK}
+    mono: dict[str, Any] = {"family": "DejaVu Sans Mono", "color": INK}
 
     # sheet border: a heavy outer line and a thin inner one
     m = 14 * u
@@ -478,9 +479,9 @@ def _annotate_panel(
     # group CG and slot names where the view is not crowded (side and top views, or a single view)
     if panel.name not in ("side", "top") and not single:
         return
-    for g in (g for g in scene.group_markers if g.in_material):
-        p = _to_sheet(panel, g.center)[0]
-        placer.place(p, g.name, bounds, leader="#6d7378", prefer="nw", distances=(10.0, 24.0, 42.0, 64.0),
+    for marker in (m for m in scene.group_markers if m.in_material):
+        p = _to_sheet(panel, marker.center)[0]
+        placer.place(p, marker.name, bounds, leader="#6d7378", prefer="nw", distances=(10.0, 24.0, 42.0, 64.0),
                      fontsize=_pt(11 * u), **{**font, "color": INK})
     # slots
     for name, edges in scene.slot_edges:
@@ -551,14 +552,14 @@ def _info_strip(scene: Scene, ax: Any, size: tuple[int, int], u: float, font: di
     kx = x0 + w_legend + gap
     y = _header(ax, kx, top, w_key, "SYMBOLS", u, font)
     half = principal_axis_factor(scene)
-    k = scene.radii
+    radii = scene.radii
     keys: list[tuple[str, str]] = [
         ("total CG, drawn over the parts", "cg"),
         ("group CG (small, unlabelled: between its parts)", "group"),
         ("ballast: a part placed in a slot", "ballast"),
         ("slot envelope (wire)", "slot"),
         (f"principal axes 1-2-3 at the CG, half-length {half:g} k;\n"
-         f"radii of gyration k = {k[0]:.3f} / {k[1]:.3f} / {k[2]:.3f} m", "axes"),
+         f"radii of gyration k = {radii[0]:.3f} / {radii[1]:.3f} / {radii[2]:.3f} m", "axes"),
         ("wheel contact point on the ground, axle line", "contact"),
         ("see-through: a part hiding the CG or ballast", "clear"),
     ]

@@ -443,14 +443,15 @@ def show_interactive(
         del os.environ["VTK_DEFAULT_OPENGL_WINDOW"]  # a window needs the platform's own OpenGL window class
     import pyvista as pv
 
-    pl = pv.Plotter(off_screen=off_screen, window_size=window_size, lighting="light kit")
-    pl.set_background(PANEL_BACKGROUND)
+    pl = pv.Plotter(off_screen=off_screen, window_size=list(window_size), lighting="light kit")
+    pl.set_background(PANEL_BACKGROUND)  # type: ignore[arg-type]  # pyvista's decorator hides the signature
     stage = _Stage(scene, window_size, plotter=pl)
     stage.fill(None)
     pl.add_text("\n".join(title_lines), position="upper_left", font_size=10, color=INK)
     entries = [[f"{e.label}" + (f"  {e.mass:.1f} kg" if e.mass is not None else ""), e.colour] for e in scene.legend]
     if entries:
-        pl.add_legend(entries, bcolor="#f3efe4", border=True, size=(0.22, 0.04 * len(entries)), loc="lower right")
+        pl.add_legend(entries, bcolor="#f3efe4", border=True,  # type: ignore[arg-type]
+                      size=(0.22, 0.04 * len(entries)), loc="lower right")
     cg = scene.report["cg_m"]
     pl.add_point_labels(
         np.array([scene.cg]), [f"CG ({cg[0]:.3f}, {cg[1]:.3f}, {cg[2]:.3f}) m"], font_size=14,
