@@ -14,6 +14,7 @@ from massmodel.cli import EXIT_FAIL
 
 from .args import keyed, lengths, point, quantity
 from .core import add_model_arguments, load_from_args
+from .uncertainty import parse_confidence
 
 __all__ = ["register"]
 
@@ -100,6 +101,9 @@ def register(sub: argparse._SubParsersAction) -> None:
                     help="what to minimise once the least ballast is found (means over the cases; front_fraction: "
                          "closest to the target front fraction)")
     ov.add_argument("--margin", type=quantity("mass"), help="mass margin above every minimum, e.g. 0.5kg")
+    ov.add_argument("--confidence", type=parse_confidence, metavar="P",
+                    help="meet every rule with this one-sided confidence given the model's uncertainties (e.g. 0.95 "
+                         "or 95%%): each rule's margin becomes at least the one how-sure says it needs")
     ov.add_argument("--scale-resolution", metavar="MASS", type=quantity("mass"),
                     help="resolution of the scales, kept as a further margin on every mass rule, e.g. 0.1kg")
     ov.add_argument("--front-fraction", metavar="TARGET[,TOL]", type=_fraction_and_tolerance,
@@ -363,6 +367,26 @@ def _adjusted_plan(args: argparse.Namespace, model: Any) -> Any:
     return plan
 
 
+def _confidence_margins(cases: dict[str, Any], plan: Any, confidence: float) -> dict[str, float]:
+    """Per-rule margins (SI) that meet every rule of every case with the given confidence: the largest margin
+    the model's uncertainties ask for over the cases (:func:`massmodel.uncertainty.rule_confidence`, the values
+    of :func:`~massmodel.uncertainty.rule_margins`), and at least the plan's own ``[margins]`` entry."""
+    from massmodel.uncertainty import rule_confidence
+
+    out: dict[str, float] = {}
+    units: dict[str, str] = {}
+    for model in cases.values():
+        for r in rule_confidence(model, confidence):
+            out[r.name] = max(out.get(r.name, 0.0), float(r.required_margin_rss))
+            units[r.name] = r.unit
+    for name, value, _ in plan.margins:
+        if name in out:
+            out[name] = max(out[name], value)
+    shown = ", ".join(f"{name} {value:.4g} {units[name]}" for name, value in out.items() if value > 0.0)
+    print(f"margins for {confidence * 100:g} % confidence (one-sided, from the model's uncertainties): {shown}")
+    return out
+
+
 def _place(args: argparse.Namespace) -> int:
     from massmodel.ballast.export import Block, write_step, write_stl
     from massmodel.ballast.placement import place_ballast
@@ -378,7 +402,9 @@ def _place(args: argparse.Namespace) -> int:
     model = next(iter(cases.values()))
     plan = _adjusted_plan(args, model)
     try:
-        result = place_ballast(cases, plan, tradeoff_points=7 if args.trade_off else 0, other_rules=other_rules)
+        margins = _confidence_margins(cases, plan, args.confidence) if args.confidence is not None else None
+        result = place_ballast(cases, plan, margins=margins, tradeoff_points=7 if args.trade_off else 0,
+                               other_rules=other_rules)
     except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
         field = f" (plan field '{exc.field}')" if exc.field else ""
         raise ValueError(f"{args.plan}: {exc}{field}") from None
