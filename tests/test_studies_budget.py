@@ -107,3 +107,28 @@ def test_dask_run_equals_the_local_run() -> None:
         remote = run_points_dask(study, points, chunk=3, client=client, progress=lambda d, t: seen.append(d))
     assert np.array_equal(local[0], remote[0]) and np.array_equal(local[1], remote[1])
     assert seen[-1] == len(points) == 14
+
+
+def test_budget_mass_uncertainty_matches_the_rss_propagation() -> None:
+    # The total row's u_mass equals the RSS standard uncertainty of the total mass of massmodel.uncertainty
+    # (Zimmerman & Nakai, SAWE Paper 3360; shared density errors summed linearly, GUM §5.2, from memory); a part
+    # cut from a banded material carries its own share of that density error; a model without [uncertainty] has
+    # no u_mass.
+    from massmodel.modelfile.loader import load_model, loads_model
+    from massmodel.studies.budget import mass_budget
+    from massmodel.uncertainty import rss_uncertainties
+    from massmodel.uncertainty.inputs import uncertainty_inputs
+
+    demo = load_model(Path(__file__).resolve().parents[1] / "parts_demo" / "brindlecombe_bl3.toml")
+    b = mass_budget(demo)
+    assert b.total.u_mass == pytest.approx(rss_uncertainties(demo)["mass"].u, rel=1e-9)
+    unc = uncertainty_inputs(demo)
+    for r in b.rows:
+        if r.kind == "part":
+            i = unc.paths.index(r.path)
+            k = unc.density_group[i]
+            shared = unc.mass[i] * unc.u_density[k] if k >= 0 else 0.0
+            assert r.u_mass == pytest.approx(float(np.hypot(unc.u_mass[i], shared)), rel=1e-12)
+    plain = loads_model('[model]\nname = "p"\n[[part]]\npath = "a/b"\nshape = "point"\nmass = "1 kg"\n'
+                        'maturity = "measured"\n')
+    assert all(r.u_mass is None for r in mass_budget(plain).rows)

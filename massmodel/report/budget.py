@@ -22,7 +22,7 @@ BUDGET_COLUMNS = (
     ["row", "path", "depth", "parts", "mass_kg", "cg_x_m", "cg_y_m", "cg_z_m", "m_x_kg_m", "m_y_kg_m", "m_z_kg_m"]
     + [f"I{n}_cg_kg_m2" for n, _, _ in TENSOR_ENTRIES]
     + [f"I{n}_origin_kg_m2" for n, _, _ in TENSOR_ENTRIES]
-    + ["mass_source", "maturity", "material"]
+    + ["mass_source", "maturity", "material", "u_mass_kg"]
 )
 
 
@@ -32,7 +32,7 @@ def _cells(r: BudgetRow) -> list[Any]:
     return ([r.kind, r.path, r.depth, r.parts, mp.mass, *mp.center.tolist(), *r.moment.tolist()]
             + [float(mp.inertia[i, j]) for _, i, j in TENSOR_ENTRIES]
             + [float(io_[i, j]) for _, i, j in TENSOR_ENTRIES]
-            + [r.source, r.maturity, r.material])
+            + [r.source, r.maturity, r.material, "" if r.u_mass is None else r.u_mass])
 
 
 def budget_csv(b: Budget) -> str:
@@ -96,7 +96,9 @@ def write_budget_xlsx(b: Budget, path: str | Path) -> None:
         else:  # I_C,ab = I_O,ab + M C_a C_b (tensor convention)
             cells[f"I{name}_cg_kg_m2"] = f"={origin}+{m}*{cg[a]}*{cg[c]}"
     totals = b.total
-    cells.update({"mass_source": totals.source, "maturity": totals.maturity, "material": totals.material})
+    cells.update({"mass_source": totals.source, "maturity": totals.maturity, "material": totals.material,
+                  # an uncertainty is not a sum of the rows' uncertainties: the computed value, not a formula
+                  "u_mass_kg": "" if totals.u_mass is None else totals.u_mass})
     ws.append([cells.get(h, "") for h in BUDGET_COLUMNS])
     ws.freeze_panes = "C2"
     ws.column_dimensions[col["path"]].width = 42

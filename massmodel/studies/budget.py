@@ -4,7 +4,14 @@ so that a spreadsheet sums the part rows back to the model's totals.
 Each row carries, besides its CG and its tensor about its own CG, the first moments ``m r`` and the tensor about
 the model origin ``I_O = I_G + m S(r)`` (``S(d) = |d|² E − d dᵀ``, parallel-axis theorem; Goldstein, Poole & Safko,
 *Classical Mechanics*, 3rd ed. (2002), §5.3). These add over parts: ``M = Σ m``, ``C = Σ m r / M`` and
-``I_C = Σ I_O − M S(C)``. The model carries no per-part mass uncertainty, so the budget has no uncertainty column.
+``I_C = Σ I_O − M S(C)``.
+
+Where the model declares uncertainties (an ``[uncertainty]`` section), every row also carries the standard
+uncertainty of its mass (k = 1): the parts' independent errors add in quadrature and every part cut from one banded
+material shares that material's density error, so those add linearly within a row before the quadrature
+(Zimmerman & Nakai, SAWE Paper 3360, 2005, for the quadrature; GUM, JCGM 100:2008, §5.2 for the correlated terms,
+from memory; :mod:`massmodel.uncertainty`). These do not add over rows: a spreadsheet sums masses, not their
+uncertainties.
 """
 
 from __future__ import annotations
@@ -16,6 +23,7 @@ import numpy.typing as npt
 
 from massmodel.core.massprops import MassProperties, combine_arrays, parallel_axis_shift
 from massmodel.core.model import Model
+from massmodel.uncertainty.inputs import UncertaintyInputs, declares_uncertainty, uncertainty_inputs
 
 __all__ = ["BudgetRow", "Budget", "mass_budget", "TENSOR_ENTRIES"]
 
@@ -53,6 +61,7 @@ class BudgetRow:
     source: str
     maturity: str
     material: str
+    u_mass: float | None = None
 
     @property
     def moment(self) -> FloatArray:
@@ -89,6 +98,20 @@ def _summary(values: list[str], order: tuple[str, ...] | None = None) -> str:
     return distinct[0] if len(distinct) == 1 else "mixed"
 
 
+def _u_mass(unc: UncertaintyInputs | None, idx: npt.NDArray[np.intp]) -> float | None:
+    """Standard uncertainty (kg) of the mass of the parts ``idx``: independent errors in quadrature, each shared
+    density error summed over its parts first (see the module notes); None without declared uncertainties."""
+    if unc is None:
+        return None
+    independent = float(np.sum(unc.u_mass[idx] ** 2))
+    groups = unc.density_group[idx]
+    shared = 0.0
+    for k in np.unique(groups[groups >= 0]):
+        mass_k = float(np.sum(unc.mass[idx][groups == k]))
+        shared += (mass_k * float(unc.u_density[k])) ** 2
+    return float(np.sqrt(independent + shared))
+
+
 def mass_budget(model: Model) -> Budget:
     """The budget of a model (parts, group subtotals, total; see the module notes).
 
@@ -113,11 +136,13 @@ def mass_budget(model: Model) -> Budget:
                                  item[1] == "part", position.get(item[0], -1)))
     rows = []
     comps = model.components
+    unc = uncertainty_inputs(model) if declares_uncertainty(model) else None
     for path, kind in order:
         if kind == "part":
-            c = comps[position[path]]
+            i = position[path]
+            c = comps[i]
             rows.append(BudgetRow("part", path, path.count("/") + 1, 1, c.props, c.source.value, c.maturity.value,
-                                  c.material or ""))
+                                  c.material or "", _u_mass(unc, np.array([i]))))
         else:
             idx = np.array(members[path])
             props = MassProperties(*combine_arrays(masses[idx], centers[idx], inertias[idx]))
@@ -126,9 +151,10 @@ def mass_budget(model: Model) -> Budget:
                 _summary([comps[i].source.value for i in idx]),
                 _summary([comps[i].maturity.value for i in idx], _MATURITY_ORDER),
                 _summary([comps[i].material or "" for i in idx]),
+                _u_mass(unc, idx),
             ))
     total = model.mass_properties()
     rows.append(BudgetRow("total", "", 0, len(comps), total, _summary([c.source.value for c in comps]),
                           _summary([c.maturity.value for c in comps], _MATURITY_ORDER),
-                          _summary([c.material or "" for c in comps])))
+                          _summary([c.material or "" for c in comps]), _u_mass(unc, np.arange(len(comps)))))
     return Budget(model.name, model.case, model.source, tuple(rows))
