@@ -433,11 +433,14 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
 
     markers: list[GroupMarker] = []
     if opts.group_cgs:
-        names = sorted({group_key(c.path, opts.group_depth) for c in model.components})
-        for g in names:
-            index = [i for i, c in enumerate(model.components) if group_key(c.path, opts.group_depth) == g]
-            members = [model.components[i] for i in index]
-            mp = MassProperties(*combine_arrays(*model.arrays(members)))
+        keys = [group_key(c.path, opts.group_depth) for c in model.components]
+        by_group: dict[str, list[int]] = {}
+        for i, g in enumerate(keys):  # one pass over the parts, not one a group
+            by_group.setdefault(g, []).append(i)
+        masses, centers, tensors = model.arrays()  # the engine's arrays of every part, made once
+        for g in sorted(by_group):
+            index = by_group[g]
+            mp = MassProperties(*combine_arrays(masses[index], centers[index], tensors[index]))
             colour = group_colour[g] if opts.colour_by is ColourBy.GROUP else "#6d7378"
             markers.append(GroupMarker(g or "(top level)", colour, np.array(mp.center), mp.mass,
                                        cg_in_material(np.array(mp.center), part_boxes[index])))
