@@ -27,6 +27,7 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))  # this checkout's massmodel, also for the in-process comparison
+sys.path.insert(0, str(Path(__file__).resolve().parent))  # benchmarks/targets.py
 CAR = ROOT / "parts_demo" / "brindlecombe_bl3.toml"
 ENV = {**os.environ, "VTK_DEFAULT_OPENGL_WINDOW": "vtkEGLRenderWindow", "PYTHONPATH": str(ROOT)}
 
@@ -169,19 +170,28 @@ def cutout_comparison() -> None:
           f"{(t_cad + t_import) / t_manifold:.0f} x cold); OpenCascade mesh volume error up to {max(vols):.2%}")
 
 
-def main() -> None:
+def main() -> int:
+    from targets import Targets  # benchmarks/targets.py
+
+    targets = Targets()
     with tempfile.TemporaryDirectory() as tmp:
         ref_wall, _ = cold(REFERENCE, str(Path(tmp) / "ref.png"))
         print(f"reference: cold process, one sphere rendered off-screen and saved: {ref_wall:.2f} s")
-        wall, out = cold(CHILD, str(CAR), str(Path(tmp) / "car.png"))
-        report_case("demo car", 5.0, wall, json.loads(out), ref_wall)
-        big = Path(tmp) / "generated.toml"
-        big.write_text(generated_model(1000), encoding="utf-8")
-        wall, out = cold(CHILD, str(big), str(Path(tmp) / "big.png"))
-        report_case("generated model", 15.0, wall, json.loads(out), ref_wall)
+        demo_wall, out = cold(CHILD, str(CAR), str(Path(tmp) / "car.png"))
+        report_case("demo car", 5.0, demo_wall, json.loads(out), ref_wall)
+        walls = {}
+        for n in (1000, 10_000):
+            big = Path(tmp) / f"generated_{n}.toml"
+            big.write_text(generated_model(n), encoding="utf-8")
+            walls[n], out = cold(CHILD, str(big), str(Path(tmp) / f"big_{n}.png"))
+            report_case(f"generated model, {n} parts", 15.0, walls[n], json.loads(out), ref_wall)
+    print()
+    targets.at_most("render of 10,000 parts / render of the demo car (cold, wall)", walls[10_000] / demo_wall, 3.0)
+    targets.info("render of 1,000 parts / render of the demo car (cold, wall)", walls[1000] / demo_wall, "x")
     if "--cut-outs" in sys.argv:
         cutout_comparison()
+    return targets.exit_code()
 
 
 if __name__ == "__main__":
-    main()
+    sys.exit(main())
