@@ -51,6 +51,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties, parallel_axis_shift
 from massmodel.core.model import Component, Model, RuleCheck, in_group
 from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
@@ -396,7 +397,7 @@ class _Problem:
 
 def _problem(model: Model, plan: Plan) -> tuple[_Problem, Model]:
     if model.vehicle is None:
-        raise ValueError(f"{model.source or model.name}: ballast placement needs a [vehicle] section")
+        raise UsageError(f"{model.source or model.name}: ballast placement needs a [vehicle] section")
     removed = [p for c in plan.candidates for p in c.replace]
     baseline = model.with_components([c for c in model.components if c.path not in removed])
     lines = [_line(c) for c in plan.candidates]

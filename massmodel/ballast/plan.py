@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import expr, units
-from massmodel.core.errors import InputError
+from massmodel.core.errors import InputError, NotFoundError, UsageError
 from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, in_group
@@ -140,7 +140,7 @@ class Plan:
         for c in self.candidates:
             if c.name == name:
                 return c
-        raise KeyError(f"the plan has no candidate slot '{name}'; candidates: "
+        raise NotFoundError(f"the plan has no candidate slot '{name}'; candidates: "
                        f"{', '.join(c.name for c in self.candidates)}")
 
     def without(self, names: Sequence[str]) -> Plan:
@@ -508,7 +508,7 @@ def material_override(plan: Plan, model: Model, assignments: Sequence[str]) -> P
     for text in assignments:
         slot, _, key = text.rpartition("=")
         if key not in model.materials:
-            raise ValueError(f"--material {text}: unknown material {key!r}; `massmodel materials` lists the library")
+            raise UsageError(f"--material {text}: unknown material {key!r}; `massmodel materials` lists the library")
         names = [slot] if slot else [c.name for c in out.candidates]
         for n in names:
             c = out.candidate(n)

@@ -38,6 +38,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core.atomic import current_umask
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, MassSource, Model, in_group
 from massmodel.core.shapes import PointMass
@@ -112,7 +113,7 @@ class ExportOptions:
 
     def __post_init__(self) -> None:
         if not (self.chord_tolerance > 0.0 and np.isfinite(self.chord_tolerance)):
-            raise ValueError(f"chord tolerance must be a positive length, got {self.chord_tolerance} m")
+            raise UsageError(f"chord tolerance must be a positive length, got {self.chord_tolerance} m")
 
 
 @dataclass(frozen=True)
@@ -143,7 +144,7 @@ def select_components(model: Model, selection: Iterable[str]) -> list[Component]
             names = [c.path for c in model.components] + model.groups()
             close = difflib.get_close_matches(s, names, n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
-            raise KeyError(f"selection: no part or group '{s}' in model '{model.name}'{hint}")
+            raise NotFoundError(f"selection: no part or group '{s}' in model '{model.name}'{hint}")
     return model.select(chosen)
 
 
@@ -254,7 +255,7 @@ def export_model(
     if stem is None:
         stem = slug(model.name) + ("_" + "+".join(slug(s) for s in opts.selection) if opts.selection else "")
     elif not stem.strip() or stem.strip(".") == "" or any(sep in stem for sep in ("/", "\\", os.sep)):
-        raise ValueError(f"file name stem (--name) {stem!r}: expected a plain file name, without folders "
+        raise UsageError(f"file name stem (--name) {stem!r}: expected a plain file name, without folders "
                          "(use --out for the folder)")
     tick = progress or (lambda stage, done, total: None)
     from .solids import component_local_mesh, component_local_solid, has_solid
@@ -262,7 +263,7 @@ def export_model(
     with_solid = [c for c in selected if has_solid(c)]
     left_out = tuple((c.path, _no_solid_reason(c)) for c in selected if not has_solid(c))
     if not with_solid:
-        raise ValueError(f"selection of model '{model.name}' holds no solid to export "
+        raise UsageError(f"selection of model '{model.name}' holds no solid to export "
                          f"({len(left_out)} point masses or open meshes)")
     parts: list[ExportPart] = []
     cache: dict[Any, Any] = {}

@@ -37,17 +37,30 @@ def write_atomic(path: str | Path, write: Callable[[Path], object], suffix: str 
     import tempfile  # only when writing: keeps the start-up of the report command light
 
     target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix or target.suffix or ".tmp", dir=target.parent)
+    try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix or target.suffix or ".tmp",
+                                   dir=target.parent)
+    except OSError as exc:
+        raise _naming(exc, target) from None
     os.close(fd)
     try:
         os.chmod(tmp, 0o666 & ~current_umask())  # mkstemp makes 0600 files: give the output the user's usual mode
         write(Path(tmp))
         os.replace(tmp, target)
-    except BaseException:
+    except BaseException as exc:
         Path(tmp).unlink(missing_ok=True)
+        if isinstance(exc, OSError) and tmp in (exc.filename, exc.filename2):
+            raise _naming(exc, target) from None
         raise
     return target
+
+
+def _naming(exc: OSError, target: Path) -> OSError:
+    """The same error naming the output the user asked for, not the hidden temporary file beside it."""
+    if type(exc).__module__ != "builtins":  # a subclass of a library, with its own arguments: keep it as it is
+        return exc
+    return type(exc)(exc.errno, exc.strerror or str(exc), str(target))
 
 
 def write_text_atomic(path: str | Path, text: str) -> Path:

@@ -33,6 +33,8 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UserError
+
 from .massprops import MassProperties, combine_arrays
 from .shapes import SHAPE_KINDS
 
@@ -53,7 +55,7 @@ ORTHOGONALITY_TOL = 1e-9
 _ORDERED = {"tube": (1, 0), "spherical_shell": (1, 0), "torus": (1, 0)}
 
 
-class BatchError(ValueError):
+class BatchError(UserError, ValueError):
     """Unusable batch input; the message names the array, the part index and what is wrong."""
 
 

@@ -52,6 +52,7 @@ import math
 import operator
 from collections.abc import Callable, Iterable, Mapping, Sequence
 
+from massmodel.core.errors import UserError
 from massmodel.core.expr_syntax import (
     _PARAMETER_RE,
     FUNCTION_NAMES,
@@ -83,7 +84,7 @@ __all__ = [
 ]
 
 
-class ParameterError(ValueError):
+class ParameterError(UserError, ValueError):
     """A parameter definition or override that cannot be resolved.
 
     Attributes

@@ -13,6 +13,7 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from functools import lru_cache
 
+from massmodel.core.errors import UserError
 from massmodel.core.units import DIMENSIONLESS, UNIT_NAMES, Quantity, UnitError, unit_product
 
 __all__ = ["FUNCTION_NAMES", "MAX_DEPTH", "MAX_LENGTH", "RESERVED_NAMES", "ExpressionError"]
@@ -39,7 +40,7 @@ _OPERATORS = dict(
 )
 
 
-class ExpressionError(ValueError):
+class ExpressionError(UserError, ValueError):
     """An expression that cannot be read or evaluated.
 
     Parameters

@@ -29,13 +29,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from massmodel.core.errors import UserError
+
 # Fewest facets used around a full circle, whatever the tolerance (keeps coarse meshes recognisable).
 MIN_SEGMENTS_PER_TURN = 12
 # Refuse tolerances that would need more facets than this around one circle (memory guard).
 MAX_SEGMENTS_PER_TURN = 100_000
 
 
-class ToleranceTooSmall(ValueError):
+class ToleranceTooSmall(UserError, ValueError):
     """The requested chord tolerance needs more facets than `MAX_SEGMENTS_PER_TURN` around one circle."""
 
 

@@ -17,6 +17,8 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import NotFoundError, UsageError
+
 from .frames import Pose
 from .groups import in_group
 from .loadcases import LoadCase
@@ -166,18 +168,18 @@ class Component:
         where = self.origin or f"component '{self.path}'"
         if self.source in (MassSource.MATERIAL, MassSource.DENSITY):
             if self.density is None or not self.density > 0.0:
-                raise ValueError(f"{where}: a density source needs a positive density")
+                raise UsageError(f"{where}: a density source needs a positive density")
             if volume <= 0.0:
-                raise ValueError(f"{where}: the shape has no volume, so density cannot give a mass")
+                raise UsageError(f"{where}: the shape has no volume, so density cannot give a mass")
             local = self._local(self.density * volume, centroid, self.density * unit)
         elif self.source is MassSource.MASS:
             if self.mass is None or not self.mass > 0.0:
-                raise ValueError(f"{where}: field 'mass' must be a positive mass")
+                raise UsageError(f"{where}: field 'mass' must be a positive mass")
             scale = self.mass / volume if volume > 0.0 else 0.0
             local = self._local(self.mass, centroid, scale * unit)
         else:
             if self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
-                raise ValueError(f"{where}: measured properties need a positive mass and a CG")
+                raise UsageError(f"{where}: measured properties need a positive mass and a CG")
             if self.measured_inertia is not None:
                 tensor = validate_inertia(self.measured_inertia, what=f"{where}, field 'measured.inertia'")
                 local = MassProperties._valid_tensor(self.mass, self.measured_cg, tensor)
@@ -343,10 +345,10 @@ class Vehicle:
             object.__setattr__(self, name, v)
         basis = np.array([self.forward, self.left, self.up])
         if not np.allclose(basis @ basis.T, np.eye(3), atol=1e-12) or np.linalg.det(basis) < 0.0:
-            raise ValueError("vehicle axes forward, left, up must be orthonormal and right-handed")
+            raise UsageError("vehicle axes forward, left, up must be orthonormal and right-handed")
         for name in ("wheelbase", "track_front", "track_rear"):
             if not getattr(self, name) > 0.0:
-                raise ValueError(f"vehicle field '{name}' must be a positive length")
+                raise UsageError(f"vehicle field '{name}' must be a positive length")
 
     @property
     def basis(self) -> FloatArray:
@@ -418,7 +420,7 @@ class Model:
         index: dict[str, int] = {}
         for i, c in enumerate(self.components):
             if c.path in index:
-                raise ValueError(f"duplicate component path '{c.path}' ({c.origin})")
+                raise UsageError(f"duplicate component path '{c.path}' ({c.origin})")
             index[c.path] = i
         object.__setattr__(self, "_index", MappingProxyType(index))
         object.__setattr__(self, "parameters", MappingProxyType(dict(self.parameters)))
@@ -433,14 +435,14 @@ class Model:
 
             close = difflib.get_close_matches(path, list(self._index), n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
-            raise KeyError(f"no component '{path}'{hint}") from None
+            raise NotFoundError(f"no component '{path}'{hint}") from None
 
     def slot(self, name: str) -> Slot:
         """The slot with this name."""
         for s in self.slots:
             if s.name == name:
                 return s
-        raise KeyError(f"no slot '{name}'; slots: {', '.join(s.name for s in self.slots) or 'none'}")
+        raise NotFoundError(f"no slot '{name}'; slots: {', '.join(s.name for s in self.slots) or 'none'}")
 
     def groups(self) -> list[str]:
         """Every group path (all proper path prefixes of the parts), sorted."""

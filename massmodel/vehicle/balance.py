@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck, Vehicle
 
@@ -184,7 +185,7 @@ def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
     if kind is RuleCheck.MIN_GROUP_MASS:
         return _at_least_result(rule, _mass_of(model, include=rule.groups), "kg", " + ".join(rule.groups))
     if balance is None:
-        raise ValueError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
+        raise UsageError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
     if kind is RuleCheck.MIN_AXLE_LOAD:
         value = balance.front if rule.axle == "front" else balance.rear
         return _at_least_result(rule, value, "kg", f"{rule.axle} axle")

@@ -39,12 +39,13 @@ from typing import Any, ClassVar
 import numpy as np
 
 from massmodel.core import geometry as _geo
+from massmodel.core.errors import UserError
 
 __all__ = ["MAX_LENGTH_M", "PrismShape", "RevolvedShape", "Shape", "ShapeError"]
 
 
 
-class ShapeError(ValueError):
+class ShapeError(UserError, ValueError):
     """Invalid primitive definition or argument; the message names the offending field.
 
     Attributes
