@@ -187,7 +187,7 @@ def _direction(text: str, vehicle: Any, axis: str) -> FloatArray:
             raise UsageError(f"axis '{axis}' = {text!r}: the vehicle's {name} direction is not along a model axis")
         return np.round(v)
     sign = 1.0
-    if t[:1] in "+-":
+    if t and t[0] in "+-":  # ("" is in every text: test the first character itself)
         sign = -1.0 if t[0] == "-" else 1.0
         t = t[1:].strip()
     if t not in ("x", "y", "z"):

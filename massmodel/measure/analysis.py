@@ -44,7 +44,7 @@ from .scales import (
     reduce_weighings,
     resolve_geometry,
 )
-from .session import CORNERS, Session, load_session
+from .session import CORNERS, MeasurementFileError, Session, load_session
 
 __all__ = [
     "WEIGHING_FORMAT",
@@ -89,6 +89,14 @@ def load_session_and_model(
 
     session = load_session(session_path)
     path = Path(model_path) if model_path is not None else session.model_path
+    if model_path is None and path is not None:  # a model the session names: blame its field if it cannot be read
+        try:
+            with open(path, "rb"):
+                pass
+        except OSError as exc:
+            reason = "no such file" if isinstance(exc, FileNotFoundError) else (exc.strerror or str(exc))
+            raise MeasurementFileError(session.source, "[session]", "model",
+                                       f"cannot read '{path}' ({reason})") from None
     model = load_model(path, overrides=overrides) if path is not None else None
     return session, model
 

@@ -1,7 +1,8 @@
 """Merging a model file that ``extends`` another into one data tree.
 
 The child's tables are merged over the base's before anything is evaluated; tables that came from the base file
-carry its name (:data:`SOURCE_KEY`) so that errors and geometry paths refer to the file that holds them.
+are :class:`SourcedTable` objects carrying its name (outside the table's keys, so no key a user writes can be taken
+for it), so that errors and geometry paths refer to the file that holds them.
 """
 
 from __future__ import annotations
@@ -11,14 +12,26 @@ from typing import Any
 
 from .reader import ModelFileError, read_toml
 
-__all__ = ["resolve_extends", "LIST_SECTIONS", "SOURCE_KEY"]
+__all__ = ["resolve_extends", "LIST_SECTIONS", "SourcedTable", "table_source"]
 
 
 LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver", "allowed_contact")
-SOURCE_KEY = "__file__"  # which file a merged table came from (set by resolve_extends, removed before use)
 
 
-_TABLE_SECTIONS = {"parameters": "must be a table of name = value", "materials": "must be a table",
+class SourcedTable(dict):  # type: ignore[type-arg]
+    """A table merged from a base file; ``source`` names that file (an attribute, not a key of the table)."""
+
+    def __init__(self, table: dict[str, Any], source: str) -> None:
+        super().__init__(table)
+        self.source = source
+
+
+def table_source(table: dict[str, Any]) -> str | None:
+    """The base file a merged table came from, or None for a table of the file itself."""
+    return table.source if isinstance(table, SourcedTable) else None
+
+
+_TABLE_SECTIONS = {"model": "must be a table", "parameters": "must be a table of name = value", "materials": "must be a table",
                    "units": "must be a table", "vehicle": "must be a table"}
 
 
@@ -58,9 +71,8 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
     _check_section_types(data, label)
     _check_section_types(base, str(base_path))
     for key in LIST_SECTIONS:
-        for table in base.get(key, []):
-            if isinstance(table, dict):
-                table.setdefault(SOURCE_KEY, str(base_path))
+        base[key] = [SourcedTable(t, str(base_path)) if isinstance(t, dict) and not isinstance(t, SourcedTable)
+                     else t for t in base.get(key, [])]
     if data.get("units", base.get("units", {})) != base.get("units", {}):
         raise ModelFileError(label, "[units]", None, f"must be the same as in the base file {base_path} (or absent)")
     remove = head.get("remove", [])

@@ -66,6 +66,11 @@ class ShapeError(UserError, ValueError):
 #: overflow a float (OverflowError) instead of giving a clear message.
 MAX_LENGTH_M = 1.0e6
 
+#: Smallest size accepted, m (a nanometre: far below anything made for a car, a coat of paint is tens of
+#: micrometres — common practice, no source). Smaller sizes are typing slips (``1e-9 mm``) whose volumes and
+#: inertias underflow to zero or below the smallest float.
+MIN_LENGTH_M = 1.0e-9
+
 
 def _as_length(kind: str, field: str, value: object) -> float:
     """Validate a size: a real number, finite, > 0 and at most :data:`MAX_LENGTH_M` (m)."""
@@ -110,7 +115,11 @@ class Shape(ABC):
 
     def _init_lengths(self) -> None:
         for name in self.FIELDS:
-            object.__setattr__(self, name, _as_length(self.kind, name, getattr(self, name)))
+            value = _as_length(self.kind, name, getattr(self, name))
+            if value < MIN_LENGTH_M:
+                raise ShapeError(f"{name} ({value * 1e3:g} mm) is below the smallest size of a shape, "
+                                 f"{MIN_LENGTH_M * 1e3:g} mm (a nanometre)", name, self.kind)
+            object.__setattr__(self, name, value)
 
     @abstractmethod
     def volume(self) -> float:
