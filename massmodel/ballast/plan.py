@@ -23,7 +23,7 @@ from massmodel.core.errors import InputError, NotFoundError, UsageError
 from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, in_group
-from massmodel.modelfile.reader import TableReader, parse_toml, read_text, read_units
+from massmodel.modelfile.reader import TableReader, expression_message, parse_toml, read_text, read_units
 
 from .block import BlockError
 from .sizing import BlockSpec, Envelope, Fill, SizingError, spec_from_parts
@@ -172,7 +172,7 @@ class _Reader(TableReader):
         try:
             q = expr.evaluate(value, self.env)
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise self.error(item, field, str(exc)) from None
+            raise self.error(item, field, expression_message(exc)) from None
         kind = next((k for k, d in _UNIT_KINDS.items() if d == dim), None)
         if q.dim == units.DIMENSIONLESS and kind is not None and kind in self.defaults:
             q = units.Quantity(q.value * self.defaults[kind], dim)

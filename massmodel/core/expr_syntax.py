@@ -365,7 +365,13 @@ def _unit_size(parts: tuple[tuple[str, int, bool], ...]) -> Quantity:
     return unit_product(parts)
 
 
-@lru_cache(maxsize=8192)
+#: Expression texts whose trees are remembered: more than the parameters and fields of the largest model file in
+#: sight (tens of thousands), so that evaluating every load case of a file parses each text once (a tree of a short
+#: text is a few hundred bytes).
+PARSE_CACHE_SIZE = 1 << 17
+
+
+@lru_cache(maxsize=PARSE_CACHE_SIZE)
 def _parse(text: str) -> _Node:
     """Syntax tree of an expression text (trees are immutable, so the same text is parsed once)."""
     if len(text) > MAX_LENGTH:

@@ -20,6 +20,7 @@ from massmodel.core import expr, units
 from massmodel.modelfile.reader import (
     ModelFileError,
     TableReader,
+    expression_message,
     magnitude_problem,
     parse_toml,
     read_toml,
@@ -109,7 +110,7 @@ class _Reader(TableReader):
         try:
             q = expr.evaluate(value)
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise self.error(item, field, str(exc)) from None
+            raise self.error(item, field, expression_message(exc)) from None
         result: float | None = None
         kind: str | None = "number"
         if "number" in kinds and q.dim == units.DIMENSIONLESS:

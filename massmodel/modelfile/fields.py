@@ -21,7 +21,7 @@ from massmodel.core.model import Maturity
 from massmodel.core.shapes import SHAPE_KINDS, ShapeError
 
 from .extends import table_source
-from .reader import ModelFileError, TableReader, magnitude_problem
+from .reader import ModelFileError, TableReader, expression_message, magnitude_problem
 
 __all__ = ["FieldReader", "GroupFrame", "expression_message", "shape_keys", "maturity_of", "colour_of", "path_of",
            "group_frames", "flag", "enclosing_groups", "SHAPE_FILE_FIELDS", "PALETTE", "UNIT_KINDS"]
@@ -265,16 +265,6 @@ class FieldReader(TableReader):
             return shape_from_fields(kind, table, self.base_dir)
         except ShapeError as exc:
             raise self.error(item, prefix + (getattr(exc, "field", None) or "file"), str(exc)) from None
-
-
-def expression_message(exc: Exception) -> str:
-    """An expression error as one line: the message, then where in the text it is."""
-    if isinstance(exc, expr.ExpressionError):
-        where = f" (in '{exc.text}'" if exc.text else ""
-        if where and exc.position is not None:
-            where += f", at character {exc.position + 1}"
-        return exc.message + (where + ")" if where else "")
-    return str(exc)
 
 
 def shape_keys(kind: Any) -> set[str]:

@@ -19,7 +19,7 @@ from typing import Any
 
 import numpy as np
 
-from massmodel.core import expr
+from massmodel.core import expr, units
 from massmodel.core.frames import Pose, reflection_across_plane
 from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.materials import MaterialError, builtin_materials, material_from_fields
@@ -204,6 +204,26 @@ def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = Non
     return out
 
 
+def _check_override_dimensions(label: str, params: Mapping[str, Any], env: Mapping[str, Any],
+                               overrides: Mapping[str, str], active: Any) -> None:
+    """A parameter set from outside the file (``--set``, a load case's ``set``) keeps the dimension the file gives
+    it: ``--set fuel_mass=3 m`` is refused by the option's name, not later by a part that uses the mass."""
+    given = [(name, text, f"--set {name}", None, None) for name, text in overrides.items()]
+    if active is not None:
+        given += [(name, text, active.file, f"case '{active.name}'", f"set.{name}")
+                  for name, text in active.override_map.items() if name not in overrides]
+    for name, text, where, item, field in given:
+        if name not in params or name not in env:
+            continue
+        try:
+            own = expr.evaluate(params[name], env)
+        except (expr.ExpressionError, units.UnitError, expr.ParameterError):
+            continue  # the file's own text is judged where it is used
+        if own.dim != env[name].dim:
+            raise ModelFileError(where, item, field, f"{text!r} is in {env[name].dim}, but {label} gives {name} in "
+                                                     f"{own.dim} ({name} = {params[name]!r})")
+
+
 def _build_case(
     data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None
 ) -> Model:
@@ -258,6 +278,7 @@ def _build(
             raise ModelFileError(label, f"--set {exc.name}", None, message) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
+    _check_override_dimensions(label, params, env, overrides or {}, active)
     rd = FieldReader(label, defaults, env, base_dir)
 
     vehicle = _vehicle(rd, data.get("vehicle"))

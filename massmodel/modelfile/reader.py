@@ -30,7 +30,7 @@ from typing import Any
 from tomli import TOMLDecodeError
 from tomli import loads as toml_loads
 
-from massmodel.core import units
+from massmodel.core import expr, units
 from massmodel.core.errors import InputError
 from massmodel.core.shapes import MAX_LENGTH_M
 
@@ -39,6 +39,7 @@ __all__ = [
     "ModelFileError",
     "MAX_NESTING",
     "MAGNITUDE_LIMITS",
+    "expression_message",
     "magnitude_problem",
     "TableReader",
     "parse_json",
@@ -173,6 +174,17 @@ def read_toml(path: Path, label: str, referrer: tuple[str, str | None, str | Non
               error: type[InputError] = ModelFileError) -> dict[str, Any]:
     """Read and parse a TOML file (:func:`read_text`, then :func:`parse_toml`)."""
     return parse_toml(read_text(path, label, error, referrer), label, error)
+
+
+def expression_message(exc: Exception) -> str:
+    """An expression error as one line: the message, then where in the text it is (not the text and a caret line
+    under it); any other error as its text."""
+    if isinstance(exc, expr.ExpressionError):
+        where = f" (in '{exc.text}'" if exc.text else ""
+        if where and exc.position is not None:
+            where += f", at character {exc.position + 1}"
+        return exc.message + (where + ")" if where else "")
+    return str(exc)
 
 
 def unit_size(text: Any, kind: str, dim: units.Dimension) -> float:
