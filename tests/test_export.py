@@ -31,7 +31,15 @@ from OCP.XCAFDoc import XCAFDoc_ColorType, XCAFDoc_DocumentTool
 
 from conftest import assert_close
 from massmodel import cli
-from massmodel.cad.export import ExportError, ExportOptions, Format, StlLayout, export_model, slug, verify_export
+from massmodel.cad.export import (
+    ExportError,
+    ExportOptions,
+    Format,
+    StlLayout,
+    export_model,
+    slug,
+    verify_export,
+)
 from massmodel.modelfile.loader import load_model, loads_model
 from massmodel.report.summary import build_report
 
