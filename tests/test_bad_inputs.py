@@ -186,15 +186,8 @@ def test_estimate_numbers_beyond_the_model_limits() -> None:
 def test_set_of_another_dimension_names_the_option(tmp_path, capsys) -> None:
     model = write(tmp_path / "car.toml", UNITS + '[parameters]\nfuel_mass = "3 kg"\n' + PART + 'mass = "fuel_mass"\n')
     assert main(["report", str(model), "--set", "fuel_mass=3 m"]) == EXIT_USAGE
-    assert capsys.readouterr().err == (f"massmodel report: error: --set fuel_mass: '3 m' is in m, but {model} gives "
-                                       "fuel_mass in kg (fuel_mass = '3 kg')\n")
-
-
-def test_case_set_of_another_dimension_names_the_case() -> None:
-    text = UNITS + '[parameters]\nfuel_mass = "3 kg"\n' + PART + 'mass = "fuel_mass"\n[[case]]\nname = "full"\n' \
-        'set = { fuel_mass = "30 mm" }\n'
-    with pytest.raises(ModelFileError, match=r"m.toml: case 'full', field 'set.fuel_mass': '30 mm' is in m"):
-        loads_model(text, label="m.toml", case="full")
+    assert capsys.readouterr().err == (f"massmodel report: error: {model}: --set fuel_mass: '3 m' is in m, but the "
+                                       "file gives fuel_mass in kg (fuel_mass = '3 kg')\n")
 
 
 def test_plan_expression_error_is_one_line_without_a_caret() -> None:

@@ -205,14 +205,11 @@ def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = Non
 
 
 def _check_override_dimensions(label: str, params: Mapping[str, Any], env: Mapping[str, Any],
-                               overrides: Mapping[str, str], active: Any) -> None:
-    """A parameter set from outside the file (``--set``, a load case's ``set``) keeps the dimension the file gives
-    it: ``--set fuel_mass=3 m`` is refused by the option's name, not later by a part that uses the mass."""
-    given = [(name, text, f"--set {name}", None, None) for name, text in overrides.items()]
-    if active is not None:
-        given += [(name, text, active.file, f"case '{active.name}'", f"set.{name}")
-                  for name, text in active.override_map.items() if name not in overrides]
-    for name, text, where, item, field in given:
+                               overrides: Mapping[str, str]) -> None:
+    """A parameter set with ``--set`` keeps the dimension the file gives it: ``--set fuel_mass=3 m`` is refused by
+    the option's name, not later by a part that uses the mass (a load case's ``set`` is reported at the part, with
+    the case named)."""
+    for name, text in overrides.items():
         if name not in params or name not in env:
             continue
         try:
@@ -220,8 +217,8 @@ def _check_override_dimensions(label: str, params: Mapping[str, Any], env: Mappi
         except (expr.ExpressionError, units.UnitError, expr.ParameterError):
             continue  # the file's own text is judged where it is used
         if own.dim != env[name].dim:
-            raise ModelFileError(where, item, field, f"{text!r} is in {env[name].dim}, but {label} gives {name} in "
-                                                     f"{own.dim} ({name} = {params[name]!r})")
+            raise ModelFileError(label, f"--set {name}", None, f"{text!r} is in {env[name].dim}, but the file gives "
+                                                               f"{name} in {own.dim} ({name} = {params[name]!r})")
 
 
 def _build_case(
@@ -278,7 +275,7 @@ def _build(
             raise ModelFileError(label, f"--set {exc.name}", None, message) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
-    _check_override_dimensions(label, params, env, overrides or {}, active)
+    _check_override_dimensions(label, params, env, overrides or {})
     rd = FieldReader(label, defaults, env, base_dir)
 
     vehicle = _vehicle(rd, data.get("vehicle"))
