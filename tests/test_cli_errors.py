@@ -8,24 +8,14 @@ import re
 from pathlib import Path
 
 import pytest
-from test_report import CAR
+import test_cli_core
 
 from massmodel.cli import EXIT_BUG, EXIT_USAGE, build_parser, main
 from massmodel.cli.args import check_outputs, output_file, output_folder
 from massmodel.core.errors import InputError, NotFoundError, UsageError, UserError
 
-
-@pytest.fixture
-def car(tmp_path: Path) -> Path:
-    path = tmp_path / "car.toml"
-    path.write_text(CAR, encoding="utf-8")
-    return path
-
-
-def run(capsys: pytest.CaptureFixture[str], *argv: object) -> tuple[int, str, str]:
-    code = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
+car = test_cli_core.car  # the fixture of the core commands' tests (a small car model file)
+run = test_cli_core.run
 
 
 def test_user_error_types_stay_value_and_key_errors() -> None:
