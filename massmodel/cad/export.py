@@ -168,7 +168,7 @@ def clean_partial_files(folder: Path) -> list[Path]:
     They are named ``.massmodel-partial-<pid>.<name>.<random>.tmp<suffix>``; those of a process still running (an
     export under way) are kept.
     """
-    removed = []
+    removed: list[Path] = []
     if not folder.is_dir():
         return removed
     for path in folder.rglob(PARTIAL_PREFIX + "*"):

@@ -138,8 +138,10 @@ def main(argv: Sequence[str] | None = None) -> int:
             raise
         if not _user_error(exc):
             return _report_bug(args.command, exc)
-        msg = exc.strerror if isinstance(exc, OSError) and type(exc).__str__ is OSError.__str__ else None
-        text = f"{exc.filename}: {msg or exc}" if msg else one_line(str(exc))
+        if isinstance(exc, OSError) and exc.strerror and type(exc).__str__ is OSError.__str__:
+            text = f"{exc.filename}: {exc.strerror}"  # the file as named, without errno and quotes
+        else:
+            text = one_line(str(exc))
         print(f"massmodel {args.command}: error: {text}", file=sys.stderr)
         return EXIT_USAGE
 
