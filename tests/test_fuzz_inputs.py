@@ -11,7 +11,8 @@ bytes, writes it, and runs the command that reads it. Whatever the input, the co
 * finish within :data:`CASE_SECONDS` (a guard against hangs and resource bombs, not a speed check).
 
 ``make test`` runs :data:`DEFAULT_EXAMPLES` cases per kind; set ``MASSMODEL_FUZZ_EXAMPLES=N`` for N per kind (the
-failing case is printed by hypothesis and is the smallest reproducer it found).
+failing case is printed by hypothesis and is the smallest reproducer it found). A systematic sweep beside the random
+cases gives every value of every seed, in turn, another TOML type (a table, a list, a boolean).
 """
 
 from __future__ import annotations
@@ -33,7 +34,7 @@ from hypothesis import strategies as st
 
 from massmodel.cli import main
 
-DEFAULT_EXAMPLES = 40  # per input kind; about 6 kinds
+DEFAULT_EXAMPLES = 60  # per input kind (9 kinds: about 540 cases, some 10 s here)
 EXAMPLES = int(os.environ.get("MASSMODEL_FUZZ_EXAMPLES", DEFAULT_EXAMPLES))
 CASE_SECONDS = 5.0
 
@@ -92,6 +93,18 @@ SESSION = {
                    "uncertainty": {"rise": "1 mm", "tyre_loaded_radius": "2 mm", "wheelbase": "2 mm"},
                    "reading": [{"rise": 150, "load": 70.5}, {"rise": 300, "load": 71.1},
                                {"rise": 450, "load": 71.6}]}],
+    "pendulum": [
+        {"name": "yaw", "kind": "trifilar", "body_mass": "180 kg", "wire_length": 3200, "wire_radius": 1100,
+         "timing": [{"cycles": 10, "time": "32.46 s"}, {"cycles": 10, "time": "32.40 s"}],
+         "fixture": {"mass": "92.0 kg", "timing": [{"cycles": 10, "time": "25.95 s"}]},
+         "uncertainty": {"period": "0.002 s", "wire_length": "2 mm", "wire_radius": "1 mm", "body_mass": "0.3 kg"},
+         "compare": {"axis": "up", "through": "cg"}},
+        {"name": "roll", "kind": "compound", "body_mass": "180 kg", "pivot_to_cg": 918,
+         "timing": [{"cycles": 10, "time": "20.28 s"}, {"cycles": 10, "time": "20.34 s"}], "amplitude": "2 deg",
+         "local_gravity": "9.8112 m/s^2", "compare": {"axis": "forward", "through": "cg"}},
+        {"name": "wheel", "kind": "bifilar", "body_mass": "11.66 kg", "wire_length": 1600, "wire_spacing": 400,
+         "timing": [{"cycles": 20, "time": "46.69 s"}], "fixture": {"mass": "1.15 kg", "inertia": "0.0094 kg*m^2"}},
+    ],
 }
 
 PLAN = {
@@ -196,9 +209,14 @@ def _expand(text: str) -> str:
     return re.sub(r'"<<deep (\d+)>>"', lambda m: "[" * int(m.group(1)) + "1" + "]" * int(m.group(1)), text)
 
 
+TYPE_SWAPS: list[Any] = [{"x": 1}, [1], [], {}, 1, 2.5, "x", True, [{"a": "1 mm"}], [[1, 2]]]
+
+
 @st.composite
 def hostile_value(draw: st.DrawFn) -> Any:
-    kind = draw(st.integers(0, 7))
+    kind = draw(st.integers(0, 9))
+    if kind >= 8:  # a value of another TOML type than the field takes (a table for a name, a list for a number)
+        return draw(st.sampled_from(TYPE_SWAPS))
     if kind == 0:
         return draw(st.sampled_from(HOSTILE_TEXT))
     if kind == 1:
@@ -329,6 +347,7 @@ KINDS: dict[str, tuple[str, Any, str, Callable[[dict[str, Path], Path], list[str
     "rulebook": ("rules", RULES, "toml", lambda f, o: ["report", str(f["model"]), "--json", str(o)]),
     "session": ("session", SESSION, "toml", lambda f, o: ["weigh", str(f["session"]), "--json", str(o)]),
     "session-tilt": ("session", SESSION, "toml", lambda f, o: ["tilt", str(f["session"]), "--json", str(o)]),
+    "session-swing": ("session", SESSION, "toml", lambda f, o: ["swing", str(f["session"]), "--json", str(o)]),
     "plan": ("plan", PLAN, "toml", lambda f, o: ["place-ballast", str(f["model"]), str(f["plan"]), "--no-fit",
                                                    "--json", str(o)]),
     "estimate-json": ("json", ESTIMATE, "json", lambda f, o: ["crossweigh", str(f["model"]), str(f["json"]),
@@ -386,3 +405,28 @@ def test_mutated_inputs_fail_cleanly(tmp_path_factory: pytest.TempPathFactory, c
         run_case(tmp, kind, content, capsys)
 
     case()
+
+
+SWEEP_VALUES: list[Any] = [{"x": 1}, ["x"], True]
+
+
+@pytest.mark.parametrize("kind", [k for k in KINDS if KINDS[k][2] != "csv" and k != "session-tilt"])
+def test_every_field_of_another_type_fails_cleanly(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                   kind: str) -> None:
+    # Systematic, not random: each value of the seed (every leaf of its tree) in turn becomes a table, a list and a
+    # boolean — the mistakes a reader that assumes a type turns into a TypeError or AttributeError.
+    key, seed, fmt, _ = KINDS[kind]
+    leaves = [p for p in _paths(seed) if p and not isinstance(_get(seed, p), (dict, list))]
+    assert len(leaves) > 10
+    for path in leaves:
+        for value in SWEEP_VALUES:
+            tree = json.loads(json.dumps(seed))
+            _parent(tree, path)[path[-1]] = value
+            text = to_toml(tree) if fmt == "toml" else json.dumps(tree)
+            run_case(tmp_path, kind, text.encode("utf-8"), capsys)
+
+
+def _get(tree: Any, path: tuple[Any, ...]) -> Any:
+    for p in path:
+        tree = tree[p]
+    return tree
