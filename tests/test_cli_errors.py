@@ -152,3 +152,31 @@ def test_a_read_only_output_folder_names_the_output_not_a_temp_file(capsys, car,
     assert code == EXIT_USAGE
     assert err == f"massmodel report: error: {out}: Permission denied\n"
     assert not out.exists()
+
+
+@pytest.mark.parametrize("victim", ["rules.toml", "base.toml"])
+def test_an_output_over_a_file_read_on_the_way_is_refused(capsys, tmp_path, victim) -> None:
+    # the rulebook a model names and the model it extends are inputs too, though not on the command line
+    (tmp_path / "rules.toml").write_text('[[rule]]\nname = "min"\ncheck = "min_mass"\nlimit = "1 kg"\n')
+    (tmp_path / "base.toml").write_text('[model]\nname = "b"\n[[part]]\npath = "a/b"\nshape = "point"\n'
+                                        'mass = "2 kg"\nmaturity = "measured"\n')
+    car = tmp_path / "car.toml"
+    car.write_text('[model]\nname = "c"\nextends = "base.toml"\nrulebook = "rules.toml"\n')
+    before = {p.name: p.read_bytes() for p in tmp_path.iterdir()}
+    code, _, err = run(capsys, "report", car, "--json", tmp_path / victim)
+    assert code == EXIT_USAGE
+    assert err == (f"massmodel report: error: {tmp_path / victim}: that is an input of this command (read as "
+                   f"'{tmp_path / victim}'); choose another output name\n")
+    assert {p.name: p.read_bytes() for p in tmp_path.iterdir()} == before
+
+
+def test_outside_the_command_line_files_read_may_be_written(tmp_path) -> None:
+    # the guard belongs to a command run: a notebook may read a file and write it again on purpose
+    from massmodel.core.atomic import write_text_atomic
+    from massmodel.modelfile.loader import load_model
+
+    path = tmp_path / "m.toml"
+    path.write_text('[model]\nname = "m"\n[[part]]\npath = "a"\nshape = "point"\nmass = "1 kg"\nmaturity = "measured"\n')
+    load_model(path)
+    write_text_atomic(path, path.read_text().replace('"m"', '"m2"'))
+    assert load_model(path).name == "m2"

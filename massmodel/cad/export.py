@@ -40,7 +40,7 @@ from typing import Any
 
 import numpy as np
 
-from massmodel.core.atomic import current_umask
+from massmodel.core.atomic import check_not_input, current_umask
 from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, MassSource, Model, in_group
@@ -235,6 +235,7 @@ class _Stage:
         self.made_dirs: list[Path] = []
 
     def temp_for(self, target: Path) -> Path:
+        check_not_input(target)
         folder = target.parent
         missing = []
         probe = folder

@@ -22,6 +22,7 @@ from collections.abc import Sequence
 from typing import NoReturn
 
 from massmodel.cli.args import check_outputs
+from massmodel.core.atomic import inputs_protected
 from massmodel.core.errors import one_line
 
 __all__ = ["main", "build_parser", "command_modules", "COMMAND_MODULES", "EXIT_OK", "EXIT_FAIL", "EXIT_USAGE",
@@ -122,7 +123,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     debug = bool(os.environ.get("MASSMODEL_DEBUG"))
     try:
         missing = check_outputs(parser, args)
-        code = int(args.run(args) or 0)
+        with inputs_protected():  # and no output over a file read on the way (an extended model, a rulebook)
+            code = int(args.run(args) or 0)
         for folder in missing:  # an output folder made on the way: say so, a typing slip would go unnoticed
             if folder.is_dir():
                 print(f"massmodel {args.command}: created folder {folder}", file=sys.stderr)

@@ -31,6 +31,7 @@ from tomli import TOMLDecodeError
 from tomli import loads as toml_loads
 
 from massmodel.core import expr, units
+from massmodel.core.atomic import note_input
 from massmodel.core.errors import InputError
 from massmodel.core.shapes import MAX_LENGTH_M
 
@@ -107,7 +108,9 @@ def read_text(path: Path, label: str, error: type[InputError] = InputError,
         Missing or unreadable file, or bytes that are not UTF-8 (naming the byte offset).
     """
     try:
-        return path.read_text(encoding="utf-8")
+        text = path.read_text(encoding="utf-8")
+        note_input(path)  # never to be written over by the same command (massmodel.core.atomic)
+        return text
     except UnicodeDecodeError as exc:
         where = (label, None, None)
         raise error(*where, f"not UTF-8 text: byte 0x{exc.object[exc.start]:02x} at offset {exc.start} "
