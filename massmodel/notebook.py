@@ -36,6 +36,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from massmodel.core import display, expr, units
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.frames import Pose
 from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.massprops import MassProperties
@@ -68,21 +69,21 @@ def parse_mass(mass: float | str) -> float:
         Naming the value when it is not a positive finite mass.
     """
     if isinstance(mass, bool):
-        raise ValueError(f"mass {mass!r}: give a number of kg or a text such as '5 kg'")
+        raise UsageError(f"mass {mass!r}: give a number of kg or a text such as '5 kg'")
     if isinstance(mass, str):
         try:
             q = expr.evaluate(mass, {})
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise ValueError(f"mass {mass!r}: {exc}") from None
+            raise UsageError(f"mass {mass!r}: {exc}") from None
         if q.dim != units.MASS:
-            raise ValueError(f"mass {mass!r}: expected a mass such as '5 kg', got a quantity in {q.dim}")
+            raise UsageError(f"mass {mass!r}: expected a mass such as '5 kg', got a quantity in {q.dim}")
         value = q.value
     elif isinstance(mass, (int, float)):
         value = float(mass)
     else:
-        raise ValueError(f"mass {mass!r}: give a number of kg or a text such as '5 kg'")
+        raise UsageError(f"mass {mass!r}: give a number of kg or a text such as '5 kg'")
     if not (math.isfinite(value) and value > 0.0):
-        raise ValueError(f"mass {mass!r}: must be a positive finite mass")
+        raise UsageError(f"mass {mass!r}: must be a positive finite mass")
     return float(value)
 
 
@@ -117,15 +118,15 @@ def parse_point(at: str | Sequence[float | str]) -> np.ndarray:
         unit_text = ""
         items = list(at)
     if len(items) != 3:
-        raise ValueError(f"point {at!r}: expected three values x, y, z (e.g. '-1500, 0, -200 mm')")
+        raise UsageError(f"point {at!r}: expected three values x, y, z (e.g. '-1500, 0, -200 mm')")
     scale = 1.0
     if unit_text:
         try:
             unit = units.parse_unit(unit_text)
         except units.UnitError as exc:
-            raise ValueError(f"point {at!r}: {exc}") from None
+            raise UsageError(f"point {at!r}: {exc}") from None
         if unit.dim != units.LENGTH:
-            raise ValueError(f"point {at!r}: unit '{unit_text}' is not a length")
+            raise UsageError(f"point {at!r}: unit '{unit_text}' is not a length")
         scale = unit.value
     out = []
     for i, item in enumerate(items):
@@ -135,18 +136,18 @@ def parse_point(at: str | Sequence[float | str]) -> np.ndarray:
         try:
             q = expr.evaluate(str(item).strip(), {})
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise ValueError(f"point {at!r}, value {i + 1}: {exc}") from None
+            raise UsageError(f"point {at!r}, value {i + 1}: {exc}") from None
         if q.dim == units.DIMENSIONLESS and (unit_text or q.value == 0.0):
             out.append(q.value * scale)
         elif q.dim == units.LENGTH:
             out.append(q.value)
         elif q.dim == units.DIMENSIONLESS:
-            raise ValueError(f"point {at!r}, value {i + 1}: {item!r} has no unit; write e.g. '-1500, 0, -200 mm'")
+            raise UsageError(f"point {at!r}, value {i + 1}: {item!r} has no unit; write e.g. '-1500, 0, -200 mm'")
         else:
-            raise ValueError(f"point {at!r}, value {i + 1}: expected a length, got a quantity in {q.dim}")
+            raise UsageError(f"point {at!r}, value {i + 1}: expected a length, got a quantity in {q.dim}")
     point = np.array(out)
     if not np.all(np.isfinite(point)):
-        raise ValueError(f"point {at!r}: values must be finite")
+        raise UsageError(f"point {at!r}: values must be finite")
     return point
 
 
@@ -178,7 +179,7 @@ def point_mass(
     """
     full = f"{group.strip('/')}/{path}" if group.strip("/") else path
     if not full or full.startswith("/") or full.endswith("/") or "//" in full:
-        raise ValueError(f"point mass path {full!r}: give a name such as 'probe' or 'ballast/probe'")
+        raise UsageError(f"point mass path {full!r}: give a name such as 'probe' or 'ballast/probe'")
     return Component(
         path=full, shape=PointMass(), pose=Pose.from_translation(parse_point(at)), source=MassSource.MASS,
         maturity=maturity, colour=POINT_COLOUR, mass=parse_mass(mass), note=note, origin=f"point mass '{full}'",
@@ -190,7 +191,7 @@ def _override_text(name: str, value: Any) -> str:
         return value
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         return repr(float(value))
-    raise ValueError(f"parameter {name!r}: give an expression text such as '10 kg', got {value!r}")
+    raise UsageError(f"parameter {name!r}: give an expression text such as '10 kg', got {value!r}")
 
 
 @dataclass(frozen=True, eq=False)
@@ -259,7 +260,7 @@ class OpenedModel:
     def without(self, *paths: str) -> OpenedModel:
         """The model without these parts or groups (paths or group paths, e.g. ``"fuel"``)."""
         if not paths or any(not isinstance(p, str) or not p.strip("/") for p in paths):
-            raise ValueError(f"without() needs part or group paths such as 'fuel', got {paths!r}")
+            raise UsageError(f"without() needs part or group paths such as 'fuel', got {paths!r}")
         return self._edited("remove", tuple(paths))
 
     # --- results ----------------------------------------------------------------------------------------------
@@ -276,7 +277,7 @@ class OpenedModel:
     def balance(self) -> Balance:
         """Static axle and corner loads (kg) and the CG in vehicle terms (needs a ``[vehicle]`` section)."""
         if self.model.vehicle is None:
-            raise ValueError(f"model '{self.name}' ({self.source.label}) has no [vehicle] section, so no balance")
+            raise UsageError(f"model '{self.name}' ({self.source.label}) has no [vehicle] section, so no balance")
         return static_balance(self.model.mass_properties(), self.model.vehicle)
 
     def check_rules(self, case: str | None = None) -> RuleResults:
@@ -311,11 +312,11 @@ class OpenedModel:
         from massmodel.pictures.sheet import render_sheet
 
         if view not in PICTURE_VIEWS:
-            raise ValueError(f"unknown view {view!r}; choose {', '.join(PICTURE_VIEWS)}")
+            raise UsageError(f"unknown view {view!r}; choose {', '.join(PICTURE_VIEWS)}")
         try:
             colours = ColourBy(colour_by)
         except ValueError:
-            raise ValueError(f"unknown colour_by {colour_by!r}; choose {', '.join(c.value for c in ColourBy)}") from None
+            raise UsageError(f"unknown colour_by {colour_by!r}; choose {', '.join(c.value for c in ColourBy)}") from None
         scene = build_scene(self.model, SceneOptions(colour_by=colours))
         with tempfile.TemporaryDirectory(prefix="massmodel-picture-") as tmp:
             path = Path(tmp) / f"{view}.png"
@@ -354,7 +355,7 @@ def _apply(model: Model, kind: str, what: Any) -> Model:
     """One edit of :attr:`OpenedModel.edits` applied to a model."""
     if kind == "add":
         if what.path in {c.path for c in model.components}:
-            raise ValueError(f"model '{model.name}' already has a part '{what.path}'; remove it with without() first "
+            raise UsageError(f"model '{model.name}' already has a part '{what.path}'; remove it with without() first "
                              "or give the new part another path")
         return model.with_components([*model.components, what])
     for path in what:
@@ -363,7 +364,7 @@ def _apply(model: Model, kind: str, what: Any) -> Model:
 
             close = difflib.get_close_matches(path, [*model.groups(), *(c.path for c in model.components)], n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
-            raise KeyError(f"model '{model.name}' has no part or group '{path}'{hint}")
+            raise NotFoundError(f"model '{model.name}' has no part or group '{path}'{hint}")
     kept = [c for c in model.components if not any(in_group(c.path, p) for p in what)]
     return model.with_components(kept)
 

@@ -33,7 +33,7 @@ def run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
 def test_report_prints_tables_and_writes_json(capsys, car: Path, tmp_path: Path) -> None:
     out_json = tmp_path / "exports" / "report.json"
     code, out, err = run(capsys, "report", car, "--json", out_json)
-    assert (code, err) == (0, "")
+    assert (code, err) == (0, f"massmodel report: created folder {out_json.parent}\n")
     for heading in ("COMPONENT BUDGET (3 parts)", "GROUPS", "TOTAL", "VEHICLE BALANCE (static)", "RULE CHECKS",
                     "CAUTIONS"):
         assert heading in out

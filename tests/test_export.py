@@ -31,7 +31,15 @@ from OCP.XCAFDoc import XCAFDoc_ColorType, XCAFDoc_DocumentTool
 
 from conftest import assert_close
 from massmodel import cli
-from massmodel.cad.export import ExportError, ExportOptions, Format, StlLayout, export_model, slug
+from massmodel.cad.export import (
+    ExportError,
+    ExportOptions,
+    Format,
+    StlLayout,
+    export_model,
+    slug,
+    verify_export,
+)
 from massmodel.modelfile.loader import load_model, loads_model
 from massmodel.report.summary import build_report
 
@@ -227,7 +235,8 @@ def test_sidecar_states_what_it_covers(exported):
     assert "negative" in sc["conventions"]["inertia"] and "mm" in sc["conventions"]["units"]
     row = {r["path"]: r for r in sc["components"]}["body/pod"]
     assert_close(row["density_kg_m3"], 1.3 / model.component("body/pod").volume, 1e-12)
-    assert sorted(sc["files"]) == ["glb", "step", "stl", "stl_parts"]
+    assert sorted(sc["files"]) == ["glb", "sha256", "step", "stl", "stl_parts"]
+    assert verify_export(out / "round-trip-1.massprops.json") == []
 
 
 def test_stl_files_read_back_watertight_within_the_chord_tolerance(exported):
@@ -410,3 +419,74 @@ def test_demo_car_export(tmp_path):
     assert math.isclose(sc["mass_kg"] + sum(x["mass_kg"] for x in sc["left_out"]), model.mass_properties().mass,
                         rel_tol=1e-12)
     assert sc["geometry_check"]["relative_difference"]["inertia"] < 1e-9
+
+
+def test_a_kill_during_the_renames_is_detected_and_its_leftovers_cleaned(exported, tmp_path, monkeypatch):
+    # The sidecar lists the SHA-256 of every file and is renamed in last: a process killed after the STEP rename but
+    # before the sidecar's leaves a new STEP beside the old sidecar, which verify_export reports; the temporary files
+    # it leaves carry a recognisable name and the next export into the folder removes them.
+    import massmodel.cad.export as ex
+
+    model, _, _ = exported
+    meshes = frozenset({Format.STL, Format.GLB})  # the STL, staged first, differs with the chord tolerance
+    first = export_model(model, tmp_path, ExportOptions(formats=meshes, chord_tolerance=1e-3))
+    sidecar = next(p for p in first.files if p.name.endswith(".massprops.json"))
+    assert verify_export(sidecar) == []
+    assert set(first.sidecar["files"]["sha256"]) == {p.relative_to(tmp_path).as_posix() for p in first.files
+                                                     if p != sidecar}
+
+    real_replace = os.replace
+    calls = []
+
+    def killed_after_one_rename(src, dst):
+        calls.append(dst)
+        if len(calls) == 2:
+            raise KeyboardInterrupt  # stands for SIGKILL: nothing after this point runs (abort aside)
+        real_replace(src, dst)
+
+    monkeypatch.setattr(ex.os, "replace", killed_after_one_rename)
+    monkeypatch.setattr(ex._Stage, "abort", lambda self: None)  # a killed process cleans nothing up
+    with pytest.raises(KeyboardInterrupt):
+        export_model(model, tmp_path, ExportOptions(formats=meshes, chord_tolerance=2e-4))
+    monkeypatch.setattr(ex.os, "replace", real_replace)
+    problems = verify_export(sidecar)
+    assert len(problems) == 1 and "not the file the sidecar describes" in problems[0]
+    leftovers = sorted(p.name for p in tmp_path.rglob(ex.PARTIAL_PREFIX + "*"))
+    assert leftovers and all(n.startswith(f"{ex.PARTIAL_PREFIX}{os.getpid()}.") for n in leftovers)
+
+    again = export_model(model, tmp_path, ExportOptions(formats=meshes, chord_tolerance=1e-3))
+    assert list(tmp_path.rglob(ex.PARTIAL_PREFIX + "*")) == []
+    assert verify_export(next(p for p in again.files if p.name.endswith(".massprops.json"))) == []
+
+
+def test_leftovers_of_a_running_export_are_kept(tmp_path):
+    from massmodel.cad.export import PARTIAL_PREFIX, clean_partial_files
+
+    mine = tmp_path / f"{PARTIAL_PREFIX}{os.getppid()}.car.abc.tmp.step"  # the parent process is alive
+    dead = tmp_path / f"{PARTIAL_PREFIX}999999999.car.abc.tmp.step"  # above any pid the kernel hands out
+    other = tmp_path / "car.step"
+    for p in (mine, dead, other):
+        p.write_text("x")
+    assert clean_partial_files(tmp_path) == [dead]
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted([mine.name, other.name])
+
+
+def test_an_exported_ellipsoid_keeps_its_volume(tmp_path):
+    # closed form: V = 4/3 π a b c. The kernel has no ellipsoid surface: the solid is the rational B-spline of a unit
+    # sphere under diag(a, b, c), which an affine map keeps exact; a non-rational approximation was 4.4e-4 short.
+    from OCP.BRepGProp import BRepGProp
+    from OCP.GProp import GProp_GProps
+    from OCP.STEPControl import STEPControl_Reader
+
+    text = ('[model]\nname = "egg"\n[units]\nlength = "mm"\nmass = "kg"\n[[part]]\npath = "tank"\n'
+            'shape = "ellipsoid"\nsemi_x = 200\nsemi_y = 150\nsemi_z = 100\nmass = "3 kg"\nmaturity = "estimated"\n')
+    result = export_model(loads_model(text, label="egg.toml"), tmp_path, ExportOptions(formats=frozenset({Format.STEP})))
+    reader = STEPControl_Reader()
+    reader.ReadFile(str(next(p for p in result.files if p.suffix == ".step")))
+    reader.TransferRoots()
+    props = GProp_GProps()
+    BRepGProp.VolumeProperties_s(reader.OneShape(), props, 1e-12)
+    exact = 4.0 / 3.0 * math.pi * 200.0 * 150.0 * 100.0  # mm³
+    assert abs(props.Mass() / exact - 1.0) < 1e-8
+    row = result.sidecar["components"][0]
+    assert abs(row["solid_volume_m3"] / (exact * 1e-9) - 1.0) < 1e-8

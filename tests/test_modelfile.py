@@ -251,9 +251,9 @@ def test_override_errors_name_the_option(tmp_path: Path) -> None:
     err = error_of(path, {"thik": "10 mm"})
     assert (err.item, err.field) == ("--set thik", None)
     assert "cannot override an unknown parameter; did you mean 'thick'?" in err.message
-    err = error_of(path, {"thick": "10 kg"})
-    assert (err.item, err.field) == ("part 'body/plate'", "size[2]")
-    assert "expected a length" in err.message
+    err = error_of(path, {"thick": "10 kg"})  # the option is blamed, not the part that uses the parameter
+    assert (err.item, err.field) == ("--set thick", None)
+    assert err.message == "'10 kg' is in kg, but the file gives thick in m (thick = '20 mm')"
     err = error_of(path, {"thick": "10 mm +"})  # the expression error as one line with its position, no caret
     assert (err.item, err.field) == ("--set thick", None)
     assert err.message.endswith("(in '10 mm +', at character 8)") and "^" not in err.message

@@ -131,7 +131,7 @@ def test_publish_refuses_to_overwrite_its_input_and_writes_nothing(tmp_path: Pat
     before = model.read_bytes()
     assert main(["publish", str(model), "-o", str(model), "--no-pictures"]) == 2
     assert model.read_bytes() == before
-    assert "is the input file" in capsys.readouterr().err
+    assert "that is the input model" in capsys.readouterr().err  # the one check of every output (cli.args)
     assert main(["publish", str(model), "-o", str(tmp_path / "page.txt"), "--no-pictures"]) == 2
     assert not (tmp_path / "page.txt").exists()
     assert "must end in .html" in capsys.readouterr().err

@@ -45,6 +45,8 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UserError
+
 __all__ = [
     "AXES",
     "BlockError",
@@ -61,7 +63,7 @@ AXES = "xyz"
 PATTERN_KINDS = ("line", "grid", "circle", "points")
 
 
-class BlockError(ValueError):
+class BlockError(UserError, ValueError):
     """An impossible or inconsistent block definition; ``field`` names the offending input."""
 
     def __init__(self, message: str, field: str) -> None:

@@ -21,6 +21,7 @@ import numpy as np
 
 from massmodel.core import cautions
 from massmodel.core.atomic import write_atomic, write_text_atomic
+from massmodel.core.errors import UsageError
 from massmodel.core.frames import Pose
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, group_of
@@ -80,7 +81,7 @@ def group_frames(model_path: str | Path, paths: Sequence[str], overrides: Mappin
                               overrides=overrides)
     plain = load_model(base, overrides=overrides)
     if len(probe_model.components) != len(plain.components) + len(parents):
-        raise ValueError(f"{model_path}: a new ballast part under {', '.join(parents)} would lie in a mirrored "
+        raise UsageError(f"{model_path}: a new ballast part under {', '.join(parents)} would lie in a mirrored "
                          "group and be copied to the other side; give the candidate a path outside it")
     frames = {g: probe_model.component(p).pose for g, p in probes.items()}
     for p in paths:

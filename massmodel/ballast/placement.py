@@ -57,6 +57,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Component, Model
 from massmodel.vehicle.balance import Balance, RuleResult, check_rules, static_balance
@@ -193,7 +194,7 @@ class PlacementResult:
         for c in self.cases:
             if c.name == name:
                 return c
-        raise KeyError(f"no case {name!r} in this placement; cases: {', '.join(c.name for c in self.cases)}")
+        raise NotFoundError(f"no case {name!r} in this placement; cases: {', '.join(c.name for c in self.cases)}")
 
 
 def _bounds(prob: Problem) -> tuple[FloatArray, FloatArray]:
@@ -453,7 +454,7 @@ def _as_cases(models: Model | Mapping[str, Model]) -> dict[str, Model]:
         return {models.case: models}
     cases = dict(models)
     if not cases:
-        raise ValueError("ballast placement needs at least one load case")
+        raise UsageError("ballast placement needs at least one load case")
     return cases
 
 

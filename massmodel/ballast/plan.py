@@ -19,11 +19,11 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import expr, units
-from massmodel.core.errors import InputError
+from massmodel.core.errors import InputError, NotFoundError, UsageError
 from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, in_group
-from massmodel.modelfile.reader import TableReader, parse_toml, read_text, read_units
+from massmodel.modelfile.reader import TableReader, expression_message, parse_toml, read_text, read_units
 
 from .block import BlockError
 from .sizing import BlockSpec, Envelope, Fill, SizingError, spec_from_parts
@@ -148,7 +148,7 @@ class Plan:
         for c in self.candidates:
             if c.name == name:
                 return c
-        raise KeyError(f"the plan has no candidate slot '{name}'; candidates: "
+        raise NotFoundError(f"the plan has no candidate slot '{name}'; candidates: "
                        f"{', '.join(c.name for c in self.candidates)}")
 
     def without(self, names: Sequence[str]) -> Plan:
@@ -180,7 +180,7 @@ class _Reader(TableReader):
         try:
             q = expr.evaluate(value, self.env)
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise self.error(item, field, str(exc)) from None
+            raise self.error(item, field, expression_message(exc)) from None
         kind = next((k for k, d in _UNIT_KINDS.items() if d == dim), None)
         if q.dim == units.DIMENSIONLESS and kind is not None and kind in self.defaults:
             q = units.Quantity(q.value * self.defaults[kind], dim)
@@ -549,7 +549,7 @@ def material_override(plan: Plan, model: Model, assignments: Sequence[str]) -> P
     for text in assignments:
         slot, _, key = text.rpartition("=")
         if key not in model.materials:
-            raise ValueError(f"--material {text}: unknown material {key!r}; `massmodel materials` lists the library")
+            raise UsageError(f"--material {text}: unknown material {key!r}; `massmodel materials` lists the library")
         names = [slot] if slot else [c.name for c in out.candidates]
         for n in names:
             c = out.candidate(n)

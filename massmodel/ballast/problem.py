@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties, parallel_axis_shift
 from massmodel.core.model import Model, RuleCheck, in_group
 from massmodel.vehicle.balance import ballast_height_window
@@ -301,7 +302,7 @@ def build_problem(cases: Mapping[str, Model], plan: Plan) -> Problem:
     removed = [p for c in plan.candidates for p in c.replace]
     for name, model in cases.items():
         if model.vehicle is None:
-            raise ValueError(f"{model.source or model.name}: ballast placement needs a [vehicle] section")
+            raise UsageError(f"{model.source or model.name}: ballast placement needs a [vehicle] section")
         baseline = model.with_components([c for c in model.components if c.path not in removed])
         mp = baseline.mass_properties()
         v = model.vehicle

@@ -18,6 +18,7 @@ import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model, RuleCheck, in_group
 
 from .plan import Plan, PlanError
@@ -116,13 +117,13 @@ def resolve_margins(plan: Plan, cases: Mapping[str, Model], margins: Mapping[str
         if name in skip:
             continue
         if name not in kinds:
-            raise ValueError(f"margins: no rule named {name!r} applies in the cases considered "
+            raise UsageError(f"margins: no rule named {name!r} applies in the cases considered "
                              f"({', '.join(cases)}); rules: {known}")
         if kinds[name] not in MARGIN_UNITS:
-            raise ValueError(f"margins: rule {name!r} ({kinds[name].value}) takes no margin")
+            raise UsageError(f"margins: rule {name!r} ({kinds[name].value}) takes no margin")
         v = float(value)
         if not (math.isfinite(v) and v >= 0.0):
-            raise ValueError(f"margins: the margin of rule {name!r} must be >= 0 and finite "
+            raise UsageError(f"margins: the margin of rule {name!r} must be >= 0 and finite "
                              f"({MARGIN_UNITS[kinds[name]]}, SI), got {value!r}")
         out[name] = v
     return out

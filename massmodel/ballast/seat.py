@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.frames import Pose
 from massmodel.core.materials import Material
 from massmodel.core.model import Model, Rule, RuleCheck, in_group
@@ -114,10 +115,10 @@ class SeatStudy:
 def group_extent(model: Model, group: str) -> tuple[float, float]:
     """Lowest and highest point of a group's shapes along the vehicle's up axis, above the ground, m."""
     if model.vehicle is None:
-        raise ValueError(f"{model.source or model.name}: the seat study needs a [vehicle] section")
+        raise UsageError(f"{model.source or model.name}: the seat study needs a [vehicle] section")
     comps = model.select([group])
     if not comps:
-        raise ValueError(f"no part lies in group '{group}'")
+        raise UsageError(f"no part lies in group '{group}'")
     up = model.vehicle.up
     lo, hi = math.inf, -math.inf
     for c in comps:
@@ -134,9 +135,9 @@ def _rule(model: Model, name: str | None, margin: float) -> Rule:
         for r in rules:
             if r.name == name:
                 return r
-        raise ValueError(f"no min_group_mass rule named '{name}'; rules: {', '.join(r.name for r in rules) or 'none'}")
+        raise UsageError(f"no min_group_mass rule named '{name}'; rules: {', '.join(r.name for r in rules) or 'none'}")
     if not rules:
-        raise ValueError(f"{model.source or model.name}: the model has no min_group_mass rule")
+        raise UsageError(f"{model.source or model.name}: the model has no min_group_mass rule")
     short = [r for r in rules if _group_mass(model, r) < float(r.limit or 0.0) + margin]
     return short[0] if short else rules[0]
 
@@ -181,15 +182,15 @@ def seat_ballast_study(
         Ballast CG heights above the ground, m (default: ``steps`` heights across the seat structure).
     """
     if model.vehicle is None:
-        raise ValueError(f"{model.source or model.name}: the seat study needs a [vehicle] section")
+        raise UsageError(f"{model.source or model.name}: the seat study needs a [vehicle] section")
     if not (math.isfinite(margin) and margin >= 0.0):
-        raise ValueError(f"margin must be a mass >= 0, got {margin!r} kg")
+        raise UsageError(f"margin must be a mass >= 0, got {margin!r} kg")
     v = model.vehicle
     rule = _rule(model, rule_name, margin)
     if seat_group is None:
         seat_group = next((g for g in rule.groups if "seat" in g.split("/")[-1]), rule.groups[-1])
     elif not any(in_group(seat_group, g) for g in rule.groups):
-        raise ValueError(f"group '{seat_group}' is not counted by rule '{rule.name}' (groups: {', '.join(rule.groups)})")
+        raise UsageError(f"group '{seat_group}' is not counted by rule '{rule.name}' (groups: {', '.join(rule.groups)})")
     group = _group_mass(model, rule)
     need = float(rule.limit or 0.0) + margin - group
     seat_lo, seat_hi = group_extent(model, seat_group)
@@ -207,7 +208,7 @@ def seat_ballast_study(
         try:
             sizing = _size(env, material, increment, need)
         except SizingError as exc:
-            raise ValueError(f"seat ballast: {exc}") from None
+            raise UsageError(f"seat ballast: {exc}") from None
     if heights is None:  # the plate's CG from half its thickness above the lowest point to as far below the top
         half = 0.5 * sizing.fill_length if sizing is not None else 0.0
         lo_h, hi_h = seat_lo + half, max(seat_hi - half, seat_lo + half)
@@ -219,7 +220,7 @@ def seat_ballast_study(
     heights = np.asarray(heights, dtype=float)
     if heights.ndim != 1 or heights.size < 1 or not np.all(np.isfinite(heights)) or np.any(heights <= 0.0):
         got = ", ".join(f"{h * 1e3:.1f}" for h in np.ravel(heights))
-        raise ValueError(f"ballast heights must be heights above the ground (> 0 mm), got {got} mm")
+        raise UsageError(f"ballast heights must be heights above the ground (> 0 mm), got {got} mm")
     m = sizing.masses()[0] if sizing is not None else 0.0
     cg_h, ff = [], []
     for h in heights:

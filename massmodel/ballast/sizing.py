@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UserError
 from massmodel.core.frames import Pose
 from massmodel.core.massprops import MassProperties, combine
 from massmodel.core.materials import Material
@@ -53,7 +54,7 @@ _EPS = 1e-9  # relative slack when comparing lengths that should be multiples of
 MAX_STEPS = 200_000  # longest search along the fill axis, in increments
 
 
-class SizingError(ValueError):
+class SizingError(UserError, ValueError):
     """A block that cannot be sized: the message names the slot and the offending input (``field``)."""
 
     def __init__(self, message: str, field: str = "") -> None:

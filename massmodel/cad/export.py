@@ -21,7 +21,10 @@ Sidecar (JSON, SI)
     from the exported solids, so the file can be checked against the model.
 
 All files are staged as temporary files in their own folders and renamed into place only when every one of them
-has been written (``os.replace``): a failure leaves any earlier export untouched.
+has been written (``os.replace``): a failure leaves any earlier export untouched. The sidecar lists the SHA-256 of
+every other file and is renamed in last, so a process killed during the renames leaves new files beside the old
+sidecar, which :func:`verify_export` detects; the temporary files of a killed export are named
+``.massmodel-partial-<pid>.*`` and removed by the next export into that folder (:func:`clean_partial_files`).
 """
 
 from __future__ import annotations
@@ -37,7 +40,8 @@ from typing import Any
 
 import numpy as np
 
-from massmodel.core.atomic import current_umask
+from massmodel.core.atomic import check_not_input, current_umask
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, MassSource, Model, in_group
 from massmodel.core.shapes import PointMass
@@ -56,6 +60,9 @@ from .formats import (
 
 __all__ = [
     "EXPORT_FORMAT",
+    "PARTIAL_PREFIX",
+    "clean_partial_files",
+    "verify_export",
     "Format",
     "StlLayout",
     "ExportOptions",
@@ -112,7 +119,7 @@ class ExportOptions:
 
     def __post_init__(self) -> None:
         if not (self.chord_tolerance > 0.0 and np.isfinite(self.chord_tolerance)):
-            raise ValueError(f"chord tolerance must be a positive length, got {self.chord_tolerance} m")
+            raise UsageError(f"chord tolerance must be a positive length, got {self.chord_tolerance} m")
 
 
 @dataclass(frozen=True)
@@ -143,7 +150,7 @@ def select_components(model: Model, selection: Iterable[str]) -> list[Component]
             names = [c.path for c in model.components] + model.groups()
             close = difflib.get_close_matches(s, names, n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
-            raise KeyError(f"selection: no part or group '{s}' in model '{model.name}'{hint}")
+            raise NotFoundError(f"selection: no part or group '{s}' in model '{model.name}'{hint}")
     return model.select(chosen)
 
 
@@ -152,12 +159,83 @@ def select_components(model: Model, selection: Iterable[str]) -> list[Component]
 # --------------------------------------------------------------------------------------------------
 
 
+PARTIAL_PREFIX = ".massmodel-partial-"  # temporary files of an export: PARTIAL_PREFIX + "<pid>." + name + ...
+
+
+def clean_partial_files(folder: Path) -> list[Path]:
+    """Remove the temporary files an export killed part-way left in ``folder`` (and its sub-folders).
+
+    They are named ``.massmodel-partial-<pid>.<name>.<random>.tmp<suffix>``; those of a process still running (an
+    export under way) are kept.
+    """
+    removed: list[Path] = []
+    if not folder.is_dir():
+        return removed
+    for path in folder.rglob(PARTIAL_PREFIX + "*"):
+        pid_text = path.name[len(PARTIAL_PREFIX):].split(".", 1)[0]
+        if not pid_text.isdigit() or (int(pid_text) != os.getpid() and _running(int(pid_text))):
+            continue
+        try:
+            path.unlink()
+            removed.append(path)
+        except OSError:
+            pass
+    return removed
+
+
+def _running(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # exists, owned by someone else
+        return True
+    return True
+
+
+def _sha256(path: Path) -> str:
+    import hashlib
+
+    h = hashlib.sha256()
+    with open(path, "rb") as f:
+        for block in iter(lambda: f.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def verify_export(sidecar_path: str | Path) -> list[str]:
+    """Check that the files of an export are the ones its sidecar describes (SHA-256 in ``files.sha256``).
+
+    The sidecar is renamed into place last, so a set interrupted part-way (killed during the renames) shows as new
+    files beside an old sidecar; a reader that relies on the sidecar matching the STEP calls this first.
+
+    Returns
+    -------
+    list of str
+        One line per missing or different file (empty: the set is consistent).
+    """
+    sidecar = Path(sidecar_path)
+    data = json.loads(sidecar.read_text(encoding="utf-8"))
+    hashes = data.get("files", {}).get("sha256", {})
+    problems = []
+    if not hashes:
+        problems.append(f"{sidecar}: lists no file hashes (written before sidecars carried them)")
+    for name, digest in hashes.items():
+        path = sidecar.parent / name
+        if not path.is_file():
+            problems.append(f"{path}: missing")
+        elif _sha256(path) != digest:
+            problems.append(f"{path}: not the file the sidecar describes (another export's, or changed since)")
+    return problems
+
+
 class _Stage:
     def __init__(self) -> None:
         self.pending: list[tuple[Path, Path]] = []
         self.made_dirs: list[Path] = []
 
     def temp_for(self, target: Path) -> Path:
+        check_not_input(target)
         folder = target.parent
         missing = []
         probe = folder
@@ -166,7 +244,8 @@ class _Stage:
             probe = probe.parent
         try:
             folder.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=f".{target.stem}.", suffix=f".tmp{target.suffix}", dir=folder)
+            fd, tmp = tempfile.mkstemp(prefix=f"{PARTIAL_PREFIX}{os.getpid()}.{target.stem}.",
+                                       suffix=f".tmp{target.suffix}", dir=folder)
         except OSError as exc:
             raise ExportError(f"cannot write to the folder '{folder}': {exc.strerror or exc}") from None
         os.close(fd)
@@ -183,7 +262,12 @@ class _Stage:
         except OSError as exc:
             raise ExportError(f"cannot write '{target}': {exc.strerror or exc}") from None
 
+    def hashes(self, root: Path) -> dict[str, str]:
+        """SHA-256 of every staged file, by its path relative to ``root`` (the sidecar's manifest)."""
+        return {target.relative_to(root).as_posix(): _sha256(tmp) for tmp, target in self.pending}
+
     def commit(self) -> list[Path]:
+        """Rename the staged files into place in the order staged (the sidecar, staged last, goes in last)."""
         for tmp, target in self.pending:
             os.replace(tmp, target)
         done = [t for _, t in self.pending]
@@ -254,7 +338,7 @@ def export_model(
     if stem is None:
         stem = slug(model.name) + ("_" + "+".join(slug(s) for s in opts.selection) if opts.selection else "")
     elif not stem.strip() or stem.strip(".") == "" or any(sep in stem for sep in ("/", "\\", os.sep)):
-        raise ValueError(f"file name stem (--name) {stem!r}: expected a plain file name, without folders "
+        raise UsageError(f"file name stem (--name) {stem!r}: expected a plain file name, without folders "
                          "(use --out for the folder)")
     tick = progress or (lambda stage, done, total: None)
     from .solids import component_local_mesh, component_local_solid, has_solid
@@ -262,7 +346,7 @@ def export_model(
     with_solid = [c for c in selected if has_solid(c)]
     left_out = tuple((c.path, _no_solid_reason(c)) for c in selected if not has_solid(c))
     if not with_solid:
-        raise ValueError(f"selection of model '{model.name}' holds no solid to export "
+        raise UsageError(f"selection of model '{model.name}' holds no solid to export "
                          f"({len(left_out)} point masses or open meshes)")
     parts: list[ExportPart] = []
     cache: dict[Any, Any] = {}
@@ -279,6 +363,7 @@ def export_model(
             p.mesh = component_local_mesh(p.component, opts.chord_tolerance, cache)
             tick("meshes", k + 1, len(parts))
 
+    clean_partial_files(out)  # what an export killed part-way left here
     stage = _Stage()
     files: dict[str, Any] = {}
     try:
@@ -307,6 +392,7 @@ def export_model(
             stage.write_bytes(target, glb_bytes(model, parts))
             files["glb"] = target.name
             tick("GLB", 1, 1)
+        files["sha256"] = stage.hashes(out)  # the manifest: the sidecar, renamed in last, vouches for these
         sidecar = _sidecar(model, selected, parts, left_out, opts, files)
         target = out / f"{stem}.massprops.json"
         stage.write_bytes(target, (json.dumps(sidecar, indent=2, allow_nan=False) + "\n").encode("utf-8"))

@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from massmodel.core.errors import UserError
 from massmodel.core.model import Component, Model
 
 __all__ = [
@@ -24,7 +25,7 @@ __all__ = [
 ]
 
 
-class ExportError(OSError):
+class ExportError(UserError, OSError):
     """An export that cannot be written (folder not writable, a writer failing); nothing was replaced."""
 
 

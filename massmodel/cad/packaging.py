@@ -28,6 +28,7 @@ from typing import Any
 
 import numpy as np
 
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.model import Component, Model, in_group
 
 from .contact import SLIVER_MM3, FitResult, candidate_pairs, distance_between, fit_in_slot, overlap_volume
@@ -266,7 +267,7 @@ def check_packaging(
     from .solids import slot_solid, solid_bounds
 
     if not (sliver >= 0.0 and reach >= 0.0 and (gap is None or gap >= 0.0)):
-        raise ValueError("sliver, reach and gap must not be negative")
+        raise UsageError("sliver, reach and gap must not be negative")
     tick = progress or (lambda stage, done, total: None)
     chosen = _near_selection(model, near)
     seconds: dict[str, float] = {}
@@ -399,7 +400,7 @@ def _near_selection(model: Model, near: Iterable[str] | None) -> list[Component]
             import difflib
 
             close = difflib.get_close_matches(s, [c.path for c in model.components] + model.groups(), n=3)
-            raise KeyError(f"--near: no part or group '{s}' in model '{model.name}'"
+            raise NotFoundError(f"--near: no part or group '{s}' in model '{model.name}'"
                            + (f"; did you mean {', '.join(close)}?" if close else ""))
     return model.select(chosen)
 

@@ -13,18 +13,22 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from massmodel.core import expr, units
+from massmodel.core.errors import UsageError
 from massmodel.core.shapes import MAX_LENGTH_M
 from massmodel.modelfile.reader import split_vector
 
 __all__ = ["KINDS", "PointArg", "quantity", "in_unit", "acceleration_in_g", "lengths", "point", "point_or_cg", "keyed", "override", "share",
-           "density_or_material"]
+           "density_or_material",
+           "output_file", "output_folder", "check_outputs"]
 
 #: Quantity kinds of the options: dimension and an example.
 KINDS: dict[str, tuple[units.Dimension, str]] = {
@@ -173,7 +177,7 @@ class PointArg:
                 try:
                     value = _coordinate(self.text, axis, entry, env)
                 except argparse.ArgumentTypeError as exc:
-                    raise ValueError(str(exc)) from None
+                    raise UsageError(str(exc)) from None
             out.append(value)
         return np.array(out)
 
@@ -266,3 +270,92 @@ def density_or_material(text: str) -> Any:
     if key.isidentifier():
         return key
     return _si(text, "density")
+
+
+def output_file(text: str) -> Path:
+    """A file the command writes (``--json FILE``, ``-o FILE``): checked against the inputs by :func:`check_outputs`."""
+    if not text.strip():
+        raise _error("expected a file name")
+    return Path(text)
+
+
+def output_folder(text: str) -> Path:
+    """A folder the command writes into (``export --out DIR``): checked by :func:`check_outputs`."""
+    return output_file(text)
+
+
+_OUTPUT_TYPES = (output_file, output_folder)
+
+
+def _subparser(parser: argparse.ArgumentParser, command: str) -> argparse.ArgumentParser | None:
+    for action in parser._actions:  # argparse keeps the sub-commands in this action only
+        if isinstance(action, argparse._SubParsersAction):
+            return action.choices.get(command)
+    return None
+
+
+def _same(a: Path, b: Path) -> bool:
+    try:
+        if a.exists() and b.exists():
+            return os.path.samefile(a, b)
+    except OSError:
+        pass
+    return a.resolve() == b.resolve()
+
+
+def _files(parser: argparse.ArgumentParser, args: argparse.Namespace) -> tuple[list[tuple[str, Path]],
+                                                                                list[tuple[str, Path, bool]]]:
+    """The command's inputs (name, path) and outputs (option, path, is a folder) as given on the command line."""
+    sub = _subparser(parser, getattr(args, "command", ""))
+    inputs: list[tuple[str, Path]] = []
+    outputs: list[tuple[str, Path, bool]] = []
+    for action in sub._actions if sub is not None else []:
+        values = getattr(args, action.dest, None)
+        for value in values if isinstance(values, list) else [values]:
+            if not isinstance(value, Path):
+                continue
+            name = action.option_strings[-1] if action.option_strings else action.dest
+            if action.type in _OUTPUT_TYPES:
+                outputs.append((name, value, action.type is output_folder))
+            else:
+                inputs.append((name, value))
+    return inputs, outputs
+
+
+def check_outputs(parser: argparse.ArgumentParser, args: argparse.Namespace) -> list[Path]:
+    """Refuse an output option that names an input file of the command, or the same file as another output.
+
+    The inputs are the command's arguments of type :class:`~pathlib.Path` (the model, the session, the plan, the
+    estimate, ``--model``); the outputs are the options of type :func:`output_file` or :func:`output_folder`. Run by
+    :func:`massmodel.cli.main` before the command, so nothing is read or written when it fails.
+
+    Returns
+    -------
+    list of Path
+        The folders of the outputs that do not exist yet (the command creates them; the command line says so).
+
+    Raises
+    ------
+    UsageError
+        One line naming the output option and the file, e.g. ``--json car.toml: that is the input model``.
+    """
+    inputs, outputs = _files(parser, args)
+    for i, (opt, out, _) in enumerate(outputs):
+        for name, path in inputs:
+            if _same(out, path):
+                what = f"the input of {name}" if name.startswith("-") else f"the input {name}"
+                raise UsageError(f"{opt} {out}: that is {what}; choose another output name (nothing was written)")
+        for other, path, _ in outputs[:i]:
+            if _same(out, path):
+                raise UsageError(f"{opt} {out}: {other} writes the same file; choose another output name (nothing "
+                                 "was written)")
+    missing: list[Path] = []
+    for _, out, folder in outputs:
+        top = out if folder else out.parent
+        if top.exists():
+            continue
+        while not top.parent.exists() and top.parent != top:
+            top = top.parent
+        if top not in missing:
+            missing.append(top)
+    return missing

@@ -11,8 +11,9 @@ from pathlib import Path
 from typing import Any
 
 from massmodel.cli import EXIT_FAIL
+from massmodel.core.errors import UsageError
 
-from .args import keyed, lengths, point, quantity
+from .args import keyed, lengths, output_file, point, quantity
 from .core import add_model_arguments, load_from_args
 from .uncertainty import parse_confidence
 
@@ -78,9 +79,9 @@ def register(sub: argparse._SubParsersAction) -> None:
     tg.add_argument("--replace-existing", action="store_true",
                     help="with --target rules: the parts now in the slot come out first")
     out = p.add_argument_group("output")
-    out.add_argument("--step", type=Path, help="write the block's STEP (mm, model frame)")
-    out.add_argument("--stl", type=Path, help="write the block's STL (mm, model frame)")
-    out.add_argument("--json", type=Path, help="write the result as JSON (SI)")
+    out.add_argument("--step", type=output_file, help="write the block's STEP (mm, model frame)")
+    out.add_argument("--stl", type=output_file, help="write the block's STL (mm, model frame)")
+    out.add_argument("--json", type=output_file, help="write the result as JSON (SI)")
     out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check")
     p.set_defaults(run=_size_block)
 
@@ -116,14 +117,14 @@ def register(sub: argparse._SubParsersAction) -> None:
     ov.add_argument("--without", action="append", default=[], metavar="SLOT", help="leave a candidate out")
     ov.add_argument("--increment", type=quantity("length"), help="manufacturing increment of every candidate")
     out = p.add_argument_group("output")
-    out.add_argument("--out-model", type=Path, help="write the ballasted model: a NEW file that extends the input")
-    out.add_argument("--step", type=Path, help="write the STEP of all blocks (mm, model frame)")
-    out.add_argument("--stl", type=Path, help="write one STL of all blocks (mm, model frame)")
-    out.add_argument("--json", type=Path, help="write the result as JSON (SI)")
-    out.add_argument("--picture", type=Path, help="write a PNG of the result (every case's CG and rules)")
-    out.add_argument("--costs-picture", type=Path, metavar="PNG",
+    out.add_argument("--out-model", type=output_file, help="write the ballasted model: a NEW file that extends the input")
+    out.add_argument("--step", type=output_file, help="write the STEP of all blocks (mm, model frame)")
+    out.add_argument("--stl", type=output_file, help="write one STL of all blocks (mm, model frame)")
+    out.add_argument("--json", type=output_file, help="write the result as JSON (SI)")
+    out.add_argument("--picture", type=output_file, help="write a PNG of the result (every case's CG and rules)")
+    out.add_argument("--costs-picture", type=output_file, metavar="PNG",
                      help="write a bar chart of what each rule costs in ballast (PNG)")
-    out.add_argument("--trade-off", type=Path, metavar="PNG",
+    out.add_argument("--trade-off", type=output_file, metavar="PNG",
                      help="compute and plot the CG height / yaw inertia trade-off at the least ballast (PNG)")
     out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check of the blocks")
     p.set_defaults(run=_place)
@@ -141,8 +142,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--at", metavar="X,Y", type=lengths(2), help="forward and left position of the ballast, model frame")
     p.add_argument("--heights", metavar="H1,H2,...", type=lengths(), help="ballast heights above the ground to tabulate")
     p.add_argument("--steps", type=int, default=7, help="number of heights across the seat structure (default 7)")
-    p.add_argument("--plot", type=Path, help="write the plot (PNG)")
-    p.add_argument("--json", type=Path, help="write the result as JSON (SI)")
+    p.add_argument("--plot", type=output_file, help="write the plot (PNG)")
+    p.add_argument("--json", type=output_file, help="write the result as JSON (SI)")
     p.set_defaults(run=_seat)
 
 
@@ -155,11 +156,11 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
 
     if spec is None:
         if not args.material:
-            raise ValueError("--material is needed (or take the block settings from --plan)")
+            raise UsageError("--material is needed (or take the block settings from --plan)")
         if not args.fill:
-            raise ValueError("--fill is needed, e.g. --fill +z (or take the block settings from --plan)")
+            raise UsageError("--fill is needed, e.g. --fill +z (or take the block settings from --plan)")
         if args.increment is None:
-            raise ValueError("--increment is needed, e.g. --increment 0.5mm (or take it from --plan)")
+            raise UsageError("--increment is needed, e.g. --increment 0.5mm (or take it from --plan)")
         spec = spec_from_parts(_material(model, args.material), args.fill,
                                increment=args.increment)
     changes: dict[str, Any] = {}
@@ -173,7 +174,7 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
         fixed = dict(spec.fixed)
         for axis, value in args.fix:
             if axis not in ("x", "y", "z"):
-                raise ValueError(f"--fix {axis}=...: expected AXIS=LENGTH with AXIS x, y or z, e.g. x=180mm")
+                raise UsageError(f"--fix {axis}=...: expected AXIS=LENGTH with AXIS x, y or z, e.g. x=180mm")
             fixed[axis] = value
         changes["fixed"] = fixed
     hole_options = {"--hole-diameter": args.hole_diameter, "--hole-pattern": args.hole_pattern,
@@ -181,11 +182,11 @@ def _spec_changes(args: argparse.Namespace, model: Any, spec: Any) -> Any:
                     "--hole-axis": args.hole_axis, "--counterbore": args.counterbore}
     stray = [name for name, value in hole_options.items() if value is not None]
     if args.holes is None and stray:
-        raise ValueError(f"{', '.join(stray)} describe holes given here and need --holes N (they would otherwise be "
+        raise UsageError(f"{', '.join(stray)} describe holes given here and need --holes N (they would otherwise be "
                          "ignored; --holes replaces a plan's holes as a whole)")
     if args.holes is not None:
         if args.hole_diameter is None:
-            raise ValueError("--holes needs --hole-diameter")
+            raise UsageError("--holes needs --hole-diameter")
         kind = args.hole_pattern or ("grid" if args.hole_columns else "line")
         pitch: tuple[float, ...] = args.hole_pitch or ()
         cb = None
@@ -217,7 +218,7 @@ def _material(model: Any, key: str) -> Any:
         import difflib
 
         close = difflib.get_close_matches(key, list(model.materials), n=3)
-        raise ValueError(f"--material: unknown material {key!r}" + (f"; did you mean {', '.join(close)}?" if close
+        raise UsageError(f"--material: unknown material {key!r}" + (f"; did you mean {', '.join(close)}?" if close
                          else "; `massmodel materials` lists the library"))
     return model.materials[key]
 
@@ -241,18 +242,18 @@ def _size_block(args: argparse.Namespace) -> int:
     if args.plan:
         plan = load_plan(args.plan, model)
         if not args.slot:
-            raise ValueError("--plan needs --slot: which of the plan's candidates to size")
+            raise UsageError("--plan needs --slot: which of the plan's candidates to size")
         cand = plan.candidate(args.slot)
         env, spec, path, replace_paths = cand.envelope, cand.spec, cand.path, cand.replace
         margin_default = plan.targets.mass_margin
     elif args.box:
         if args.at is None or args.clearance is None:
-            raise ValueError("--box needs --at (centre, model frame) and --clearance")
+            raise UsageError("--box needs --at (centre, model frame) and --clearance")
         size = args.box
         env = Envelope(args.slot or "box", (size[0], size[1], size[2]), Pose(np.eye(3), args.at), args.clearance)
     else:
         if not args.slot:
-            raise ValueError("give --slot NAME (a model slot), --plan with --slot, or --box with --at and --clearance")
+            raise UsageError("give --slot NAME (a model slot), --plan with --slot, or --box with --at and --clearance")
         env = Envelope.from_slot(model.slot(args.slot))
         if args.replace_existing:
             replace_paths = tuple(c.path for c in model.components if c.slot == args.slot)
@@ -266,7 +267,7 @@ def _size_block(args: argparse.Namespace) -> int:
     target = None
     if args.target == "rules":
         if args.margin is None and margin_default is None:
-            raise ValueError("--target rules needs --margin (or a plan's mass_margin)")
+            raise UsageError("--target rules needs --margin (or a plan's mass_margin)")
         margin = args.margin if args.margin is not None else float(margin_default or 0.0)
         target, needs = rules_target(model, margin, path, replace_paths)
         if replace_paths:
@@ -324,10 +325,10 @@ def _case_models(args: argparse.Namespace) -> tuple[dict[str, Any], list[str]]:
         return every, []
     names = [n.strip() for n in args.case.split(",") if n.strip()]
     if not names or len(set(names)) != len(names):
-        raise ValueError(f"--case {args.case!r}: expected one or more distinct load-case names, comma-separated")
+        raise UsageError(f"--case {args.case!r}: expected one or more distinct load-case names, comma-separated")
     for n in names:
         if n not in every:
-            raise ValueError(f"{args.model}: --case {n!r}: no such load case; the file defines: {', '.join(every)}")
+            raise UsageError(f"{args.model}: --case {n!r}: no such load case; the file defines: {', '.join(every)}")
     chosen = {n: every[n] for n in names}
     others = [r.name for n, m in every.items() if n not in chosen for r in m.rules]
     return chosen, others
@@ -342,7 +343,7 @@ def _adjusted_plan(args: argparse.Namespace, model: Any) -> Any:
         plan = plan.without(args.without)
     if args.objective:
         if args.objective == "front_fraction" and plan.targets.fraction_target is None and not args.front_fraction:
-            raise ValueError("--objective front_fraction needs a target front fraction (--front-fraction or the "
+            raise UsageError("--objective front_fraction needs a target front fraction (--front-fraction or the "
                              "plan's front_fraction)")
         plan = plan.with_targets(objective=Objective(args.objective))
     if args.margin is not None:
@@ -363,7 +364,7 @@ def _adjusted_plan(args: argparse.Namespace, model: Any) -> Any:
         for c in plan.candidates:
             plan = plan.with_candidate(c.name, spec=replace(c.spec, increment=inc))
     if not plan.candidates:
-        raise ValueError("no candidate slot is left in the plan")
+        raise UsageError("no candidate slot is left in the plan")
     return plan
 
 
@@ -396,7 +397,7 @@ def _place(args: argparse.Namespace) -> int:
     from massmodel.report.summary import write_json_atomic
 
     if args.out_model is not None and args.out_model.resolve() == Path(args.model).resolve():
-        raise ValueError(f"--out-model {args.out_model}: that is the input model; the ballasted model is written to "
+        raise UsageError(f"--out-model {args.out_model}: that is the input model; the ballasted model is written to "
                          "a new file that extends it")
     cases, other_rules = _case_models(args)
     model = next(iter(cases.values()))
@@ -407,7 +408,7 @@ def _place(args: argparse.Namespace) -> int:
                                other_rules=other_rules)
     except SizingError as exc:  # a candidate's block settings that do not work in its slot: name the plan file
         field = f" (plan field '{exc.field}')" if exc.field else ""
-        raise ValueError(f"{args.plan}: {exc}{field}") from None
+        raise UsageError(f"{args.plan}: {exc}{field}") from None
     print(format_placement(result))
     if not result.feasible:
         if args.json:
@@ -516,7 +517,7 @@ def _seat(args: argparse.Namespace) -> int:
     at = args.at
     heights = np.array(args.heights) if args.heights else None
     if args.steps < 2:
-        raise ValueError("--steps must be at least 2")
+        raise UsageError("--steps must be at least 2")
     study = seat_ballast_study(model, _material(model, args.material), args.margin,
                                rule_name=args.rule, seat_group=args.seat_group, footprint=(fx, fy),
                                increment=args.increment, at=at,  # type: ignore[arg-type]

@@ -11,8 +11,9 @@ from pathlib import Path
 from typing import Any
 
 from massmodel.cli import EXIT_FAIL
+from massmodel.core.errors import UsageError
 
-from .args import in_unit
+from .args import in_unit, output_file, output_folder
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register"]
@@ -23,7 +24,7 @@ PROGRESS_MIN_PARTS = 40  # models smaller than this finish in about a second: no
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("export", help="write STEP (AP214), STL, GLB and a mass-properties sidecar (JSON)")
     add_model_arguments(p)
-    p.add_argument("--out", type=Path, metavar="DIR", help="output folder (default: exports/<model name>/)")
+    p.add_argument("--out", type=output_folder, metavar="DIR", help="output folder (default: exports/<model name>/)")
     p.add_argument("--only", action="append", default=[], metavar="PATH",
                    help="export only this group or part (repeatable), e.g. --only ballast")
     p.add_argument("--formats", default="step,stl,glb", metavar="LIST",
@@ -48,7 +49,7 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="neighbours farther than this are not measured, mm (default 50)")
     p.add_argument("--sliver", type=float, default=1.0, metavar="MM3",
                    help="common volumes below this count as touching, not interference, mm^3 (default 1)")
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the findings as JSON (SI)")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the findings as JSON (SI)")
     p.set_defaults(run=_elbowroom)
 
 
@@ -80,7 +81,7 @@ def _formats(text: str) -> frozenset[Any]:
     known = {f.value: f for f in Format}
     bad = [n for n in names if n not in known]
     if bad or not names:
-        raise ValueError(f"--formats: expected a comma-separated list of {', '.join(known)}, got {text!r}")
+        raise UsageError(f"--formats: expected a comma-separated list of {', '.join(known)}, got {text!r}")
     return frozenset(known[n] for n in names)
 
 
@@ -88,7 +89,7 @@ def _export(args: argparse.Namespace) -> int:
     from massmodel.cad.export import ExportOptions, StlLayout, export_model, slug
 
     if not (args.chord > 0.0 and math.isfinite(args.chord)):
-        raise ValueError(f"--chord: the chord tolerance must be a positive length in mm, got {args.chord}")
+        raise UsageError(f"--chord: the chord tolerance must be a positive length in mm, got {args.chord}")
     model = load_from_args(args)
     options = ExportOptions(formats=_formats(args.formats), stl_layout=StlLayout(args.stl),
                             chord_tolerance=args.chord * 1e-3, selection=tuple(args.only))
@@ -126,7 +127,7 @@ def _elbowroom(args: argparse.Namespace) -> int:
     for name in ("gap", "reach", "sliver"):
         value = getattr(args, name)
         if value is not None and not value >= 0.0:
-            raise ValueError(f"--{name}: must not be negative, got {value}")
+            raise UsageError(f"--{name}: must not be negative, got {value}")
     model = load_from_args(args)
     with _progress(len(model.components) >= PROGRESS_MIN_PARTS) as callback:
         report = check_packaging(

@@ -4,7 +4,9 @@ yaw response of a model with a ``[chassis]`` section (linear, steady-state estim
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
+
+from massmodel.cli.args import output_file
+from massmodel.core.errors import UsageError
 
 from .core import add_model_arguments, load_from_args
 
@@ -54,9 +56,9 @@ def register(sub: argparse._SubParsersAction) -> None:
                    metavar=("FL", "FR", "RL", "RR"),
                    help="corner weights from the scales, kg, to start --cross-target from (default: the model's "
                    "static loads, which carry no diagonal preload)")
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the results (SI units in the keys) as JSON")
-    p.add_argument("--picture-loads", type=Path, metavar="PNG", help="corner loads against lateral acceleration")
-    p.add_argument("--picture-yaw", type=Path, metavar="PNG", help="yaw rate after a step steer")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the results (SI units in the keys) as JSON")
+    p.add_argument("--picture-loads", type=output_file, metavar="PNG", help="corner loads against lateral acceleration")
+    p.add_argument("--picture-yaw", type=output_file, metavar="PNG", help="yaw rate after a step steer")
     p.set_defaults(run=_run)
 
 
@@ -71,7 +73,7 @@ def _run(args: argparse.Namespace) -> int:
         cross = CrossRequest(args.cross_target, args.adjust_corner, pitch,
                              tuple(args.scales) if args.scales else None)
     elif args.scales:
-        raise ValueError("--scales is used with --cross-target")
+        raise UsageError("--scales is used with --cross-target")
     data = build_chassis_report(
         model,
         lateral_g=args.lateral or (1.0, 1.5),

@@ -13,8 +13,9 @@ from typing import Any
 import numpy as np
 
 from massmodel.cli import EXIT_FAIL
+from massmodel.core.errors import UsageError
 
-from .args import density_or_material, point, quantity, share
+from .args import density_or_material, output_file, point, quantity, share
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register"]
@@ -54,7 +55,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     t.add_argument("--axis-tol", default="3 deg", metavar="A", type=quantity("angle", "3 deg"), help="angle between principal axes (default 3 deg)")
     t.add_argument("--degenerate-gap", default="5 %", metavar="F", type=share,
                    help="moments closer than this share of the largest: their axes are not compared (default 5 %%)")
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the comparison and diagnosis (SI)")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the comparison and diagnosis (SI)")
     p.add_argument("--units", choices=["si", "mm"], default="si",
                    help="terminal inertia units: si (kg*m^2) or mm (kg*mm^2); CG offsets are always in mm")
     p.add_argument("--details", action="store_true",
@@ -70,7 +71,7 @@ def _point(option: str, text: str) -> np.ndarray:
     try:
         return point(text)
     except argparse.ArgumentTypeError as exc:
-        raise ValueError(f"{option}: expected 'x, y, z unit' such as '0, 0, -265 mm', got {text!r} ({exc})") from None
+        raise UsageError(f"{option}: expected 'x, y, z unit' such as '0, 0, -265 mm', got {text!r} ({exc})") from None
 
 
 def _step_origin(text: str) -> np.ndarray:
@@ -86,7 +87,7 @@ def _density(option: str, value: float | str, materials: Any) -> float:
         return value
     if value in materials:
         return float(materials[value].density)
-    raise ValueError(f"{option}: no material '{value}' (give a density such as '7850 kg/m^3' or a material key: "
+    raise UsageError(f"{option}: no material '{value}' (give a density such as '7850 kg/m^3' or a material key: "
                      "see 'massmodel materials')")
 
 
@@ -95,9 +96,9 @@ def _pairs(option: str, texts: list[str]) -> dict[str, str]:
     for text in texts:
         key, sep, value = text.partition("=")
         if not sep or not key.strip() or not value.strip():
-            raise ValueError(f"{option}: expected SOLID=VALUE, got {text!r}")
+            raise UsageError(f"{option}: expected SOLID=VALUE, got {text!r}")
         if key.strip() in out:
-            raise ValueError(f"{option}: solid '{key.strip()}' given twice")
+            raise UsageError(f"{option}: solid '{key.strip()}' given twice")
         out[key.strip()] = value.strip()
     return out
 
@@ -129,12 +130,12 @@ def _load_estimate(args: argparse.Namespace, model: Any) -> Any:
         per_solid: dict[str, float] = {}
         for k, v in args.solid_density:
             if k in per_solid:
-                raise ValueError(f"--solid-density: solid '{k}' given twice")
+                raise UsageError(f"--solid-density: solid '{k}' given twice")
             per_solid[k] = _density(f"--solid-density {k}", v, materials)
         try:
             axes = AxisMap.parse(args.step_axes or "x=+x, y=+y, z=+z", model.vehicle)
         except ValueError as exc:
-            raise ValueError(f"--step-axes: {exc}") from None
+            raise UsageError(f"--step-axes: {exc}") from None
         return estimate_from_step(path, default_density=default, densities=per_solid,
                                   groups=_pairs("--solid-group", args.solid_group), axes=axes,
                                   origin=args.step_origin if args.step_origin is not None else np.zeros(3))
@@ -142,7 +143,7 @@ def _load_estimate(args: argparse.Namespace, model: Any) -> Any:
                            ("--solid-group", args.solid_group), ("--step-axes", args.step_axes),
                            ("--step-origin", args.step_origin is not None)) if v]
     if used:
-        raise ValueError(f"{used[0]} applies to STEP estimates only; a JSON or CSV estimate declares its own numbers")
+        raise UsageError(f"{used[0]} applies to STEP estimates only; a JSON or CSV estimate declares its own numbers")
     from massmodel.compare.estimate import load_estimate
 
     return load_estimate(path, model.vehicle)

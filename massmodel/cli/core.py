@@ -5,12 +5,12 @@ from __future__ import annotations
 import argparse
 import re
 from collections.abc import Mapping
-from pathlib import Path
 from typing import Any
 
 from massmodel.cli import EXIT_FAIL
+from massmodel.core.errors import UsageError
 
-from .args import point_or_cg
+from .args import output_file, point_or_cg
 from .model_args import add_model_arguments, load_cases_from_args, load_from_args
 
 __all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from_args", "parse_point", "parse_axes"]
@@ -19,7 +19,7 @@ __all__ = ["register", "add_model_arguments", "load_from_args", "load_cases_from
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("report", help="mass, CG, inertia, axle and corner loads, rule checks")
     add_model_arguments(p)
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the machine-readable report (SI)")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the machine-readable report (SI)")
     p.add_argument("--units", choices=["si", "mm"], default="si", help="terminal units: si (m, kg*m^2) or mm (mm, kg*mm^2)")
     p.add_argument("--brief", action="store_true", help="leave the per-component table out of the terminal text")
     p.add_argument("--strict", action="store_true", help="exit 1 when a rule check fails")
@@ -61,7 +61,7 @@ def parse_point(text: str, env: Mapping[str, Any]) -> Any:
     try:
         return point_or_cg(text).resolve(env)
     except (ValueError, argparse.ArgumentTypeError) as exc:
-        raise ValueError(f"--inertia-about {exc}") from None
+        raise UsageError(f"--inertia-about {exc}") from None
 
 
 def parse_axes(text: str, vehicle: Any, env: Mapping[str, Any]) -> Any:
@@ -81,26 +81,26 @@ def parse_axes(text: str, vehicle: Any, env: Mapping[str, Any]) -> Any:
         return None
     if spec.lower() == "vehicle":
         if vehicle is None:
-            raise ValueError("--inertia-axes vehicle: the model has no [vehicle] section")
+            raise UsageError("--inertia-axes vehicle: the model has no [vehicle] section")
         return vehicle.basis
     m = re.fullmatch(r"(extrinsic|intrinsic)\s+([xyz]{1,3})\s*:(.*)", spec)
     if not m:
-        raise ValueError(f"--inertia-axes {text!r}: expected 'model', 'vehicle' or a rotation such as "
+        raise UsageError(f"--inertia-axes {text!r}: expected 'model', 'vehicle' or a rotation such as "
                          "'extrinsic y: 10 deg'")
     angles = []
     for part in m.group(3).split(","):
         try:
             q = evaluate(part.strip(), env)
         except (ExpressionError, UnitError) as exc:
-            raise ValueError(f"--inertia-axes {text!r}: {exc.args[0].splitlines()[0]}") from None
+            raise UsageError(f"--inertia-axes {text!r}: {exc.args[0].splitlines()[0]}") from None
         if q.dim == DIMENSIONLESS and q.value == 0.0:
             angles.append(0.0)
         elif q.dim == ANGLE:
             angles.append(q.value)
         else:
-            raise ValueError(f"--inertia-axes {text!r}: angles need a unit, e.g. '10 deg'")
+            raise UsageError(f"--inertia-axes {text!r}: angles need a unit, e.g. '10 deg'")
     if len(angles) != len(m.group(2)):
-        raise ValueError(f"--inertia-axes {text!r}: expected {len(m.group(2))} angles for '{m.group(2)}'")
+        raise UsageError(f"--inertia-axes {text!r}: expected {len(m.group(2))} angles for '{m.group(2)}'")
     return rotation_from_sequence(RotationKind(m.group(1)), m.group(2), tuple(angles)).T.copy()
 
 
@@ -136,7 +136,7 @@ def _resolve(p: Any, env: Mapping[str, Any]) -> Any:
     try:
         return p.resolve(env)
     except ValueError as exc:
-        raise ValueError(f"--inertia-about: {exc}") from None
+        raise UsageError(f"--inertia-about: {exc}") from None
 
 
 def _report_cases(args: argparse.Namespace) -> int:
@@ -144,7 +144,7 @@ def _report_cases(args: argparse.Namespace) -> int:
     from massmodel.report.summary import DisplayUnits, write_json_atomic
 
     if args.case is not None:
-        raise ValueError("give either --case NAME or --all-cases, not both")
+        raise UsageError("give either --case NAME or --all-cases, not both")
     data = build_case_table(load_cases_from_args(args))
     print(format_case_table(data, DisplayUnits(args.units)))
     if args.json:

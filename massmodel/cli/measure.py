@@ -6,7 +6,9 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from .args import override, quantity
+from massmodel.core.errors import UsageError
+
+from .args import output_file, override, quantity
 
 __all__ = ["register"]
 
@@ -17,13 +19,13 @@ def _common(p: argparse.ArgumentParser) -> None:
                    help="model file to compare with (default: the one named in the session's [session] model)")
     p.add_argument("--set", dest="overrides", action="append", default=[], metavar="NAME=VALUE", type=override,
                    help="override a model parameter, e.g. --set fuel_mass='10 kg' (repeatable)")
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the machine-readable result (SI)")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the machine-readable result (SI)")
 
 
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("weigh", help="corner-weight reduction and model-versus-scales reconciliation")
     _common(p)
-    p.add_argument("--write-model", type=Path, metavar="FILE",
+    p.add_argument("--write-model", type=output_file, metavar="FILE",
                    help="write a model file that extends the model with the unaccounted item (never the input)")
     p.add_argument("--item-height", default="auto", metavar="auto|model-cg|lift|LENGTH", type=_height,
                    help="height of the unaccounted item above the ground in that file: from the axle lift "
@@ -45,7 +47,7 @@ def _load(args: argparse.Namespace, need_model: bool = False):  # -> (Session, M
     overrides = dict(args.overrides)
     session, model = load_session_and_model(args.session, args.model, overrides)
     if need_model and model is None:
-        raise ValueError(f"{args.session}: no model to compare with: name one in [session] model or with --model")
+        raise UsageError(f"{args.session}: no model to compare with: name one in [session] model or with --model")
     return session, model, overrides
 
 

@@ -6,6 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
+from massmodel.cli.args import output_file
 from massmodel.cli.model_args import add_model_arguments, load_cases_from_args
 from massmodel.cli.uncertainty import parse_confidence
 
@@ -19,7 +20,7 @@ def register(sub: argparse._SubParsersAction) -> None:
         "pictures and the car in 3-D",
     )
     add_model_arguments(p)
-    p.add_argument("-o", "--out", type=Path, required=True, metavar="FILE.html", help="the page to write")
+    p.add_argument("-o", "--out", type=output_file, required=True, metavar="FILE.html", help="the page to write")
     p.add_argument("--no-pictures", action="store_true", help="leave out the rendered sheet and the CG chart")
     p.add_argument("--no-3d", dest="no_3d", action="store_true", help="leave out the rotatable 3-D view")
     p.add_argument("--ballast", type=Path, metavar="FILE.json",

@@ -7,11 +7,12 @@ from __future__ import annotations
 import argparse
 import sys
 from dataclasses import replace
-from pathlib import Path
 from typing import Any
 
 from massmodel.cli import EXIT_FAIL
+from massmodel.cli.args import output_file
 from massmodel.cli.core import add_model_arguments
+from massmodel.core.errors import UsageError
 
 __all__ = ["register", "text_progress", "parse_limit"]
 
@@ -49,8 +50,8 @@ def _outputs(text: str | None) -> tuple[str, ...]:
 
 
 def _output_options(p: argparse.ArgumentParser, plot_help: str) -> None:
-    p.add_argument("--json", type=Path, metavar="FILE", help="write the results as JSON (SI, units in the keys)")
-    p.add_argument("--plot", type=Path, metavar="FILE.png", help=plot_help)
+    p.add_argument("--json", type=output_file, metavar="FILE", help="write the results as JSON (SI, units in the keys)")
+    p.add_argument("--plot", type=output_file, metavar="FILE.png", help=plot_help)
     p.add_argument("--progress", action="store_true", help="show progress on stderr even when it is not a terminal")
 
 
@@ -64,7 +65,7 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="a parameter and its values: FROM:TO:STEPS with units (fuel_mass=30kg:0kg:31) or a list "
                    "(ride_height=30mm,40mm,50mm); several --param make a grid")
     p.add_argument("--outputs", metavar="LIST", help=f"comma-separated outputs (default all): {names}")
-    p.add_argument("--csv", type=Path, metavar="FILE", help="write one row per point (SI, units in the column names)")
+    p.add_argument("--csv", type=output_file, metavar="FILE", help="write one row per point (SI, units in the column names)")
     _output_options(p, "draw each output and each rule's value against the (first) parameter, limits drawn")
     p.add_argument("--cluster", metavar="ADDRESS",
                    help="evaluate on Dask distributed: 'local' starts a local cluster, else a scheduler address "
@@ -91,7 +92,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--full", metavar="VALUE", help="full load with a unit (default: the parameter's value)")
     p.add_argument("--empty", default="0", metavar="VALUE", help="empty load with a unit (default 0)")
     p.add_argument("--steps", type=int, default=21, metavar="N", help="points from full to empty (default 21)")
-    p.add_argument("--csv", type=Path, metavar="FILE", help="write one row per fuel load (SI)")
+    p.add_argument("--csv", type=output_file, metavar="FILE", help="write one row per fuel load (SI)")
     _output_options(p, "chart of the track with the worst point of each rule")
     p.set_defaults(run=_fuel_burn)
 
@@ -99,8 +100,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("old", metavar="OLD", help="model file, or FILE@REV read from git (e.g. car.toml@HEAD~1)")
     p.add_argument("new", metavar="NEW", help="model file, or FILE@REV")
     p.add_argument("--case", metavar="NAME", help="compare both versions in this load case")
-    p.add_argument("--json", type=Path, metavar="FILE", help="write the comparison as JSON (SI)")
-    p.add_argument("--waterfall", type=Path, metavar="FILE.png", help="waterfall chart of the mass changes")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="write the comparison as JSON (SI)")
+    p.add_argument("--waterfall", type=output_file, metavar="FILE.png", help="waterfall chart of the mass changes")
     p.add_argument("--fail-over", dest="fail_over", action="append", default=[], metavar="KEY=LIMIT",
                    help="exit 1 when a change goes over a limit: mass=0.5kg, cg=2mm (distance the CG moved), "
                    "cg_x/cg_y/cg_z=1mm, inertia=0.5kg*m^2 (largest tensor entry change); repeatable")
@@ -108,8 +109,8 @@ def register(sub: argparse._SubParsersAction) -> None:
 
     p = sub.add_parser("budget", help="mass budget: parts and group subtotals as CSV or XLSX that sum to the totals")
     add_model_arguments(p)
-    p.add_argument("--csv", type=Path, metavar="FILE", help="write the budget as CSV (SI)")
-    p.add_argument("--xlsx", type=Path, metavar="FILE", help="write it as an XLSX workbook (needs massmodel[xlsx])")
+    p.add_argument("--csv", type=output_file, metavar="FILE", help="write the budget as CSV (SI)")
+    p.add_argument("--xlsx", type=output_file, metavar="FILE", help="write it as an XLSX workbook (needs massmodel[xlsx])")
     p.add_argument("--depth", type=int, default=1, metavar="N", help="group levels shown in the terminal (default 1)")
     p.set_defaults(run=_budget)
 
@@ -121,7 +122,7 @@ def _vary(args: argparse.Namespace) -> int:
     from massmodel.studies.sweep import Study, parse_range, sweep
 
     if args.chunk <= 0 or args.workers <= 0:
-        raise ValueError("--chunk and --workers must be at least 1")
+        raise UsageError("--chunk and --workers must be at least 1")
     source = read_source(args.model)
     overrides = _overrides(args)
     base = build_model(source, overrides, args.case)
@@ -169,7 +170,7 @@ def _nudge(args: argparse.Namespace) -> int:
     steps = [parse_step(text, base) for text in args.steps]
     names = [n for n, _, _ in steps]
     if len(set(names)) != len(names):
-        raise ValueError(f"--step: parameter '{next(n for n in names if names.count(n) > 1)}' given twice")
+        raise UsageError(f"--step: parameter '{next(n for n in names if names.count(n) > 1)}' given twice")
     rank = list(_outputs(args.rank_by)) or ["front_share"]
     if base.vehicle is None and rank == ["front_share"]:
         rank = ["mass"]
@@ -193,9 +194,9 @@ def _quantity_like(text: str, like: Any, what: str, env: Any) -> float:
     try:
         q = expr.evaluate(text.strip(), env)
     except (expr.ExpressionError, units.UnitError) as exc:
-        raise ValueError(f"{what}: {str(exc).splitlines()[0]}") from None
+        raise UsageError(f"{what}: {str(exc).splitlines()[0]}") from None
     if q.dim != like and not (q.dim == units.DIMENSIONLESS and q.value == 0.0):
-        raise ValueError(f"{what}: {text!r} is in {q.dim}, expected {like}")
+        raise UsageError(f"{what}: {text!r} is in {q.dim}, expected {like}")
     return float(q.value)
 
 
@@ -209,7 +210,7 @@ def _fuel_burn(args: argparse.Namespace) -> int:
     overrides = _overrides(args)
     base = build_model(source, overrides, args.case)
     if args.fuel not in base.parameters:
-        raise ValueError(f"{args.model}: unknown parameter '{args.fuel}' (--fuel); parameters: "
+        raise UsageError(f"{args.model}: unknown parameter '{args.fuel}' (--fuel); parameters: "
                          f"{', '.join(base.parameters)}")
     dim = base.parameters[args.fuel].dim
     full = None if args.full is None else _quantity_like(args.full, dim, "--full", base.parameters)
@@ -231,14 +232,14 @@ def parse_limit(text: str) -> tuple[str, float]:
     from massmodel.studies.diff import LIMIT_KEYS
 
     if "=" not in text:
-        raise ValueError(f"--fail-over {text!r}: expected KEY=LIMIT, e.g. mass=0.5kg or cg=2mm")
+        raise UsageError(f"--fail-over {text!r}: expected KEY=LIMIT, e.g. mass=0.5kg or cg=2mm")
     key, value = (s.strip() for s in text.split("=", 1))
     if key not in LIMIT_KEYS:
-        raise ValueError(f"--fail-over {text!r}: unknown key '{key}'; keys: {', '.join(LIMIT_KEYS)}")
+        raise UsageError(f"--fail-over {text!r}: unknown key '{key}'; keys: {', '.join(LIMIT_KEYS)}")
     dim = {"kg": units.MASS, "m": units.LENGTH, "kg*m^2": units.INERTIA}[LIMIT_KEYS[key]]
     limit = _quantity_like(value, dim, f"--fail-over {key}", {})
     if limit < 0.0:
-        raise ValueError(f"--fail-over {key}: the limit must not be negative")
+        raise UsageError(f"--fail-over {key}: the limit must not be negative")
     return key, limit
 
 
@@ -275,7 +276,7 @@ def _budget(args: argparse.Namespace) -> int:
     from massmodel.studies.budget import mass_budget
 
     if args.xlsx is not None and args.xlsx.suffix.lower() != ".xlsx":
-        raise ValueError(f"--xlsx {args.xlsx}: the file name must end in .xlsx")
+        raise UsageError(f"--xlsx {args.xlsx}: the file name must end in .xlsx")
     b = mass_budget(load_from_args(args))
     print(format_budget(b, args.depth))
     if args.csv:

@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import argparse
 from collections.abc import Callable
-from pathlib import Path
 
-from .args import acceleration_in_g
+from massmodel.core.errors import UsageError
+
+from .args import acceleration_in_g, output_file
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register"]
@@ -58,7 +59,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--front-roll-share", type=float, metavar="S",
                    help="front share of the lateral load transfer, 0..1 (from the roll stiffnesses); default: the "
                    "static front weight fraction, which is an assumption")
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the results (kg, m, g) as JSON")
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the results (kg, m, g) as JSON")
     p.set_defaults(run=_run)
 
 
@@ -68,7 +69,7 @@ def _run(args: argparse.Namespace) -> int:
     from massmodel.vehicle.transfer import Condition, build_transfer_report
 
     if not args.conditions:
-        raise ValueError("give at least one of --brake, --drive, --corner or --accel")
+        raise UsageError("give at least one of --brake, --drive, --corner or --accel")
     model = load_from_args(args)
     conditions = [Condition(*c) for c in args.conditions]
     data = build_transfer_report(model, conditions, args.front_roll_share)

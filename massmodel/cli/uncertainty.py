@@ -4,10 +4,10 @@ histograms), and the ``--uncertainty`` / ``--confidence`` options of ``report`` 
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 from typing import Any
 
 from massmodel.cli import EXIT_FAIL
+from massmodel.cli.args import output_file
 from massmodel.cli.model_args import add_model_arguments, load_cases_from_args
 
 __all__ = ["register", "parse_confidence", "add_report_options", "add_report_uncertainty"]
@@ -70,8 +70,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--confidence", type=parse_confidence, default=0.95, metavar="P",
                    help="one-sided confidence of the rule verdicts and needed margins (default 0.95)")
     p.add_argument("--units", choices=["si", "mm"], default="si", help="terminal units: si (m, kg*m^2) or mm")
-    p.add_argument("--json", type=Path, metavar="FILE", help="also write the results (SI) as JSON")
-    p.add_argument("--plot", type=Path, metavar="PNG",
+    p.add_argument("--json", type=output_file, metavar="FILE", help="also write the results (SI) as JSON")
+    p.add_argument("--plot", type=output_file, metavar="PNG",
                    help="histograms of the mass counted by the mass rule and of the front share, with the limits "
                         "(base model, or the --case)")
     p.add_argument("--strict", action="store_true", help="exit 1 unless every rule passes at the confidence")

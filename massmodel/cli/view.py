@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import argparse
 import time
-from pathlib import Path
 
-from .args import in_unit
+from massmodel.core.errors import UsageError
+
+from .args import in_unit, output_file
 from .core import add_model_arguments, load_from_args
 
 __all__ = ["register", "parse_size", "scene_options"]
@@ -20,7 +21,7 @@ def parse_size(text: str) -> tuple[int, int]:
     try:
         w, h = (int(p) for p in parts)
     except ValueError:
-        raise ValueError(f"option --size: {text!r} is not WIDTHxHEIGHT in pixels (e.g. 2000x1400)") from None
+        raise UsageError(f"option --size: {text!r} is not WIDTHxHEIGHT in pixels (e.g. 2000x1400)") from None
     return w, h
 
 
@@ -31,7 +32,7 @@ def _hidden(items: list[str]) -> set[str]:
             if not name:
                 continue
             if name not in HIDEABLE:
-                raise ValueError(f"option --hide: unknown item {name!r}; items: {', '.join(HIDEABLE)}")
+                raise UsageError(f"option --hide: unknown item {name!r}; items: {', '.join(HIDEABLE)}")
             out.add(name)
     return out
 
@@ -42,7 +43,7 @@ def scene_options(args: argparse.Namespace):  # -> SceneOptions
 
     hide = _hidden(args.hide)
     if not args.tolerance > 0:
-        raise ValueError(f"option --tolerance: {args.tolerance} mm must be a positive chord error")
+        raise UsageError(f"option --tolerance: {args.tolerance} mm must be a positive chord error")
     return SceneOptions(
         colour_by=ColourBy(args.colour_by),
         group_depth=args.group_depth,
@@ -69,7 +70,7 @@ def _picture_arguments(p: argparse.ArgumentParser) -> None:
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser("render", help="off-screen picture: a PNG sheet of four views (or one view)")
     add_model_arguments(p)
-    p.add_argument("-o", "--output", type=Path, required=True, metavar="FILE.png", help="PNG file to write")
+    p.add_argument("-o", "--output", type=output_file, required=True, metavar="FILE.png", help="PNG file to write")
     p.add_argument("--view", choices=["sheet", "side", "top", "front", "iso"], default="sheet",
                    help="sheet of four views (default) or one view")
     p.add_argument("--size", default="2000x1400", metavar="WxH", help="picture size in pixels (default 2000x1400)")
@@ -83,7 +84,7 @@ def register(sub: argparse._SubParsersAction) -> None:
 
     p = sub.add_parser("cg-chart", help="flat side-view chart of the CG against the axles and the rule limits")
     add_model_arguments(p)
-    p.add_argument("-o", "--output", type=Path, required=True, metavar="FILE.png", help="PNG file to write")
+    p.add_argument("-o", "--output", type=output_file, required=True, metavar="FILE.png", help="PNG file to write")
     p.add_argument("--size", default="1800x1200", metavar="WxH", help="chart size in pixels (default 1800x1200)")
     p.set_defaults(run=_cg_chart)
 

@@ -39,6 +39,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties, principal_axes
 from massmodel.core.model import Model, in_group
 
@@ -94,7 +95,7 @@ class Tolerances:
         for name in ("mass", "cg", "term", "moment", "axis", "degenerate"):
             value = getattr(self, name)
             if not (isinstance(value, (int, float)) and value > 0.0 and math.isfinite(value)):
-                raise ValueError(f"tolerance '{name}' must be a positive number, got {value!r}")
+                raise UsageError(f"tolerance '{name}' must be a positive number, got {value!r}")
 
     def to_dict(self) -> dict[str, float]:
         return {"mass_fraction": self.mass, "cg_offset_m": self.cg, "term_fraction_of_largest_moment": self.term,
@@ -294,7 +295,7 @@ class Comparison:
         for it in self.items:
             if it.group == group:
                 return it
-        raise KeyError(f"no item '{group}' in the comparison")
+        raise NotFoundError(f"no item '{group}' in the comparison")
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready (SI, units in the keys)."""
@@ -326,7 +327,7 @@ def model_side(model: Model, estimate: Estimate, selection: str = "") -> list[Ma
     if selection and not model.select([selection]):
         close = difflib.get_close_matches(selection, known, n=3)
         hint = f"; did you mean {' or '.join(repr(c) for c in close)}?" if close else ""
-        raise ValueError(f"--group: no group or part '{selection}' in model '{model.name}'{hint}")
+        raise UsageError(f"--group: no group or part '{selection}' in model '{model.name}'{hint}")
     out = []
     for it in estimate.items:
         path = selection if it.group == WHOLE else it.group

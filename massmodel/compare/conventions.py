@@ -24,6 +24,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import InertiaError, MassProperties, validate_inertia
 from massmodel.core.units import INERTIA, LENGTH, MASS, UnitError, parse_unit
 from massmodel.modelfile.reader import ModelFileError
@@ -100,7 +101,7 @@ class AxisMap:
         m = np.array(self.matrix, dtype=float).reshape(3, 3)
         if not (np.all(np.isin(m, (-1.0, 0.0, 1.0))) and np.all(np.abs(m).sum(axis=0) == 1)
                 and np.all(np.abs(m).sum(axis=1) == 1)):
-            raise ValueError("axes must be a signed permutation: each model axis used exactly once")
+            raise UsageError("axes must be a signed permutation: each model axis used exactly once")
         m.setflags(write=False)
         object.__setattr__(self, "matrix", m)
 
@@ -127,23 +128,23 @@ class AxisMap:
                     continue
                 key, sep, val = chunk.partition("=")
                 if not sep:
-                    raise ValueError(f"expected 'x=<model axis>' pairs like 'x=-x, y=-y, z=+z', got {chunk.strip()!r}")
+                    raise UsageError(f"expected 'x=<model axis>' pairs like 'x=-x, y=-y, z=+z', got {chunk.strip()!r}")
                 pairs[key.strip()] = val.strip()
         elif isinstance(value, Mapping):
             pairs = dict(value)
         else:
-            raise ValueError(f"expected a table like {{\"x\": \"-x\", \"y\": \"-y\", \"z\": \"+z\"}}, got {value!r}")
+            raise UsageError(f"expected a table like {{\"x\": \"-x\", \"y\": \"-y\", \"z\": \"+z\"}}, got {value!r}")
         unknown = sorted(set(pairs) - set(AXIS_LETTERS))
         if unknown:
-            raise ValueError(f"unknown estimate axis {unknown[0]!r} (the keys are x, y and z)")
+            raise UsageError(f"unknown estimate axis {unknown[0]!r} (the keys are x, y and z)")
         missing = [a for a in AXIS_LETTERS if a not in pairs]
         if missing:
-            raise ValueError(f"axis '{missing[0]}' is not given (give x, y and z)")
+            raise UsageError(f"axis '{missing[0]}' is not given (give x, y and z)")
         rows = [_direction(str(pairs[a]), vehicle, a) for a in AXIS_LETTERS]
         try:
             return cls(np.array(rows))
         except ValueError:
-            raise ValueError(
+            raise UsageError(
                 f"axes {cls._text_of(np.array(rows))} use a model axis twice; each model axis must appear once"
             ) from None
 
@@ -179,19 +180,19 @@ def _direction(text: str, vehicle: Any, axis: str) -> FloatArray:
     t = text.strip().lower()
     if t in _WORDS:
         if vehicle is None:
-            raise ValueError(f"axis '{axis}' = {text!r}: vehicle directions need a model with a [vehicle] table")
+            raise UsageError(f"axis '{axis}' = {text!r}: vehicle directions need a model with a [vehicle] table")
         name, sign = _WORDS[t]
         v = sign * np.asarray(getattr(vehicle, name), dtype=float)
         if not np.allclose(np.abs(v), np.round(np.abs(v))):
-            raise ValueError(f"axis '{axis}' = {text!r}: the vehicle's {name} direction is not along a model axis")
+            raise UsageError(f"axis '{axis}' = {text!r}: the vehicle's {name} direction is not along a model axis")
         return np.round(v)
     sign = 1.0
-    if t[:1] in "+-":
+    if t and t[0] in "+-":  # ("" is in every text: test the first character itself)
         sign = -1.0 if t[0] == "-" else 1.0
         t = t[1:].strip()
     if t not in ("x", "y", "z"):
         hint = " or a vehicle direction (forward, rearward, left, right, up, down)" if vehicle is not None else ""
-        raise ValueError(f"axis '{axis}' = {text!r}: expected a signed model axis such as '+x' or '-z'{hint}")
+        raise UsageError(f"axis '{axis}' = {text!r}: expected a signed model axis such as '+x' or '-z'{hint}")
     out = np.zeros(3)
     out[AXIS_LETTERS.index(t)] = sign
     return out
@@ -268,7 +269,7 @@ class Conventions:
         origin.setflags(write=False)
         object.__setattr__(self, "origin", origin)
         if (self.reference is ReferenceKind.POINT) != (self.reference_point is not None):
-            raise ValueError("a stated reference point goes with reference 'point' only")
+            raise UsageError("a stated reference point goes with reference 'point' only")
         if self.reference_point is not None:
             p = np.array(self.reference_point, dtype=float).reshape(3)
             p.setflags(write=False)

@@ -41,7 +41,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core.units import UnitError
-from massmodel.modelfile.reader import parse_json, read_text, split_vector
+from massmodel.modelfile.reader import magnitude_problem, parse_json, read_text, split_vector
 
 from .conventions import (
     AXIS_LETTERS,
@@ -166,11 +166,21 @@ def _inertia_field(file: str, item: str, value: Any) -> FloatArray:
                         "expected {\"xx\": .., \"yy\": .., \"zz\": .., \"xy\": .., \"xz\": .., \"yz\": ..} or a 3x3 matrix")
 
 
-def _check_written(file: str, item: str, mass: float, tensor: FloatArray, conv: Conventions) -> FloatArray:
-    """The written tensor made exactly symmetric, after checking the mass and the symmetry (numbers as written, in
-    the declared units ``conv``)."""
+def _check_written(file: str, item: str, mass: float, cg: FloatArray, tensor: FloatArray,
+                   conv: Conventions) -> FloatArray:
+    """The written tensor made exactly symmetric, after checking the mass, the magnitudes (the limits of the model
+    file, :data:`massmodel.modelfile.reader.MAGNITUDE_LIMITS`) and the symmetry (numbers as written, in the declared
+    units ``conv``)."""
     if not mass > 0.0:
         raise EstimateError(file, item, "mass", f"must be a positive mass, got {mass:g} {conv.mass_unit}")
+    checks = [("mass", "mass", mass, conv.mass_unit)]
+    checks += [(f"cg[{i}]", "length", float(x), conv.length_unit) for i, x in enumerate(cg)]
+    checks += [(f"inertia.{AXIS_LETTERS[i]}{AXIS_LETTERS[j]}", "inertia", float(tensor[i, j]), conv.inertia_unit)
+               for i in range(3) for j in range(i, 3)]
+    for fld, kind, value, unit in checks:
+        problem = magnitude_problem(value * unit_factor(unit, kind), kind, f"{value:g} {unit}")
+        if problem:
+            raise EstimateError(file, item, fld, problem)
     scale = float(np.max(np.abs(tensor)))
     asym = float(np.max(np.abs(tensor - tensor.T)))
     if scale > 0.0 and asym > 1e-6 * scale:
@@ -309,7 +319,7 @@ def _load_json(text: str, file: str, vehicle: Any) -> Estimate:
             raise EstimateError(file, label, "group", f"expected '*' or a group path, got {group!r}")
         mass = _number(file, label, "mass", row["mass"])
         cg = _vector(file, label, "cg", row["cg"], conv.length_unit, units_allowed=False)
-        tensor = _check_written(file, label, mass, _inertia_field(file, label, row["inertia"]), conv)
+        tensor = _check_written(file, label, mass, cg, _inertia_field(file, label, row["inertia"]), conv)
         items.append(EstimateItem(group.strip(), mass, cg, tensor, label))
     description = data.get("description", "")
     if not isinstance(description, str):
@@ -353,7 +363,12 @@ def _load_csv(text: str, file: str, vehicle: Any) -> Estimate:
     conv = _conventions(file, get, vehicle)
     if not body:
         raise EstimateError(file, None, "items", "no header line and no rows after the declarations")
-    rows = [next(csv.reader(io.StringIO(line)), []) for _, line in body]
+    rows = []
+    for lineno, line in body:
+        try:
+            rows.append(next(csv.reader(io.StringIO(line)), []))
+        except csv.Error as exc:  # e.g. a field over the csv module's limit of 128 KiB
+            raise EstimateError(file, f"line {lineno}", None, f"not a CSV line: {exc}") from None
     header = [h.strip().lower() for h in rows[0]]
     _unknown(file, f"line {body[0][0]} (header)", header, _CSV_REQUIRED + _CSV_OPTIONAL)
     for col in _CSV_REQUIRED:
@@ -388,7 +403,7 @@ def _load_csv(text: str, file: str, vehicle: Any) -> Estimate:
         xx, yy, zz, xy, xz, yz = (num(f"i_{t}") for t in _TERMS)
         yx, zx, zy = (num("i_yx"), num("i_zx"), num("i_zy")) if all(full) else (xy, xz, yz)
         tensor = np.array([[xx, xy, xz], [yx, yy, yz], [zx, zy, zz]])
-        items.append(EstimateItem(group, mass, cg, _check_written(file, label, mass, tensor, conv), label))
+        items.append(EstimateItem(group, mass, cg, _check_written(file, label, mass, cg, tensor, conv), label))
     est = Estimate(file, "csv", conv, tuple(items), decl.get("description", ("", 0))[0])
     normalise(est)
     return est

@@ -38,6 +38,7 @@ import numpy as np
 import numpy.typing as npt
 
 from .closed_forms import FORMS, KIND_IDS, sums_to_properties
+from .errors import UserError
 from .massprops import MassProperties, combine_arrays
 from .shapes import SHAPE_KINDS
 
@@ -68,7 +69,7 @@ NUMBA_MIN_PARTS = 10_000
 _ORDERED = {"tube": (1, 0), "spherical_shell": (1, 0), "torus": (1, 0)}
 
 
-class BatchError(ValueError):
+class BatchError(UserError, ValueError):
     """Unusable batch input; the message names the array, the part index and what is wrong."""
 
 

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from fractions import Fraction
 
+from massmodel.core.errors import UserError
+
 __all__ = [
     "ACCELERATION",
     "ANGLE",
@@ -25,7 +27,7 @@ __all__ = [
 ]
 
 
-class UnitError(ValueError):
+class UnitError(UserError, ValueError):
     """A unit or dimension mistake.
 
     The message is plain text without file context; the caller adds the file,

@@ -7,7 +7,7 @@ alike: the text is one line naming the file, the item and the field, and the com
 
 from __future__ import annotations
 
-__all__ = ["InputError", "one_line"]
+__all__ = ["UserError", "InputError", "UsageError", "NotFoundError", "one_line"]
 
 
 def one_line(message: str) -> str:
@@ -15,7 +15,28 @@ def one_line(message: str) -> str:
     return " ".join(line.strip() for line in message.splitlines() if line.strip())
 
 
-class InputError(ValueError):
+class UserError(Exception):
+    """Base of every error caused by what the user gave (a file, an option, a name), not by a bug in massmodel.
+
+    The command line reports these as one line and exits 2; any other exception is an internal error (exit 3).
+    Library error types of user input derive from it (with :class:`ValueError` or :class:`KeyError` beside it, so
+    callers catching those still work).
+    """
+
+
+class UsageError(UserError, ValueError):
+    """A request that cannot be carried out as given: an option value or combination, or a value passed to a
+    library function that the user chose (e.g. ``--steps 1``, a margin below zero)."""
+
+
+class NotFoundError(UserError, KeyError):
+    """A name the user gave (a part, a slot, a rule) that the model does not have; the text says what exists."""
+
+    def __str__(self) -> str:  # KeyError quotes its text: show it as written
+        return str(self.args[0]) if self.args else ""
+
+
+class InputError(UserError, ValueError):
     """A problem in an input file, naming the file, the item and the field (one line of text).
 
     Parameters

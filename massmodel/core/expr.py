@@ -51,12 +51,15 @@ from __future__ import annotations
 import math
 import operator
 from collections.abc import Callable, Iterable, Mapping, Sequence
+from functools import lru_cache
 
+from massmodel.core.errors import UserError
 from massmodel.core.expr_syntax import (
     _PARAMETER_RE,
     FUNCTION_NAMES,
     MAX_DEPTH,
     MAX_LENGTH,
+    PARSE_CACHE_SIZE,
     RESERVED_NAMES,
     ExpressionError,
     _Apply,
@@ -83,7 +86,7 @@ __all__ = [
 ]
 
 
-class ParameterError(ValueError):
+class ParameterError(UserError, ValueError):
     """A parameter definition or override that cannot be resolved.
 
     Attributes
@@ -244,6 +247,14 @@ def evaluate(value: str | int | float, env: Mapping[str, Quantity] | None = None
     return _Evaluator(text, env if env is not None else {}).value_of(node)
 
 
+@lru_cache(maxsize=PARSE_CACHE_SIZE)
+def _parsed_text(value: str) -> tuple[_Node, str, tuple[_Name, ...]]:
+    """Tree, text and the parameter names used, of an expression text (remembered like the tree itself: every load
+    case of a file evaluates the same parameter texts)."""
+    node, text = _node_of(value)
+    return node, text, tuple(_names_in(node))
+
+
 def _names_in(node: _Node) -> list[_Name]:
     found: list[_Name] = []
     stack: list[_Node] = [node]
@@ -317,6 +328,24 @@ def evaluate_parameters(
         is that parameter; the message includes the expression error).
     """
     overrides = {} if overrides is None else overrides
+    try:
+        key = (tuple(definitions.items()), tuple(overrides.items()))
+        hash(key)
+    except TypeError:  # a value that is not a number or text: evaluated (and refused) below
+        return _evaluate_parameters(definitions, overrides)
+    return dict(_evaluate_parameters_cached(key))
+
+
+@lru_cache(maxsize=32)
+def _evaluate_parameters_cached(key: tuple[tuple[tuple[str, str | int | float], ...], ...]) -> dict[str, Quantity]:
+    """:func:`evaluate_parameters` remembered per definitions and overrides: loading every load case of a file, and
+    checking each case's values when one is loaded, asks for the same few sets again and again."""
+    return _evaluate_parameters(dict(key[0]), dict(key[1]))
+
+
+def _evaluate_parameters(
+    definitions: Mapping[str, str | int | float], overrides: Mapping[str, str | int | float]
+) -> dict[str, Quantity]:
     for name in definitions:
         _check_parameter_name(name)
     for name in overrides:
@@ -331,8 +360,7 @@ def evaluate_parameters(
     deps: dict[str, list[str]] = {}
     for name, value in merged.items():
         try:
-            node, text = _node_of(value)
-            refs = _names_in(node)
+            node, text, refs = _parsed_text(value) if isinstance(value, str) else (*_node_of(value), ())
             for ref in refs:
                 if ref.name not in merged:
                     raise _unknown_name(ref, text, merged)

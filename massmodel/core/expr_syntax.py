@@ -13,6 +13,7 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from functools import lru_cache
 
+from massmodel.core.errors import UserError
 from massmodel.core.units import DIMENSIONLESS, UNIT_NAMES, Quantity, UnitError, unit_product
 
 __all__ = ["FUNCTION_NAMES", "MAX_DEPTH", "MAX_LENGTH", "RESERVED_NAMES", "ExpressionError"]
@@ -39,7 +40,7 @@ _OPERATORS = dict(
 )
 
 
-class ExpressionError(ValueError):
+class ExpressionError(UserError, ValueError):
     """An expression that cannot be read or evaluated.
 
     Parameters
@@ -364,7 +365,13 @@ def _unit_size(parts: tuple[tuple[str, int, bool], ...]) -> Quantity:
     return unit_product(parts)
 
 
-@lru_cache(maxsize=8192)
+#: Expression texts whose trees are remembered: more than the parameters and fields of the largest model file in
+#: sight (tens of thousands), so that evaluating every load case of a file parses each text once (a tree of a short
+#: text is a few hundred bytes).
+PARSE_CACHE_SIZE = 1 << 17
+
+
+@lru_cache(maxsize=PARSE_CACHE_SIZE)
 def _parse(text: str) -> _Node:
     """Syntax tree of an expression text (trees are immutable, so the same text is parsed once)."""
     if len(text) > MAX_LENGTH:

@@ -24,10 +24,12 @@ References
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
+
+from massmodel.core.errors import UserError
 
 # Fewest facets used around a full circle, whatever the tolerance (keeps coarse meshes recognisable).
 MIN_SEGMENTS_PER_TURN = 12
@@ -35,7 +37,7 @@ MIN_SEGMENTS_PER_TURN = 12
 MAX_SEGMENTS_PER_TURN = 100_000
 
 
-class ToleranceTooSmall(ValueError):
+class ToleranceTooSmall(UserError, ValueError):
     """The requested chord tolerance needs more facets than `MAX_SEGMENTS_PER_TURN` around one circle."""
 
 
@@ -253,18 +255,31 @@ def revolve_mesh(profile: Sequence[ProfileSegment], chord_tolerance: float) -> t
     return np.concatenate(vertices, axis=0), np.concatenate(faces, axis=0).astype(np.int64)
 
 
+#: Most surface samples of one solid of revolution (see :func:`revolve_samples`).
+MAX_REVOLVE_SAMPLES = 2_000_000
+
+
 def revolve_samples(profile: Sequence[ProfileSegment], n: int) -> np.ndarray:
     """About `n` points evenly spread over the surface swept by a profile, rims and poles included.
 
     Points are laid along each profile edge at a spacing h = sqrt(area / n) (edge end points included)
-    and each such point is swept into a ring of round(2π r / h) points (one point on the axis).
+    and each such point is swept into a ring of round(2π r / h) points (one point on the axis). For slender
+    profiles h grows so that the profile holds at most 64 n points and the surface about
+    :data:`MAX_REVOLVE_SAMPLES`, whatever the proportions.
 
     Returns
     -------
     (M, 3) float
         m, solid frame, each point exactly on the surface (to rounding).
     """
-    spacing = math.sqrt(profile_area(profile) / max(n, 1))
+    n = max(n, 1)
+    spacing = math.sqrt(profile_area(profile) / n)
+    # Bounds for slivers (a 1e-6 mm hole 10 mm deep): at most 64 n points along the profile and about
+    # MAX_REVOLVE_SAMPLES on the surface (surface area / spacing²); ordinary shapes never reach them.
+    edges = [seg for seg in profile if not seg.on_axis()]
+    perimeter = sum(seg.length() for seg in edges)
+    surface = sum(2.0 * math.pi * float(np.mean(seg.points(8)[:, 0])) * seg.length() for seg in edges)
+    spacing = max(spacing, perimeter / (64 * n), math.sqrt(surface / MAX_REVOLVE_SAMPLES))
     meridian = []
     for seg in profile:
         if seg.on_axis():
@@ -309,22 +324,55 @@ def drop_collinear(xy: np.ndarray, eps: float) -> np.ndarray:
     return xy[keep]
 
 
+#: Most corners of one polygon outline (an extrusion profile): far more than a drawn profile needs, and a bound
+#: on the work of the simplicity check.
+MAX_POLYGON_CORNERS = 5000
+
+
+def _overlapping_pairs(lo: np.ndarray, hi: np.ndarray, chunk: int = 1 << 18) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+    """Pairs (i, j), i < j, of intervals [lo, hi] that overlap, in chunks (sorted sweep: O(n log n + pairs)).
+
+    Intervals are sorted by ``lo``; the partners of interval k are the later ones starting before ``hi[k]``.
+    """
+    order = np.argsort(lo, kind="stable")
+    lo_s, hi_s = lo[order], hi[order]
+    stop = np.searchsorted(lo_s, hi_s, side="right")  # partners of k are k+1 .. stop[k]-1 in sorted order
+    counts = np.maximum(stop - np.arange(len(lo)) - 1, 0)
+    start_k = 0
+    while start_k < len(lo):
+        total = np.cumsum(counts[start_k:])
+        end_k = start_k + max(1, int(np.searchsorted(total, chunk, side="right")))
+        ks = np.arange(start_k, end_k)
+        rep = counts[ks]
+        if rep.sum():
+            first = np.repeat(ks, rep)
+            offsets = np.arange(rep.sum()) - np.repeat(np.cumsum(rep) - rep, rep)
+            second = first + 1 + offsets
+            a, b = order[first], order[second]
+            yield np.minimum(a, b), np.maximum(a, b)
+        start_k = end_k
+
+
 def polygon_problem(xy: np.ndarray) -> str | None:
     """Why a closed polygon (N >= 3, 2) is not simple, or None when it is.
 
-    Rejected, in this order: repeated corners (any two), all corners on one line, adjacent edges folding back
-    over each other, any pair of non-adjacent edges that cross or touch, zero area. Coincidence and
-    collinearity are judged with tolerances relative to the outline size (1e-12 of it, of its square for
-    areas).
+    Rejected, in this order: more than :data:`MAX_POLYGON_CORNERS` corners, repeated corners (any two), all
+    corners on one line, adjacent edges folding back over each other, any pair of non-adjacent edges that cross or
+    touch, zero area. Coincidence and collinearity are judged with tolerances relative to the outline size (1e-12 of
+    it, of its square for areas). Candidate pairs come from a sweep over sorted x extents (memory linear in N; time
+    N log N plus the pairs whose x extents overlap).
     """
     n = len(xy)
+    if n > MAX_POLYGON_CORNERS:
+        return f"{n} corners: an outline has at most {MAX_POLYGON_CORNERS} (simplify the profile)"
     scale = float(np.ptp(xy, axis=0).max())
-    gaps = np.linalg.norm(xy[:, None, :] - xy[None, :, :], axis=2)
-    i_idx, j_idx = np.triu_indices(n, k=1)
-    same = gaps[i_idx, j_idx] <= 1e-12 * max(scale, 1e-300)
-    if np.any(same):
-        i, j = int(i_idx[same][0]), int(j_idx[same][0])
-        return f"corners {i} and {j} coincide at ({xy[i, 0]:g}, {xy[i, 1]:g}) m"
+    tol = 1e-12 * max(scale, 1e-300)
+    twins = [min(zip(i[same].tolist(), j[same].tolist(), strict=True))
+             for i, j in _overlapping_pairs(xy[:, 0] - tol, xy[:, 0] + tol)
+             if np.any(same := np.hypot(*(xy[i] - xy[j]).T) <= tol)]
+    if twins:
+        a, b = min(twins)
+        return f"corners {a} and {b} coincide at ({xy[a, 0]:g}, {xy[a, 1]:g}) m"
     eps = 1e-12 * scale * scale
     centred = xy - xy.mean(axis=0)
     if np.linalg.svd(centred, compute_uv=False)[-1] <= 1e-12 * scale:
@@ -333,15 +381,22 @@ def polygon_problem(xy: np.ndarray) -> str | None:
         d1, d2 = xy[k] - xy[k - 1], xy[(k + 1) % n] - xy[k]
         if abs(d1[0] * d2[1] - d1[1] * d2[0]) <= eps and float(np.dot(d1, d2)) < 0.0:
             return f"the edges meeting at corner {k} fold back over each other"
-    ei, ej = np.triu_indices(n, k=2)
-    keep = ~((ei == 0) & (ej == n - 1))
-    ei, ej = ei[keep], ej[keep]
-    if len(ei):
-        start, end = xy, np.roll(xy, -1, axis=0)
-        hit = segments_intersect(start[ei], end[ei], start[ej], end[ej], eps)
-        if np.any(hit):
-            a, b = int(ei[hit][0]), int(ej[hit][0])
-            return f"edge {a}-{(a + 1) % n} meets edge {b}-{(b + 1) % n} (the outline must not cross itself)"
+    start, end = xy, np.roll(xy, -1, axis=0)
+    x_lo, x_hi = np.minimum(start[:, 0], end[:, 0]), np.maximum(start[:, 0], end[:, 0])
+    y_lo, y_hi = np.minimum(start[:, 1], end[:, 1]), np.maximum(start[:, 1], end[:, 1])
+    first_hit: tuple[int, int] | None = None
+    for ei, ej in _overlapping_pairs(x_lo - tol, x_hi + tol):
+        keep = (ej - ei >= 2) & ~((ei == 0) & (ej == n - 1))  # not the same edge nor neighbours
+        keep &= (y_lo[ei] <= y_hi[ej] + tol) & (y_lo[ej] <= y_hi[ei] + tol)
+        ei, ej = ei[keep], ej[keep]
+        if len(ei):
+            hit = segments_intersect(start[ei], end[ei], start[ej], end[ej], eps)
+            if np.any(hit):
+                found = min(zip(ei[hit].tolist(), ej[hit].tolist(), strict=True))
+                first_hit = found if first_hit is None else min(first_hit, found)
+    if first_hit is not None:
+        a, b = first_hit
+        return f"edge {a}-{(a + 1) % n} meets edge {b}-{(b + 1) % n} (the outline must not cross itself)"
     if abs(signed_area(xy)) <= eps:
         return "the outline encloses no area"
     return None

@@ -13,10 +13,12 @@ from functools import lru_cache
 from pathlib import Path
 from types import MappingProxyType
 
+from massmodel.core.errors import UserError
+
 __all__ = ["Material", "MaterialError", "builtin_materials", "material_from_fields"]
 
 
-class MaterialError(ValueError):
+class MaterialError(UserError, ValueError):
     """A material entry that cannot be used; ``field`` names the offending field when there is one."""
 
     def __init__(self, message: str, field: str | None = None) -> None:

@@ -20,6 +20,7 @@ import numpy as np
 import numpy.typing as npt
 
 from . import batch, display
+from .errors import NotFoundError, UsageError
 from .frames import Pose
 from .groups import in_group
 from .loadcases import LoadCase
@@ -259,16 +260,16 @@ class Component:
         where = self.origin or f"component '{self.path}'"
         if self.source in (MassSource.MATERIAL, MassSource.DENSITY):
             if self.density is None or not self.density > 0.0:
-                raise ValueError(f"{where}: a density source needs a positive density")
+                raise UsageError(f"{where}: a density source needs a positive density")
             if volume <= 0.0:
-                raise ValueError(f"{where}: the shape has no volume, so density cannot give a mass")
+                raise UsageError(f"{where}: the shape has no volume, so density cannot give a mass")
             mass = self.density * volume
         elif self.source is MassSource.MASS:
             if self.mass is None or not self.mass > 0.0:
-                raise ValueError(f"{where}: field 'mass' must be a positive mass")
+                raise UsageError(f"{where}: field 'mass' must be a positive mass")
             mass = self.mass
         elif self.mass is None or not self.mass > 0.0 or self.measured_cg is None:
-            raise ValueError(f"{where}: measured properties need a positive mass and a CG")
+            raise UsageError(f"{where}: measured properties need a positive mass and a CG")
         else:
             mass = self.mass
         if not math.isfinite(mass):
@@ -419,7 +420,7 @@ class Model:
         index: dict[str, int] = {}
         for i, c in enumerate(self.components):
             if c.path in index:
-                raise ValueError(f"duplicate component path '{c.path}' ({c.origin})")
+                raise UsageError(f"duplicate component path '{c.path}' ({c.origin})")
             index[c.path] = i
         object.__setattr__(self, "_index", MappingProxyType(index))
         object.__setattr__(self, "parameters", MappingProxyType(dict(self.parameters)))
@@ -458,14 +459,14 @@ class Model:
 
             close = difflib.get_close_matches(path, list(self._index), n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
-            raise KeyError(f"no component '{path}'{hint}") from None
+            raise NotFoundError(f"no component '{path}'{hint}") from None
 
     def slot(self, name: str) -> Slot:
         """The slot with this name."""
         for s in self.slots:
             if s.name == name:
                 return s
-        raise KeyError(f"no slot '{name}'; slots: {', '.join(s.name for s in self.slots) or 'none'}")
+        raise NotFoundError(f"no slot '{name}'; slots: {', '.join(s.name for s in self.slots) or 'none'}")
 
     def groups(self) -> list[str]:
         """Every group path (all proper path prefixes of the parts), sorted."""

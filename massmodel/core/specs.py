@@ -13,6 +13,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from .errors import UsageError
 from .frames import Pose
 from .groups import in_group
 
@@ -145,10 +146,10 @@ class Vehicle:
             object.__setattr__(self, name, v)
         basis = np.array([self.forward, self.left, self.up])
         if not np.allclose(basis @ basis.T, np.eye(3), atol=1e-12) or np.linalg.det(basis) < 0.0:
-            raise ValueError("vehicle axes forward, left, up must be orthonormal and right-handed")
+            raise UsageError("vehicle axes forward, left, up must be orthonormal and right-handed")
         for name in ("wheelbase", "track_front", "track_rear"):
             if not getattr(self, name) > 0.0:
-                raise ValueError(f"vehicle field '{name}' must be a positive length")
+                raise UsageError(f"vehicle field '{name}' must be a positive length")
 
     @property
     def basis(self) -> FloatArray:

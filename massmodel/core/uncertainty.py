@@ -16,6 +16,8 @@ from typing import Any
 
 import numpy as np
 
+from .errors import UsageError
+
 __all__ = ["Estimate", "PartUncertainty", "central_partials", "rss"]
 
 
@@ -68,12 +70,12 @@ class PartUncertainty:
     def __post_init__(self) -> None:
         cg = tuple(float(v) for v in self.cg)
         if len(cg) != 3:
-            raise ValueError(f"{self.origin or 'part uncertainty'}: cg needs three values (x, y, z)")
+            raise UsageError(f"{self.origin or 'part uncertainty'}: cg needs three values (x, y, z)")
         object.__setattr__(self, "cg", cg)
         for name, value in (("mass", self.mass), ("inertia", self.inertia), ("growth", self.growth),
                             ("cg", min(cg))):
             if not (value >= 0.0 and np.isfinite(value)):
-                raise ValueError(f"{self.origin or 'part uncertainty'}: {name} must be a finite value >= 0")
+                raise UsageError(f"{self.origin or 'part uncertainty'}: {name} must be a finite value >= 0")
 
 
 def central_partials(

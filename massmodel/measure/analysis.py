@@ -22,6 +22,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import cautions
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 from massmodel.core.uncertainty import Estimate
 
@@ -43,7 +44,7 @@ from .scales import (
     reduce_weighings,
     resolve_geometry,
 )
-from .session import CORNERS, Session, load_session
+from .session import CORNERS, MeasurementFileError, Session, load_session
 
 __all__ = [
     "WEIGHING_FORMAT",
@@ -88,6 +89,14 @@ def load_session_and_model(
 
     session = load_session(session_path)
     path = Path(model_path) if model_path is not None else session.model_path
+    if model_path is None and path is not None:  # a model the session names: blame its field if it cannot be read
+        try:
+            with open(path, "rb"):
+                pass
+        except OSError as exc:
+            reason = "no such file" if isinstance(exc, FileNotFoundError) else (exc.strerror or str(exc))
+            raise MeasurementFileError(session.source, "[session]", "model",
+                                       f"cannot read '{path}' ({reason})") from None
     model = load_model(path, overrides=overrides) if path is not None else None
     return session, model
 
@@ -130,7 +139,7 @@ class WeighingAnalysis:
 def analyse_weighing(session: Session, model: Model | None = None) -> WeighingAnalysis:
     """Reduce the session's weighings and, with a model, reconcile them (using the axle-lift height if present)."""
     if not session.weighings:
-        raise ValueError(f"{session.source}: no [[weighing]] tables to reduce")
+        raise UsageError(f"{session.source}: no [[weighing]] tables to reduce")
     vehicle = model.vehicle if model is not None else None
     geometry = resolve_geometry(session.car, vehicle, session.source)
     corners = reduce_weighings(session.weighings, session.scale_uncertainty)
@@ -269,13 +278,13 @@ def write_updated_model(
         new model's mass and CG with the scales.
     """
     if a.model is None or a.reconciliation is None:
-        raise ValueError("an updated model needs a model to extend (name it in [session] model or with --model)")
+        raise UsageError("an updated model needs a model to extend (name it in [session] model or with --model)")
     rec = a.reconciliation
     u = rec.unaccounted
     if isinstance(height, str) and height not in ("auto", "model-cg", "lift"):
-        raise ValueError(f"item height: expected auto, model-cg, lift or a length, got {height!r}")
+        raise UsageError(f"item height: expected auto, model-cg, lift or a length, got {height!r}")
     if height == "lift" and u.height is None:
-        raise ValueError(f"{a.session.source}: item height 'lift' needs an [[axle_lift]] series in the session")
+        raise UsageError(f"{a.session.source}: item height 'lift' needs an [[axle_lift]] series in the session")
     if height == "lift" or (height == "auto" and u.height is not None):
         assert u.height is not None
         z = u.height.value
@@ -320,7 +329,7 @@ def write_updated_model(
 def analyse_lifts(session: Session, model: Model | None = None) -> list[LiftResult]:
     """Reduce every axle-lift series of the session."""
     if not session.lifts:
-        raise ValueError(f"{session.source}: no [[axle_lift]] tables to reduce")
+        raise UsageError(f"{session.source}: no [[axle_lift]] tables to reduce")
     vehicle = model.vehicle if model is not None else None
     out = []
     for series in session.lifts:
@@ -433,7 +442,7 @@ def _pendulum_dict(r: PendulumResult, test: Any, model: Model | None) -> dict[st
 def pendulum_report(session: Session, model: Model | None = None) -> dict[str, Any]:
     """Plain data of the session's pendulum tests (format ``massmodel-pendulum/1``)."""
     if not session.pendulums:
-        raise ValueError(f"{session.source}: no [[pendulum]] tables to reduce")
+        raise UsageError(f"{session.source}: no [[pendulum]] tables to reduce")
     tests = []
     for t in session.pendulums:
         tests.append(_pendulum_dict(reduce_pendulum(t), t, model))

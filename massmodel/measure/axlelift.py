@@ -31,6 +31,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Vehicle
 from massmodel.core.uncertainty import Estimate, central_partials, rss
 
@@ -108,7 +109,7 @@ def angle_from_rise(rise: float | FloatArray, wheelbase: float) -> float | Float
     """
     h = np.asarray(rise, dtype=float)
     if np.any(h >= wheelbase) or np.any(h <= 0.0):
-        raise ValueError(f"a rise must lie between 0 and the wheelbase {wheelbase * 1e3:.1f} mm (sin θ = H / L)")
+        raise UsageError(f"a rise must lie between 0 and the wheelbase {wheelbase * 1e3:.1f} mm (sin θ = H / L)")
     out = np.arcsin(h / wheelbase)
     return float(out) if out.ndim == 0 else out
 
@@ -137,7 +138,7 @@ def fit_line(x: npt.ArrayLike, y: npt.ArrayLike) -> LineFit:
     ya = np.asarray(y, dtype=float)
     n = xa.size
     if n < 2 or np.ptp(xa) == 0.0:
-        raise ValueError("a line fit needs at least two different x values")
+        raise UsageError("a line fit needs at least two different x values")
     xm, ym = xa.mean(), ya.mean()
     sxx = float(np.sum((xa - xm) ** 2))
     slope = float(np.sum((xa - xm) * (ya - ym)) / sxx)
@@ -394,7 +395,7 @@ def combine_heights(results: Sequence[LiftResult]) -> CombinedHeight:
     from memory; GUM §5.2 (correlated inputs: fully correlated contributions add linearly).
     """
     if not results:
-        raise ValueError("no axle-lift series to combine")
+        raise UsageError("no axle-lift series to combine")
     if len(results) == 1:
         r = results[0]
         return CombinedHeight(r.height_total, None, 0,

@@ -26,6 +26,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.atomic import write_text_atomic
+from massmodel.core.errors import UsageError, UserError
 from massmodel.core.model import Model, Vehicle
 from massmodel.core.uncertainty import Estimate
 from massmodel.vehicle.balance import Balance, static_balance
@@ -51,7 +52,7 @@ UNACCOUNTED_GROUP = "unaccounted"
 UNACCOUNTED_COLOUR = "#d81b8c"
 
 
-class ReconcileError(ValueError):
+class ReconcileError(UserError, ValueError):
     """The updated model cannot be written (e.g. the model is heavier than the car, or it would overwrite input)."""
 
 
@@ -154,7 +155,7 @@ def reconcile(
     Module docstring (combined CG, propagation of uncertainty).
     """
     if model.vehicle is None:
-        raise ValueError(f"{model.source or model.name}: the model has no [vehicle] section, so the scale readings "
+        raise UsageError(f"{model.source or model.name}: the model has no [vehicle] section, so the scale readings "
                          "cannot be placed in its frame")
     v = model.vehicle
     total = model.mass_properties()

@@ -29,6 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Vehicle
 from massmodel.core.uncertainty import Estimate
 
@@ -213,7 +214,7 @@ def reduce_weighings(weighings: Sequence[Weighing], pad_uncertainty: float | Non
     MIL-W-3947B (mean of independent weighings); GUM §4.2 (type A: standard uncertainty of a mean = s/√n).
     """
     if not weighings:
-        raise ValueError("no weighings to reduce: a session needs at least one [[weighing]]")
+        raise UsageError("no weighings to reduce: a session needs at least one [[weighing]]")
     readings = np.array([w.loads for w in weighings], dtype=float)
     n = readings.shape[0]
     loads = readings.mean(axis=0)

@@ -20,6 +20,8 @@ from massmodel.core import expr, units
 from massmodel.modelfile.reader import (
     ModelFileError,
     TableReader,
+    expression_message,
+    magnitude_problem,
     parse_toml,
     read_toml,
     read_units,
@@ -108,8 +110,9 @@ class _Reader(TableReader):
         try:
             q = expr.evaluate(value)
         except (expr.ExpressionError, units.UnitError) as exc:
-            raise self.error(item, field, str(exc)) from None
+            raise self.error(item, field, expression_message(exc)) from None
         result: float | None = None
+        kind: str | None = "number"
         if "number" in kinds and q.dim == units.DIMENSIONLESS:
             result = q.value
         elif q.dim == units.DIMENSIONLESS:
@@ -122,11 +125,14 @@ class _Reader(TableReader):
             for k in kinds:
                 if k != "number" and q.dim == _KINDS[k]:
                     result = q.value / units.STANDARD_GRAVITY_M_S2 if k == "force" else q.value
+                    kind = k
                     break
         if result is None:
             raise self.error(item, field, f"expected a {want}, got {value!r} in {q.dim}")
-        if not np.isfinite(result):
-            raise self.error(item, field, f"{value!r} is not a finite number")
+        # the model file's limits (a force is read as the mass it weighs)
+        problem = magnitude_problem(result, "mass" if kind == "force" else str(kind), value)
+        if problem:
+            raise self.error(item, field, problem)
         return float(result)
 
     def positive(self, value: Any, kinds: tuple[str, ...], item: str, field: str) -> float:

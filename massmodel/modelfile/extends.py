@@ -1,7 +1,8 @@
 """Merging a model file that ``extends`` another into one data tree.
 
 The child's tables are merged over the base's before anything is evaluated; tables that came from the base file
-carry its name (:data:`SOURCE_KEY`) so that errors and geometry paths refer to the file that holds them.
+are :class:`SourcedTable` objects carrying its name (outside the table's keys, so no key a user writes can be taken
+for it), so that errors and geometry paths refer to the file that holds them.
 """
 
 from __future__ import annotations
@@ -9,16 +10,16 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from .reader import SOURCE_KEY, ModelFileError, read_toml
+from .reader import ModelFileError, SourcedTable, read_toml, table_source
 from .uncertainty import merge_uncertainty
 
-__all__ = ["resolve_extends", "LIST_SECTIONS", "SOURCE_KEY"]
+__all__ = ["resolve_extends", "LIST_SECTIONS", "SourcedTable", "table_source"]
 
 
 LIST_SECTIONS = ("group", "part", "slot", "rule", "case", "driver", "allowed_contact")
 
 
-_TABLE_SECTIONS = {"parameters": "must be a table of name = value", "materials": "must be a table",
+_TABLE_SECTIONS = {"model": "must be a table", "parameters": "must be a table of name = value", "materials": "must be a table",
                    "units": "must be a table", "vehicle": "must be a table"}
 
 
@@ -58,9 +59,8 @@ def resolve_extends(data: dict[str, Any], label: str, base_dir: Path, chain: tup
     _check_section_types(data, label)
     _check_section_types(base, str(base_path))
     for key in LIST_SECTIONS:
-        for table in base.get(key, []):
-            if isinstance(table, dict):
-                table.setdefault(SOURCE_KEY, str(base_path))
+        base[key] = [SourcedTable(t, str(base_path)) if isinstance(t, dict) and not isinstance(t, SourcedTable)
+                     else t for t in base.get(key, [])]
     if data.get("units", base.get("units", {})) != base.get("units", {}):
         raise ModelFileError(label, "[units]", None, f"must be the same as in the base file {base_path} (or absent)")
     remove = head.get("remove", [])

@@ -7,7 +7,6 @@ Used by :mod:`massmodel.modelfile.loader`, :mod:`massmodel.modelfile.parts`, :mo
 
 from __future__ import annotations
 
-import math
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -19,10 +18,9 @@ import numpy as np
 from massmodel.core import expr, units
 from massmodel.core.frames import Pose, RotationKind, rotation_from_sequence
 from massmodel.core.model import Maturity
-from massmodel.core.shapes import MAX_LENGTH_M, SHAPE_KINDS, ShapeError
+from massmodel.core.shapes import SHAPE_KINDS, ShapeError
 
-from .extends import SOURCE_KEY
-from .reader import ModelFileError, TableReader
+from .reader import ModelFileError, TableReader, expression_message, magnitude_problem, table_source
 
 __all__ = ["FieldReader", "GroupFrame", "expression_message", "shape_keys", "maturity_of", "colour_of", "path_of",
            "group_frames", "flag", "enclosing_groups", "SHAPE_FILE_FIELDS", "PALETTE", "UNIT_KINDS"]
@@ -38,12 +36,6 @@ UNIT_KINDS: dict[str, units.Dimension] = {
 }
 KIND_EXAMPLE = {"length": "250 mm", "mass": "2.1 kg", "angle": "5 deg", "density": "7850 kg/m^3",
                 "inertia": "0.35 kg*m^2", "number": "0.42"}
-
-#: Largest magnitude accepted per kind (SI value, unit): far beyond any car, and small enough that squares and
-#: products of them (parallel-axis terms, inertia sums) stay finite instead of overflowing without a field's name.
-MAGNITUDE_LIMITS: dict[str, tuple[float, str]] = {
-    "length": (MAX_LENGTH_M, "m"), "mass": (1.0e9, "kg"), "density": (1.0e6, "kg/m^3"), "inertia": (1.0e12, "kg*m^2"),
-}
 
 # File fields of each shape kind: name → "length" | "vector3" (split into *_x/_y/_z) | "polygon".
 SHAPE_FILE_FIELDS: dict[str, dict[str, str]] = {
@@ -115,8 +107,8 @@ class FieldReader(TableReader):
 
     def for_table(self, table: dict[str, Any]) -> FieldReader:
         """The reader for a table merged from a base file (errors then name that file, geometry paths resolve from
-        its folder); pops the marker."""
-        source = table.pop(SOURCE_KEY, None)
+        its folder)."""
+        source = table_source(table)
         if source is None:
             return self
         other = FieldReader(source, self.defaults, self.env, Path(source).parent, self.cache)
@@ -164,12 +156,9 @@ class FieldReader(TableReader):
             else:
                 article = "an" if kind[0] in "aeiou" else "a"
                 raise self.error(item, field, f"expected {article} {kind} ({want}), got {value!r} in {q.dim}")
-        if not math.isfinite(result):
-            raise self.error(item, field, f"{value!r} is not a finite number")
-        limit = MAGNITUDE_LIMITS.get(kind)
-        if limit is not None and abs(result) > limit[0]:
-            raise self.error(item, field, f"{value!r} is {abs(result):g} {limit[1]}; no part of a car comes near "
-                                          f"that (the limit is {limit[0]:g} {limit[1]})")
+        problem = magnitude_problem(result, kind, value)
+        if problem:
+            raise self.error(item, field, problem)
         result = float(result)
         self.si[(value, kind)] = result
         return result
@@ -277,16 +266,6 @@ class FieldReader(TableReader):
             raise self.error(item, prefix + (getattr(exc, "field", None) or "file"), str(exc)) from None
 
 
-def expression_message(exc: Exception) -> str:
-    """An expression error as one line: the message, then where in the text it is."""
-    if isinstance(exc, expr.ExpressionError):
-        where = f" (in '{exc.text}'" if exc.text else ""
-        if where and exc.position is not None:
-            where += f", at character {exc.position + 1}"
-        return exc.message + (where + ")" if where else "")
-    return str(exc)
-
-
 def shape_keys(kind: Any) -> set[str]:
     return set(SHAPE_FILE_FIELDS.get(kind, {})) if isinstance(kind, str) else set()
 
@@ -304,7 +283,11 @@ def colour_of(rd: FieldReader, value: Any, item: str) -> str:
     return value.lower()
 
 
-def path_of(rd: FieldReader, table: Mapping[str, Any], what: str, index: int) -> str:
+def path_of(rd: FieldReader, table: Any, what: str, index: int) -> str:
+    """The ``path`` of entry ``index`` of the ``[[what]]`` tables (an entry that is not a table is refused here)."""
+    if not isinstance(table, dict):
+        raise rd.error(f"{what} #{index + 1}", None, f"expected a table, got {table!r:.60}; write each entry as a "
+                                                     f"[[{what}]] table")
     path = table.get("path")
     if not isinstance(path, str) or not PATH_RE.match(path):
         raise rd.error(f"{what} #{index + 1}", "path",

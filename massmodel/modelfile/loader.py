@@ -19,7 +19,7 @@ from typing import Any
 
 import numpy as np
 
-from massmodel.core import expr
+from massmodel.core import expr, units
 from massmodel.core.frames import Pose, reflection_across_plane
 from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.materials import MaterialError, builtin_materials, material_from_fields
@@ -206,6 +206,23 @@ def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = Non
     return out
 
 
+def _check_override_dimensions(label: str, params: Mapping[str, Any], env: Mapping[str, Any],
+                               overrides: Mapping[str, str]) -> None:
+    """A parameter set with ``--set`` keeps the dimension the file gives it: ``--set fuel_mass=3 m`` is refused by
+    the option's name, not later by a part that uses the mass (a load case's ``set`` is reported at the part, with
+    the case named)."""
+    for name, text in overrides.items():
+        if name not in params or name not in env:
+            continue
+        try:
+            own = expr.evaluate(params[name], env)
+        except (expr.ExpressionError, units.UnitError, expr.ParameterError):
+            continue  # the file's own text is judged where it is used
+        if own.dim != env[name].dim:
+            raise ModelFileError(label, f"--set {name}", None, f"{text!r} is in {env[name].dim}, but the file gives "
+                                                               f"{name} in {own.dim} ({name} = {params[name]!r})")
+
+
 def _build_case(
     data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None
 ) -> Model:
@@ -260,6 +277,7 @@ def _build(
             raise ModelFileError(label, f"--set {exc.name}", None, message) from None
         raise ModelFileError(label, f"parameter '{exc.name}'", "value", message) from None
     modelfile_cases.check_case_parameters(cases, params, dict(overrides or {}), skip=active)
+    _check_override_dimensions(label, params, env, overrides or {})
     rd = FieldReader(label, defaults, env, base_dir)
 
     vehicle = _vehicle(rd, data.get("vehicle"))

@@ -68,6 +68,8 @@ def part_components(
     kw: dict[str, Any] = {}
     if source is MassSource.MATERIAL:
         key = table["material"]
+        if not isinstance(key, str):
+            raise rd.error(item, "material", f"expected a material name such as 'aluminium_6061_t6', got {key!r:.60}")
         if key not in materials:
             import difflib
 

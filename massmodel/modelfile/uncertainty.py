@@ -32,7 +32,7 @@ from massmodel.core.model import Component, Maturity
 from massmodel.core.uncertainty import PartUncertainty
 from massmodel.uncertainty.inputs import MATURITY_DEFAULTS, RECTANGULAR
 
-from .reader import SOURCE_KEY
+from .reader import SourcedTable
 
 __all__ = ["attach_uncertainty", "merge_uncertainty", "SECTION_FIELDS", "VALUE_FIELDS"]
 
@@ -112,7 +112,7 @@ def merge_uncertainty(base: Any, child: Any, removed: Sequence[str], base_file: 
             path = t.get("path") if isinstance(t, dict) else None
             if isinstance(path, str) and (path in mine or any(path == r or path.startswith(r + "/") for r in removed)):
                 continue
-            kept.append({SOURCE_KEY: base_file, **t} if isinstance(t, dict) else t)
+            kept.append(SourcedTable(t, base_file) if isinstance(t, dict) and not isinstance(t, SourcedTable) else t)
         merged["item"] = kept + child_items
     elif "item" in child:
         merged["item"] = child_items

@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from massmodel.core.atomic import write_text_atomic
+from massmodel.core.errors import UsageError
 from massmodel.page.html import esc
 from massmodel.page.sections import SECTION_BUILDERS, PageInputs, Section, summary_line
 
@@ -148,9 +149,9 @@ def check_output(path: str | Path, inputs: tuple[str | Path, ...] = ()) -> Path:
     target = Path(path)
     for p in inputs:
         if target.resolve() == Path(p).resolve():
-            raise ValueError(f"output '{target}' is the input file '{p}': choose another output name")
+            raise UsageError(f"output '{target}' is the input file '{p}': choose another output name")
     if target.suffix.lower() not in (".html", ".htm"):
-        raise ValueError(f"output '{target}': the page is written as HTML, so the file name must end in .html")
+        raise UsageError(f"output '{target}': the page is written as HTML, so the file name must end in .html")
     return target
 
 

@@ -27,6 +27,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model, RuleCheck
 from massmodel.core.shapes import PointMass
 
@@ -159,14 +160,14 @@ def render_cg_chart(model: Model, path: str | Path, size: tuple[int, int] = (180
 
     out = Path(path)
     if out.suffix.lower() != ".png":
-        raise ValueError(f"output '{out}': the chart is written as PNG, so the file name must end in .png")
+        raise UsageError(f"output '{out}': the chart is written as PNG, so the file name must end in .png")
     v = model.vehicle
     if v is None:
-        raise ValueError(f"model '{model.name}' ({model.source or 'in memory'}) has no [vehicle] section: "
+        raise UsageError(f"model '{model.name}' ({model.source or 'in memory'}) has no [vehicle] section: "
                          "a CG chart needs axles and a ground")
     w, h = (int(x) for x in size)
     if not (600 <= w <= 8000 and 400 <= h <= 8000):
-        raise ValueError(f"size {w}x{h} px: width must lie in 600..8000 and height in 400..8000")
+        raise UsageError(f"size {w}x{h} px: width must lie in 600..8000 and height in 400..8000")
     total = model.mass_properties()
     station = float(v.forward @ total.center)
     height = float(v.up @ total.center) - v.ground_level

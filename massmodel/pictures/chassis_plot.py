@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from massmodel.core.atomic import write_atomic
+from massmodel.core.errors import UsageError
 
 __all__ = ["plot_corner_loads", "plot_step_steer"]
 
@@ -67,7 +68,7 @@ def plot_step_steer(data: dict[str, Any], path: str | Path) -> Path:
     series = data["series"].get("step_steer")
     st = data.get("single_track")
     if not series or not st:
-        raise ValueError("no step-steer response to draw: the single-track model needs cornering stiffness, a speed, "
+        raise UsageError("no step-steer response to draw: the single-track model needs cornering stiffness, a speed, "
                          "and a stable car at that speed")
     fig = _figure()
     ax = fig.add_axes((0.1, 0.14, 0.86, 0.76))

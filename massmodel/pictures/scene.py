@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties, combine_arrays, principal_axes, radii_of_gyration
 from massmodel.core.model import Model
 from massmodel.core.shapes import PointMass, Sphere
@@ -111,9 +112,9 @@ class SceneOptions:
 
     def __post_init__(self) -> None:
         if not isinstance(self.group_depth, int) or self.group_depth < 1:
-            raise ValueError(f"option 'group_depth' must be a whole number >= 1, got {self.group_depth!r}")
+            raise UsageError(f"option 'group_depth' must be a whole number >= 1, got {self.group_depth!r}")
         if not (0.0001 <= self.chord_tolerance <= 0.05):
-            raise ValueError(
+            raise UsageError(
                 f"option 'chord_tolerance' must lie between 0.1 mm and 50 mm, got {self.chord_tolerance * 1e3:g} mm"
             )
 
@@ -244,7 +245,7 @@ def hex_to_rgb(colour: str) -> tuple[int, int, int]:
     """``'#rrggbb'`` → (r, g, b) in 0..255."""
     text = colour.lstrip("#")
     if len(text) != 6:
-        raise ValueError(f"colour {colour!r} is not of the form #rrggbb")
+        raise UsageError(f"colour {colour!r} is not of the form #rrggbb")
     return int(text[0:2], 16), int(text[2:4], 16), int(text[4:6], 16)
 
 
@@ -357,7 +358,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
 
     opts = options or SceneOptions()
     if not model.components:
-        raise ValueError(f"model '{model.name}' has no components to draw")
+        raise UsageError(f"model '{model.name}' has no components to draw")
     t0 = time.perf_counter()
     report = build_report(model)
     total = model.mass_properties()

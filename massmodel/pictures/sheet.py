@@ -21,6 +21,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.atomic import write_atomic
+from massmodel.core.errors import UsageError
 from massmodel.report.rules import dict_limit_text
 
 from .scene import BALLAST_COLOUR, CG_COLOUR, INK, SLOT_COLOUR, Scene
@@ -300,14 +301,14 @@ def render_sheet(scene: Scene, path: str | Path, size: tuple[int, int] = (2000, 
     """
     out = Path(path)
     if out.suffix.lower() != ".png":
-        raise ValueError(f"output '{out}': the picture is written as PNG, so the file name must end in .png")
+        raise UsageError(f"output '{out}': the picture is written as PNG, so the file name must end in .png")
     w, h = (int(v) for v in size)
     if not (MIN_SIZE[0] <= w <= MAX_SIZE[0] and MIN_SIZE[1] <= h <= MAX_SIZE[1]):
-        raise ValueError(f"size {w}x{h} px: width must lie in {MIN_SIZE[0]}..{MAX_SIZE[0]} and height in "
+        raise UsageError(f"size {w}x{h} px: width must lie in {MIN_SIZE[0]}..{MAX_SIZE[0]} and height in "
                          f"{MIN_SIZE[1]}..{MAX_SIZE[1]}")
     views = VIEW_NAMES if view == "sheet" else (view,)
     if view != "sheet" and view not in VIEW_NAMES:
-        raise ValueError(f"unknown view {view!r}; choose sheet, {', '.join(VIEW_NAMES)}")
+        raise UsageError(f"unknown view {view!r}; choose sheet, {', '.join(VIEW_NAMES)}")
     t0 = time.perf_counter()
     panels = plan_panels(scene, (w, h), views)
     rendered = render_views(scene, [p.camera for p in panels])

@@ -12,6 +12,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core.atomic import write_atomic
+from massmodel.core.errors import UsageError
 from massmodel.report.studies import display
 from massmodel.studies.diff import ModelDiff
 from massmodel.studies.fuel import FuelTrack
@@ -30,7 +31,7 @@ MAX_LINES = 8
 def _png(path: str | Path) -> Path:
     out = Path(path)
     if out.suffix.lower() != ".png":
-        raise ValueError(f"output '{out}': charts are written as PNG, so the file name must end in .png")
+        raise UsageError(f"output '{out}': charts are written as PNG, so the file name must end in .png")
     return out
 
 
@@ -106,7 +107,7 @@ def plot_sweep(result: SweepResult, path: str | Path) -> Path:
     basic = [(i, o) for i, o in enumerate(result.outputs) if o.rule is None]
     panels = len(basic) + len(result.rules)
     if panels == 0:
-        raise ValueError("nothing to plot: the sweep has no outputs")
+        raise UsageError("nothing to plot: the sweep has no outputs")
     p0 = result.parameters[0]
     xs, xu = _scale(p0.unit)
     fig, axes = _figure(panels, f"Sweep · {result.model} · case {result.case}",

@@ -30,6 +30,8 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError, UserError
+
 from .scene import (
     BALLAST_COLOUR,
     CG_COLOUR,
@@ -75,7 +77,7 @@ CG_MARKER_PX = 9.0  # radius of the total CG marker on screen, px
 GROUP_MARKER_PX = 6.5
 
 
-class NoDisplayError(OSError):
+class NoDisplayError(UserError, OSError):
     """No display to open a window on."""
 
 
@@ -167,7 +169,7 @@ def view_camera(
     up). ``scale`` (px/m) defaults to the largest that fits the drawing inside ``margin_px`` on every side.
     """
     if name not in _VIEW_DIRECTIONS:
-        raise ValueError(f"unknown view {name!r}; views: {', '.join(VIEW_NAMES)}")
+        raise UsageError(f"unknown view {name!r}; views: {', '.join(VIEW_NAMES)}")
     toward, up = _view_axes(scene, name)
     pts = _extent_corners(scene)
     focal = 0.5 * (pts.min(axis=0) + pts.max(axis=0))

@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from massmodel.core.atomic import write_atomic, write_text_atomic
+from massmodel.core.errors import UsageError
 from massmodel.studies.budget import TENSOR_ENTRIES, Budget, BudgetRow
 
 __all__ = ["BUDGET_COLUMNS", "budget_csv", "write_budget_csv", "write_budget_xlsx", "format_budget"]
@@ -63,7 +64,7 @@ def write_budget_xlsx(b: Budget, path: str | Path) -> None:
         from openpyxl import Workbook
         from openpyxl.utils import get_column_letter
     except ImportError:
-        raise ValueError("XLSX output needs openpyxl: pip install 'massmodel[xlsx]' (or write --csv)") from None
+        raise UsageError("XLSX output needs openpyxl: pip install 'massmodel[xlsx]' (or write --csv)") from None
     wb = Workbook()
     ws = wb.active
     ws.title = "mass budget"

@@ -13,6 +13,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import cautions
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 from massmodel.vehicle.balance import static_balance
 from massmodel.vehicle.chassis import CORNERS, ChassisError, ChassisSpec, split_mass
@@ -121,7 +122,7 @@ def build_chassis_report(
     """
     spec = model.chassis
     if model.vehicle is None or spec is None:
-        raise ValueError(f"{model.source or model.name}: the chassis results need a [vehicle] and a [chassis] "
+        raise UsageError(f"{model.source or model.name}: the chassis results need a [vehicle] and a [chassis] "
                          "section in the model (docs/chassis.md)")
     vehicle = model.vehicle
     v = speed if speed is not None else spec.speed

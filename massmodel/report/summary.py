@@ -17,6 +17,7 @@ import numpy.typing as npt
 
 from massmodel.core import cautions
 from massmodel.core.atomic import write_text_atomic
+from massmodel.core.errors import UsageError
 from massmodel.core.frames import is_orthogonal
 from massmodel.core.massprops import (
     MassProperties,
@@ -97,7 +98,7 @@ def inertia_about_entry(mp: MassProperties, request: InertiaRequest) -> dict[str
     tensor = inertia_about_point(mp, point)
     axes = np.eye(3) if request.axes is None else np.asarray(request.axes, dtype=float)
     if not is_orthogonal(axes) or np.linalg.det(axes) < 0.0:
-        raise ValueError(f"axes {request.axes_label!r} must be orthonormal and right-handed")
+        raise UsageError(f"axes {request.axes_label!r} must be orthonormal and right-handed")
     tensor = inertia_in_axes(tensor, axes)
     return {
         "label": request.label or ("cg" if request.point is None else ""),

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties, combine_arrays, parallel_axis_shift
 from massmodel.core.model import Model
 from massmodel.uncertainty.inputs import UncertaintyInputs, declares_uncertainty, uncertainty_inputs
@@ -121,7 +122,7 @@ def mass_budget(model: Model) -> Budget:
         A model with no parts.
     """
     if not model.components:
-        raise ValueError(f"{model.source or model.name}: the model has no parts")
+        raise UsageError(f"{model.source or model.name}: the model has no parts")
     masses, centers, inertias = model._all_arrays()
     members: dict[str, list[int]] = {}
     for i, c in enumerate(model.components):

@@ -15,6 +15,8 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
+
 from .sweep import CHUNK, Progress, Study, chunks, evaluate_chunk
 
 __all__ = ["run_points_dask", "dask_available", "DaskRunner"]
@@ -57,7 +59,7 @@ def run_points_dask(study: Study, points: Sequence[Mapping[str, str]], progress:
     """
     reason = dask_available()
     if reason is not None:
-        raise ValueError(reason)
+        raise UsageError(reason)
     from distributed import Client, LocalCluster, as_completed
 
     own: list[Any] = []
@@ -74,7 +76,7 @@ def run_points_dask(study: Study, points: Sequence[Mapping[str, str]], progress:
                 try:
                     client = Client(address, timeout="20s")
                 except OSError as exc:
-                    raise ValueError(f"--cluster {address}: cannot reach the Dask scheduler ({exc})") from None
+                    raise UsageError(f"--cluster {address}: cannot reach the Dask scheduler ({exc})") from None
             own.insert(0, client)
         pieces = chunks(points, chunk)
         scattered = client.scatter(study, broadcast=True)

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties, parallel_axis_shift
 from massmodel.core.model import Component, Model
 from massmodel.vehicle.balance import static_balance
@@ -177,7 +178,7 @@ def diff_models(old: Model, new: Model, old_name: str = "old", new_name: str = "
     a, b = old.mass_properties(), new.mass_properties()
     for name, mp in ((old_name, a), (new_name, b)):
         if not mp.mass > 0.0:
-            raise ValueError(f"{name}: the model has no mass, so its CG is undefined")
+            raise UsageError(f"{name}: the model has no mass, so its CG is undefined")
     old_parts = {c.path: c for c in old.components}
     new_parts = {c.path: c for c in new.components}
     pivot = a.center

@@ -23,22 +23,18 @@ from pathlib import Path
 from typing import Any
 
 from massmodel.core import batch, expr
+from massmodel.core.errors import UsageError
 from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, part_arrays
 from massmodel.modelfile.loader import ModelSource, build_model
 from massmodel.modelfile.reader import ModelFileError, read_toml
 
-try:  # the marker of tables merged from a base file (modelfile.extends since the file layer was split)
-    from massmodel.modelfile.extends import SOURCE_KEY
-except ImportError:  # pragma: no cover - before that split
-    from massmodel.modelfile.reader import SOURCE_KEY  # type: ignore[attr-defined,no-redef]
-
 __all__ = ["Evaluator", "affected_parameters"]
 
 _IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 # fields holding free text or names, never an expression (scanning them would only rebuild more than needed)
-_TEXT_FIELDS = frozenset({"path", "note", "description", "colour", "maturity", "name", "slot", SOURCE_KEY})
+_TEXT_FIELDS = frozenset({"path", "note", "description", "colour", "maturity", "name", "slot"})
 
 
 def _names_in_text(value: Any) -> set[str]:
@@ -221,7 +217,7 @@ class Evaluator:
         """
         unknown = [n for n in point if n not in self.varied]
         if unknown:
-            raise ValueError(f"'{unknown[0]}' is not one of the varied parameters ({', '.join(self.varied)})")
+            raise UsageError(f"'{unknown[0]}' is not one of the varied parameters ({', '.join(self.varied)})")
         if self._reduced is None:
             return build_model(self.source, {**self.overrides, **point}, self.case)
         reduced = self._build_reduced(point)

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource
 from massmodel.modelfile.reader import ModelFileError
@@ -115,12 +116,12 @@ def fuel_track(source: ModelSource, parameter: str = "fuel_mass", full: float | 
         Bad steps, an unknown parameter, or a point the file cannot build.
     """
     if steps < 2:
-        raise ValueError(f"--steps must be at least 2 for a track from full to empty, got {steps}")
+        raise UsageError(f"--steps must be at least 2 for a track from full to empty, got {steps}")
     ev = Evaluator(source, (parameter,), overrides, case)
     current = ev.base.parameters[parameter]
     full_value = current.value if full is None else float(full)
     if full_value < empty:
-        raise ValueError(f"the full load ({full_value:g}) is below the empty load ({empty:g}) in SI units of {parameter}")
+        raise UsageError(f"the full load ({full_value:g}) is below the empty load ({empty:g}) in SI units of {parameter}")
     outs = select_outputs(ev.base, TRACK_OUTPUTS if ev.base.vehicle is not None else ("mass", "cg_x", "cg_y", "cg_z",
                                                                                        "margins"))
     plan = OutputPlan(ev.base, outs)
@@ -134,7 +135,7 @@ def fuel_track(source: ModelSource, parameter: str = "fuel_mass", full: float | 
             model, total = ev.evaluate({parameter: text})
         except ModelFileError as exc:
             if f != 0.0:
-                raise ValueError(f"at {parameter} = {text}: {exc}") from None
+                raise UsageError(f"at {parameter} = {text}: {exc}") from None
             model, left_out = _empty_model(ev, parameter, full_value, current.dim, exc)
             total = model.mass_properties()
         values[i], rule_values[i] = plan.evaluate(model, total)

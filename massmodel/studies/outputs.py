@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck
 from massmodel.vehicle.balance import check_rule, static_balance
@@ -82,7 +83,7 @@ def column_of(outputs: Sequence[Output], values: npt.NDArray[np.float64], key: s
     for i, o in enumerate(outputs):
         if o.key == key:
             return values[:, i]
-    raise KeyError(f"no output '{key}'; outputs: {', '.join(o.key for o in outputs)}")
+    raise NotFoundError(f"no output '{key}'; outputs: {', '.join(o.key for o in outputs)}")
 
 
 def worst_points(outputs: Sequence[Output], values: npt.NDArray[np.float64]) -> list[tuple[int, int]]:
@@ -132,9 +133,9 @@ def select_outputs(model: Model, names: Sequence[str] | None) -> tuple[Output, .
         elif name in by_key:
             picked.append(by_key[name])
         elif name in {o.key for o in VEHICLE_OUTPUTS}:
-            raise ValueError(f"output '{name}' needs a [vehicle] section in the model")
+            raise UsageError(f"output '{name}' needs a [vehicle] section in the model")
         else:
-            raise ValueError(f"unknown output '{name}'; outputs: {', '.join(OUTPUT_NAMES)}")
+            raise UsageError(f"unknown output '{name}'; outputs: {', '.join(OUTPUT_NAMES)}")
     return tuple(dict.fromkeys(picked))
 
 

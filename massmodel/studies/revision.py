@@ -16,6 +16,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource, build_model, read_source
 
@@ -51,7 +52,7 @@ def parse_version(text: str) -> Version:
         if ch == "@" and i > 0 and not text.startswith("@{", i):
             path, rev = text[:i], text[i + 1:]
             if not rev:
-                raise ValueError(f"{text}: no revision after '@'")
+                raise UsageError(f"{text}: no revision after '@'")
             return Version(Path(path), rev)
     return Version(Path(text))
 
@@ -60,14 +61,14 @@ def _git(args: list[str], cwd: Path, what: str, reason: str | None = None) -> by
     try:
         done = subprocess.run(["git", *args], cwd=cwd, capture_output=True, check=False, timeout=120)
     except FileNotFoundError:
-        raise ValueError(f"{what}: git is not installed") from None
+        raise UsageError(f"{what}: git is not installed") from None
     except subprocess.TimeoutExpired:
-        raise ValueError(f"{what}: git did not answer within 120 s") from None
+        raise UsageError(f"{what}: git did not answer within 120 s") from None
     if done.returncode != 0:
         message = done.stderr.decode("utf-8", "replace").strip().splitlines()
         if reason is not None:
-            raise ValueError(f"{what}: {reason}")
-        raise ValueError(f"{what}: {message[-1] if message else f'git exited with status {done.returncode}'}")
+            raise UsageError(f"{what}: {reason}")
+        raise UsageError(f"{what}: {message[-1] if message else f'git exited with status {done.returncode}'}")
     return done.stdout
 
 
@@ -89,7 +90,7 @@ def source_of(version: Version) -> Iterator[ModelSource]:
     rev = version.revision
     label = version.label
     if rev.startswith("-"):
-        raise ValueError(f"{label}: a revision must not start with '-'")
+        raise UsageError(f"{label}: a revision must not start with '-'")
     absolute = version.path.resolve()
     folder = absolute.parent
     while not folder.is_dir() and folder != folder.parent:  # the file (and its folder) may be gone today

@@ -15,6 +15,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core import expr, units
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 from massmodel.modelfile.loader import ModelSource
 
@@ -77,7 +78,7 @@ def _quantity(text: str, env: Mapping[str, units.Quantity], where: str) -> units
     try:
         return expr.evaluate(text.strip(), env)
     except (expr.ExpressionError, units.UnitError) as exc:
-        raise ValueError(f"{where}: {str(exc).splitlines()[0]}") from None
+        raise UsageError(f"{where}: {str(exc).splitlines()[0]}") from None
 
 
 def _check_name(name: str, model: Model) -> units.Quantity:
@@ -86,14 +87,14 @@ def _check_name(name: str, model: Model) -> units.Quantity:
 
         close = difflib.get_close_matches(name, list(model.parameters), n=3)
         hint = f"; did you mean {', '.join(close)}?" if close else f"; parameters: {', '.join(model.parameters)}"
-        raise ValueError(f"{model.source or model.name}: unknown parameter '{name}'{hint}")
+        raise UsageError(f"{model.source or model.name}: unknown parameter '{name}'{hint}")
     return model.parameters[name]
 
 
 def _same_dim(q: units.Quantity, current: units.Quantity, text: str, name: str) -> float:
     if q.dim == current.dim or (q.dim == units.DIMENSIONLESS and q.value == 0.0):
         return float(q.value)
-    raise ValueError(f"--vary {name}: {text.strip()!r} is in {q.dim}, the parameter is in {current.dim}")
+    raise UsageError(f"--vary {name}: {text.strip()!r} is in {q.dim}, the parameter is in {current.dim}")
 
 
 def parse_range(text: str, model: Model) -> ParameterRange:
@@ -106,27 +107,27 @@ def parse_range(text: str, model: Model) -> ParameterRange:
         One line: unknown parameter, steps not a whole number above 0, a value of the wrong dimension.
     """
     if "=" not in text:
-        raise ValueError(f"--vary {text!r}: expected name=FROM:TO:STEPS or name=V1,V2,... (e.g. fuel_mass=30kg:0kg:31)")
+        raise UsageError(f"--vary {text!r}: expected name=FROM:TO:STEPS or name=V1,V2,... (e.g. fuel_mass=30kg:0kg:31)")
     name, spec = (s.strip() for s in text.split("=", 1))
     current = _check_name(name, model)
     env = model.parameters
     if ":" in spec:
         pieces = spec.split(":")
         if len(pieces) != 3:
-            raise ValueError(f"--vary {name}: expected FROM:TO:STEPS, got {spec!r}")
+            raise UsageError(f"--vary {name}: expected FROM:TO:STEPS, got {spec!r}")
         try:
             steps = int(pieces[2])
         except ValueError:
-            raise ValueError(f"--vary {name}: STEPS must be a whole number, got {pieces[2]!r}") from None
+            raise UsageError(f"--vary {name}: STEPS must be a whole number, got {pieces[2]!r}") from None
         if steps <= 0:
-            raise ValueError(f"--vary {name}: STEPS must be at least 1, got {steps}")
+            raise UsageError(f"--vary {name}: STEPS must be at least 1, got {steps}")
         lo = _same_dim(_quantity(pieces[0], env, f"--vary {name}"), current, pieces[0], name)
         hi = _same_dim(_quantity(pieces[1], env, f"--vary {name}"), current, pieces[1], name)
         values = np.linspace(lo, hi, steps) if steps > 1 else np.array([lo])
     else:
         items = [s for s in spec.split(",") if s.strip()]
         if not items:
-            raise ValueError(f"--vary {name}: no values given")
+            raise UsageError(f"--vary {name}: no values given")
         values = np.array([_same_dim(_quantity(s, env, f"--vary {name}"), current, s, name) for s in items])
     unit = "" if current.dim == units.DIMENSIONLESS else str(current.dim)
     return ParameterRange(name, _frozen(values), unit, tuple(literal(v, current.dim) for v in values))
@@ -141,12 +142,12 @@ def parse_step(text: str, model: Model) -> tuple[str, float, str]:
         Unknown parameter, a step of zero or of the wrong dimension.
     """
     if "=" not in text:
-        raise ValueError(f"--step {text!r}: expected name=STEP, e.g. wheelbase=10mm")
+        raise UsageError(f"--step {text!r}: expected name=STEP, e.g. wheelbase=10mm")
     name, spec = (s.strip() for s in text.split("=", 1))
     current = _check_name(name, model)
     step = _same_dim(_quantity(spec, model.parameters, f"--step {name}"), current, spec, name)
     if not step > 0.0:
-        raise ValueError(f"--step {name}: the step must be above zero, got {spec!r}")
+        raise UsageError(f"--step {name}: the step must be above zero, got {spec!r}")
     return name, step, spec
 
 
@@ -160,10 +161,10 @@ def grid_points(ranges: Sequence[ParameterRange]) -> list[dict[str, str]]:
     """
     names = [r.name for r in ranges]
     if len(set(names)) != len(names):
-        raise ValueError(f"--vary: parameter '{next(n for n in names if names.count(n) > 1)}' given twice")
+        raise UsageError(f"--vary: parameter '{next(n for n in names if names.count(n) > 1)}' given twice")
     count = int(np.prod([len(r.texts) for r in ranges], dtype=float)) if ranges else 0
     if count > MAX_POINTS:
-        raise ValueError(f"--vary: the grid has {count} points; at most {MAX_POINTS} in one study")
+        raise UsageError(f"--vary: the grid has {count} points; at most {MAX_POINTS} in one study")
     return [dict(zip(names, combo, strict=True)) for combo in itertools.product(*(r.texts for r in ranges))]
 
 
@@ -215,7 +216,7 @@ def evaluate_chunk(study: Study, points: Sequence[Mapping[str, str]], evaluator:
             model, total = ev.evaluate(point)
         except ValueError as exc:
             at = ", ".join(f"{k} = {v}" for k, v in point.items())
-            raise ValueError(f"at {at}: {exc}") from None
+            raise UsageError(f"at {at}: {exc}") from None
         v, r = plan.evaluate(model, total)
         values[i] = v
         rules[i] = r
@@ -374,7 +375,7 @@ class Sensitivity:
         """Parameter indices by the size of their effect on output ``key``, largest first."""
         k = next((i for i, o in enumerate(self.outputs) if o.key == key), None)
         if k is None:
-            raise ValueError(f"no output '{key}'; outputs: {', '.join(o.key for o in self.outputs)}")
+            raise UsageError(f"no output '{key}'; outputs: {', '.join(o.key for o in self.outputs)}")
         spread = np.maximum(np.abs(self.plus[:, k] - self.base[k]), np.abs(self.minus[:, k] - self.base[k]))
         return sorted(range(len(self.names)), key=lambda i: (-spread[i], i))
 
@@ -404,7 +405,7 @@ def sensitivity(source: ModelSource, steps: Iterable[tuple[str, float]], overrid
             try:
                 row[i] = evaluate_outputs(ev.model({name: text}), outs)[0]
             except ValueError as exc:
-                raise ValueError(f"at {name} = {text}: {exc}") from None
+                raise UsageError(f"at {name} = {text}: {exc}") from None
         if progress is not None:
             progress(i + 1, len(items))
     unit_of = [str(base_model.parameters[n].dim) if base_model.parameters[n].dim != units.DIMENSIONLESS else ""

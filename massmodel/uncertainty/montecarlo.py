@@ -22,6 +22,7 @@ from types import MappingProxyType
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 
 from .inputs import UncertaintyInputs, uncertainty_inputs
@@ -100,7 +101,7 @@ def monte_carlo(
     MonteCarloResult
     """
     if samples < 2:
-        raise ValueError(f"Monte Carlo needs at least 2 samples, got {samples}")
+        raise UsageError(f"Monte Carlo needs at least 2 samples, got {samples}")
     inp = inputs or uncertainty_inputs(model)
     rng = np.random.default_rng(seed)
     n = len(inp.mass)

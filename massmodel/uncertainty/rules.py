@@ -20,6 +20,7 @@ from statistics import NormalDist
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model, Rule, RuleCheck
 from massmodel.vehicle.balance import AT_LIMIT_RTOL, check_rules
 
@@ -121,7 +122,7 @@ def rule_margin_samples(model: Model, mc: MonteCarloResult) -> dict[str, FloatAr
         kind, key = _value_key(rule)
         store = mc.subsets if kind == "subsets" else mc.values
         if key not in store:
-            raise ValueError(f"rule '{rule.name}': the Monte Carlo run has no samples of '{key}' "
+            raise UsageError(f"rule '{rule.name}': the Monte Carlo run has no samples of '{key}' "
                              "(run it with rules_monte_carlo)")
         out[rule.name] = _margin(rule, store[key])
     return out
@@ -159,7 +160,7 @@ def rule_confidence(
     inputs : UncertaintyInputs, optional
     """
     if not 0.5 <= confidence < 1.0:
-        raise ValueError(f"confidence must lie in [0.5, 1), got {confidence}")
+        raise UsageError(f"confidence must lie in [0.5, 1), got {confidence}")
     inp = inputs or uncertainty_inputs(model)
     sens = sensitivities(model, inp)
     masks = rule_subsets(model)
@@ -220,7 +221,7 @@ def rule_margins(
         share, m for the CG height); 0 for a rule whose value has no uncertainty.
     """
     if method not in ("rss", "mc"):
-        raise ValueError(f"method must be 'rss' or 'mc', got {method!r}")
+        raise UsageError(f"method must be 'rss' or 'mc', got {method!r}")
     mc = rules_monte_carlo(model, samples, seed) if method == "mc" else None
     rows = rule_confidence(model, confidence, mc)
     return {r.name: (r.required_margin_mc if method == "mc" else r.required_margin_rss) for r in rows}  # type: ignore[misc]

@@ -24,6 +24,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core import display
+from massmodel.core.errors import UsageError
 from massmodel.core.massprops import MassProperties
 from massmodel.core.model import Model, Rule, RuleCheck, Vehicle
 
@@ -255,7 +256,7 @@ def check_rule(model: Model, rule: Rule, balance: Balance | None) -> RuleResult:
     if kind is RuleCheck.MIN_GROUP_MASS:
         return _at_least_result(rule, _mass_of(model, include=rule.groups), "kg", " + ".join(rule.groups))
     if balance is None:
-        raise ValueError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
+        raise UsageError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
     if kind is RuleCheck.MIN_AXLE_LOAD:
         value = balance.front if rule.axle == "front" else balance.rear
         return _at_least_result(rule, value, "kg", f"{rule.axle} axle")
@@ -284,12 +285,12 @@ def ballast_height_window(model: Model, rule: Rule) -> tuple[float, float]:
     """Lowest and highest CG height above the ground (m) that a ``ballast_height`` rule allows in ``model``:
     ``[limit, inf)``, or the CG height of the ``reference`` group ± ``band``."""
     if model.vehicle is None:
-        raise ValueError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
+        raise UsageError(f"rule '{rule.name}' ({rule.origin}) needs a [vehicle] section")
     if rule.reference is None:
         return float(rule.limit or 0.0), float("inf")
     parts = model.select((rule.reference,))
     if not parts:
-        raise ValueError(f"rule '{rule.name}' ({rule.origin}): no part of group '{rule.reference}' in load case "
+        raise UsageError(f"rule '{rule.name}' ({rule.origin}): no part of group '{rule.reference}' in load case "
                          f"'{model.case}', so the height it refers to is unknown")
     h = float(model.vehicle.up @ model.mass_properties([rule.reference]).center) - model.vehicle.ground_level
     band = float(rule.band or 0.0)

@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import InputError, UsageError
 from massmodel.core.model import Component, Vehicle, in_group
 
 __all__ = ["CORNERS", "DEFAULT_SHARED_SHARE", "DEFAULT_SHARED_SOURCE", "AxleSuspension", "AeroSpec", "ChassisSpec",
@@ -37,15 +38,13 @@ DEFAULT_SHARED_SHARE = 0.5
 DEFAULT_SHARED_SOURCE = "common practice, no source: half of a link between wheel and body moves with the wheel"
 
 
-class ChassisError(ValueError):
-    """Chassis inputs that the method cannot use; ``item`` and ``field`` name where in the ``[chassis]`` section."""
+class ChassisError(InputError):
+    """Chassis inputs that the method cannot use; ``item`` and ``field`` name where in the ``[chassis]`` section
+    (the one error type of user input, :class:`massmodel.core.errors.InputError`; ``source`` is its file)."""
 
     def __init__(self, source: str, item: str, field_name: str | None, message: str) -> None:
-        self.source, self.item, self.field, self.message = source, item, field_name, message
-        where = f"{source}: {item}" if source else item
-        if field_name:
-            where += f", field '{field_name}'"
-        super().__init__(f"{where}: {message}")
+        super().__init__(source, item, field_name, message)
+        self.source = source
 
 
 @dataclass(frozen=True, slots=True)
@@ -108,7 +107,7 @@ class AxleSuspension:
             return self.roll_stiffness
         k_w = self.wheel_rate
         if k_w is None:
-            raise ValueError("the axle needs a roll stiffness or a spring rate")
+            raise UsageError("the axle needs a roll stiffness or a spring rate")
         return (k_w + 2.0 * self.bar_wheel_rate) * track**2 / 2.0
 
     @property
@@ -120,7 +119,7 @@ class AxleSuspension:
         if self.cornering_stiffness is not None:
             return self.cornering_stiffness
         if self.tyre_cornering_stiffness is None or self.tyre_reference_load is None:
-            raise ValueError("no cornering stiffness given")
+            raise UsageError("no cornering stiffness given")
         ratio = 0.5 * axle_load / self.tyre_reference_load
         return 2.0 * self.tyre_cornering_stiffness * (1.0 + self.tyre_load_sensitivity * (ratio - 1.0))
 

@@ -51,6 +51,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UserError
 from massmodel.core.frames import Pose
 from massmodel.core.shapes import Cylinder, Ellipsoid
 
@@ -69,7 +70,7 @@ __all__ = [
 FloatArray = npt.NDArray[np.float64]
 
 
-class DriverError(ValueError):
+class DriverError(UserError, ValueError):
     """A seated-driver input that cannot be used; ``field`` names the input (e.g. ``wrist_point``)."""
 
     def __init__(self, field: str, message: str) -> None:

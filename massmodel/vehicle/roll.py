@@ -32,6 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Vehicle
 
 from .chassis import ChassisError, ChassisSpec, MassSplit
@@ -302,9 +303,9 @@ def cross_weight_adjustment(corner_loads: FloatArray, vehicle: Vehicle, spec: Ch
     """
     names = ("FL", "FR", "RL", "RR")
     if corner not in names:
-        raise ValueError(f"corner {corner!r}: expected one of {', '.join(names)}")
+        raise UsageError(f"corner {corner!r}: expected one of {', '.join(names)}")
     if not 0.0 < target_share < 1.0:
-        raise ValueError(f"target diagonal share {target_share!r}: expected a fraction between 0 and 1")
+        raise UsageError(f"target diagonal share {target_share!r}: expected a fraction between 0 and 1")
     loads = np.asarray(corner_loads, dtype=float)
     total = float(loads.sum())
     current = float(loads[1] + loads[2]) / total

@@ -31,6 +31,8 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.errors import UsageError
+
 __all__ = ["SingleTrack", "YawResponse", "state_matrices", "steady_state", "yaw_response", "step_yaw_rate"]
 
 FloatArray = npt.NDArray[np.float64]
@@ -50,9 +52,9 @@ class SingleTrack:
     def __post_init__(self) -> None:
         for name in ("mass", "yaw_inertia", "cornering_front", "cornering_rear"):
             if not getattr(self, name) > 0.0:
-                raise ValueError(f"single-track model: {name.replace('_', ' ')} must be positive")
+                raise UsageError(f"single-track model: {name.replace('_', ' ')} must be positive")
         if not (self.a > 0.0 and self.b > 0.0):
-            raise ValueError("single-track model: the CG must lie between the axles")
+            raise UsageError("single-track model: the CG must lie between the axles")
 
     @property
     def wheelbase(self) -> float:
@@ -68,7 +70,7 @@ class SingleTrack:
 def state_matrices(model: SingleTrack, speed: float) -> tuple[FloatArray, FloatArray]:
     """(A (2, 2), B (2,)) of ẋ = A x + B δ at a forward speed u > 0, m/s (module notes)."""
     if not speed > 0.0:
-        raise ValueError(f"speed {speed!r} m/s: the single-track model needs a positive forward speed")
+        raise UsageError(f"speed {speed!r} m/s: the single-track model needs a positive forward speed")
     m, iz, a, b = model.mass, model.yaw_inertia, model.a, model.b
     cf, cr, u = model.cornering_front, model.cornering_rear, speed
     A = np.array([

@@ -39,6 +39,7 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core import cautions
+from massmodel.core.errors import UsageError
 from massmodel.core.model import Model, Vehicle
 
 from .balance import Balance, static_balance
@@ -153,14 +154,14 @@ def load_transfer(
     """
     for name, value in (("longitudinal acceleration", longitudinal_g), ("lateral acceleration", lateral_g)):
         if not math.isfinite(value) or abs(value) > MAX_ACCELERATION_G:
-            raise ValueError(f"{name} {value!r} g: expected a finite value within ±{MAX_ACCELERATION_G:g} g")
+            raise UsageError(f"{name} {value!r} g: expected a finite value within ±{MAX_ACCELERATION_G:g} g")
     if not balance.mass > 0.0:
-        raise ValueError("load transfer needs a body with mass (the selection has none)")
+        raise UsageError("load transfer needs a body with mass (the selection has none)")
     if front_roll_share is None:
         share, given = balance.front_fraction, False
     else:
         if not math.isfinite(front_roll_share) or not 0.0 <= front_roll_share <= 1.0:
-            raise ValueError(f"front roll share {front_roll_share!r}: expected a fraction from 0 to 1")
+            raise UsageError(f"front roll share {front_roll_share!r}: expected a fraction from 0 to 1")
         share, given = float(front_roll_share), True
     m, h, wb = balance.mass, balance.cg_height, vehicle.wheelbase
     dx = m * longitudinal_g * h / wb
@@ -204,9 +205,9 @@ def build_transfer_report(
         The model has no [vehicle] section, or a condition is out of range (see :func:`load_transfer`).
     """
     if model.vehicle is None:
-        raise ValueError(f"{model.source or model.name}: load transfer needs a [vehicle] section in the model")
+        raise UsageError(f"{model.source or model.name}: load transfer needs a [vehicle] section in the model")
     if not conditions:
-        raise ValueError("give at least one acceleration (braking, driving, cornering or combined)")
+        raise UsageError("give at least one acceleration (braking, driving, cornering or combined)")
     balance = static_balance(model.mass_properties(), model.vehicle)
     results = [load_transfer(balance, model.vehicle, c.longitudinal_g, c.lateral_g, front_roll_share)
                for c in conditions]

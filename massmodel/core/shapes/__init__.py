@@ -10,7 +10,14 @@ from __future__ import annotations
 
 from typing import Any
 
-from massmodel.core.shapes.base import MAX_LENGTH_M, PrismShape, RevolvedShape, Shape, ShapeError
+from massmodel.core.shapes.base import (
+    MAX_LENGTH_M,
+    MIN_LENGTH_M,
+    PrismShape,
+    RevolvedShape,
+    Shape,
+    ShapeError,
+)
 from massmodel.core.shapes.flat import Box, Extrusion, Wedge
 from massmodel.core.shapes.round import (
     Cone,
@@ -27,6 +34,7 @@ from massmodel.core.shapes.round import (
 
 __all__ = [
     "MAX_LENGTH_M",
+    "MIN_LENGTH_M",
     "SHAPE_KINDS",
     "Box",
     "Cone",

@@ -39,12 +39,13 @@ from typing import Any, ClassVar
 import numpy as np
 
 from massmodel.core import geometry as _geo
+from massmodel.core.errors import UserError
 
 __all__ = ["MAX_LENGTH_M", "PrismShape", "RevolvedShape", "Shape", "ShapeError"]
 
 
 
-class ShapeError(ValueError):
+class ShapeError(UserError, ValueError):
     """Invalid primitive definition or argument; the message names the offending field.
 
     Attributes
@@ -64,6 +65,11 @@ class ShapeError(ValueError):
 #: Largest size accepted, m: no part is 1000 km long, and the cube of a bigger number (a volume, an inertia) could
 #: overflow a float (OverflowError) instead of giving a clear message.
 MAX_LENGTH_M = 1.0e6
+
+#: Smallest size accepted, m (a nanometre: far below anything made for a car, a coat of paint is tens of
+#: micrometres — common practice, no source). Smaller sizes are typing slips (``1e-9 mm``) whose volumes and
+#: inertias underflow to zero or below the smallest float.
+MIN_LENGTH_M = 1.0e-9
 
 
 def _as_length(kind: str, field: str, value: object) -> float:
@@ -109,7 +115,11 @@ class Shape(ABC):
 
     def _init_lengths(self) -> None:
         for name in self.FIELDS:
-            object.__setattr__(self, name, _as_length(self.kind, name, getattr(self, name)))
+            value = _as_length(self.kind, name, getattr(self, name))
+            if value < MIN_LENGTH_M:
+                raise ShapeError(f"{name} ({value * 1e3:g} mm) is below the smallest size of a shape, "
+                                 f"{MIN_LENGTH_M * 1e3:g} mm (a nanometre)", name, self.kind)
+            object.__setattr__(self, name, value)
 
     @abstractmethod
     def volume(self) -> float:
