@@ -140,19 +140,15 @@ def read_text(path: Path, label: str, error: type[InputError] = InputError,
 
 
 def _nesting(data: Any) -> int:
-    """How deep tables and lists nest in ``data`` (iteratively: a deep file must not exhaust the stack here)."""
-    deepest = 0
-    stack: list[tuple[Any, int]] = [(data, 1)]
-    while stack:
-        node, depth = stack.pop()
-        if not isinstance(node, (dict, list)):
-            continue
-        children = node.values() if isinstance(node, dict) else node
-        deepest = max(deepest, depth)
-        if deepest > MAX_NESTING:
-            break
-        stack.extend((c, depth + 1) for c in children)
-    return deepest
+    """How deep tables and lists nest in ``data``, counted up to ``MAX_NESTING + 1`` (level by level, without
+    recursion: a deep file must not exhaust the stack here; only the containers of each level are kept)."""
+    level = [data] if isinstance(data, (dict, list)) else []
+    depth = 0
+    while level and depth <= MAX_NESTING:
+        depth += 1
+        level = [c for node in level for c in (node.values() if isinstance(node, dict) else node)
+                 if isinstance(c, (dict, list))]
+    return depth
 
 
 def _too_deep(label: str, error: type[InputError]) -> InputError:
