@@ -19,21 +19,28 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 from functools import lru_cache
 from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
-from massmodel.core.errors import UserError
 from massmodel.core.frames import Pose
-from massmodel.core.massprops import MassProperties, combine
 from massmodel.core.materials import Material
-from massmodel.core.model import Slot
-from massmodel.core.shapes import Box
 
 from .block import AXES, BlockError, BlockGeometry, Chamfer, Counterbore, HolePattern
+from .spec import (
+    LENGTH_SLACK,
+    MAX_STEPS,
+    BlockSizing,
+    BlockSpec,
+    Envelope,
+    Fill,
+    PlacedPiece,
+    SizingError,
+    mm_text,
+)
 
 __all__ = [
     "SizingError",
@@ -50,259 +57,6 @@ __all__ = [
 ]
 
 FloatArray = npt.NDArray[np.float64]
-_EPS = 1e-9  # relative slack when comparing lengths that should be multiples of the increment
-MAX_STEPS = 200_000  # longest search along the fill axis, in increments
-
-
-class SizingError(UserError, ValueError):
-    """A block that cannot be sized: the message names the slot and the offending input (``field``)."""
-
-    def __init__(self, message: str, field: str = "") -> None:
-        super().__init__(message)
-        self.field = field
-
-
-def _mm(x: float, digits: int = 2) -> str:
-    return f"{x * 1e3:.{digits}f} mm"
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class Envelope:
-    """A box-shaped space for ballast.
-
-    Parameters
-    ----------
-    name : str
-        Slot name.
-    size : (3,) float
-        Box edges along the slot axes, m.
-    pose : Pose
-        Slot frame (centred on the box) in the model frame.
-    clearance : float
-        Gap a block keeps to every wall, m.
-    note : str
-        Free text.
-    """
-
-    name: str
-    size: tuple[float, float, float]
-    pose: Pose
-    clearance: float
-    note: str = ""
-
-    def __post_init__(self) -> None:
-        size = tuple(float(s) for s in self.size)
-        if len(size) != 3 or not all(math.isfinite(s) and s > 0.0 for s in size):
-            raise SizingError(f"slot '{self.name}': size must be three positive lengths", "size")
-        if not (math.isfinite(self.clearance) and self.clearance >= 0.0):
-            raise SizingError(f"slot '{self.name}': clearance must be a length >= 0", "clearance")
-        object.__setattr__(self, "size", size)
-
-    @classmethod
-    def from_slot(cls, slot: Slot) -> Envelope:
-        """The envelope of a model slot (box slots only)."""
-        if not isinstance(slot.shape, Box):
-            raise SizingError(f"slot '{slot.name}' ({slot.origin}) is a {slot.shape.kind}: ballast blocks are sized "
-                              "in box slots only", "shape")
-        s = slot.shape
-        return cls(slot.name, (s.size_x, s.size_y, s.size_z), slot.pose, slot.clearance)
-
-    @property
-    def available(self) -> FloatArray:
-        """Inner size left for a block, (3,) m: size − 2 × clearance (checked positive)."""
-        inner = np.array(self.size) - 2.0 * self.clearance
-        for k in range(3):
-            if inner[k] <= 0.0:
-                raise SizingError(
-                    f"slot '{self.name}' is {_mm(self.size[k])} along {AXES[k]}, no more than twice its clearance "
-                    f"{_mm(self.clearance)}: there is no room for a block", "clearance")
-        return inner
-
-    def to_slot(self) -> Slot:
-        """A model :class:`Slot` for this envelope (for plan-defined slots and CAD checks)."""
-        return Slot(self.name, Box(*self.size), self.pose, self.clearance, origin=f"envelope '{self.name}'")
-
-
-@dataclass(frozen=True, slots=True)
-class Fill:
-    """How a block grows in its slot: along ``axis`` (0, 1, 2) from one wall (``sign`` ±1) or about the centre (0)."""
-
-    axis: int
-    sign: int
-
-    @classmethod
-    def parse(cls, text: str) -> Fill:
-        """"+z" (from the −z wall upwards), "-x" (from the +x wall towards −x), or "y" (about the slot centre)."""
-        t = str(text).strip().lower()
-        sign = 0
-        if len(t) == 2 and t[0] in "+-":
-            sign = 1 if t[0] == "+" else -1
-            t = t[1:]
-        if t not in ("x", "y", "z"):
-            raise SizingError(f"fill must be one of +x -x +y -y +z -z (grow from a wall) or x y z (grow about the slot "
-                              f"centre), got {text!r}", "fill")
-        return cls(AXES.index(t), sign)
-
-    def __str__(self) -> str:
-        return ("+" if self.sign > 0 else "-" if self.sign < 0 else "") + AXES[self.axis]
-
-    @property
-    def letter(self) -> str:
-        return AXES[self.axis]
-
-
-@dataclass(frozen=True, eq=False)
-class BlockSpec:
-    """What to make: material, fill, fixed sizes, holes, chamfers and how the block may be split.
-
-    Parameters
-    ----------
-    material : Material
-        With its density band (kg/m³).
-    fill : Fill
-        Fill axis and anchor.
-    fixed : mapping of axis letter → float
-        Sizes fixed by the user, m (not the fill axis). Other cross sizes take the whole width available, rounded
-        down to ``increment``.
-    increment : float
-        Manufacturing increment, m: every machined size is a multiple of it.
-    holes : HolePattern or None
-        Fastener holes; with a stack of plates they must run along the fill axis.
-    chamfer : Chamfer or None
-        Edge chamfers (each plate of a stack is chamfered on its own).
-    stock : tuple of float
-        Stock plate thicknesses, m; when given, the fill length is a stack of these.
-    max_segment_mass : float or None
-        Largest mass of one piece (at the HIGH end of the density band), kg; the block is split into plates along
-        the fill axis to honour it.
-    min_thickness : float or None
-        Thinnest block along the fill axis, m (default one increment).
-    """
-
-    material: Material
-    fill: Fill
-    fixed: Mapping[str, float] = field(default_factory=dict)
-    increment: float = 0.5e-3
-    holes: HolePattern | None = None
-    chamfer: Chamfer | None = None
-    stock: tuple[float, ...] = ()
-    max_segment_mass: float | None = None
-    min_thickness: float | None = None
-
-    def __post_init__(self) -> None:
-        density = getattr(self.material, "density", None)
-        if not isinstance(self.material, Material) or not (isinstance(density, float) and density > 0.0):
-            raise SizingError(f"the ballast material {getattr(self.material, 'key', self.material)!r} has no density: "
-                              "a block's mass needs one (give the material a density and, for alloys, its band)",
-                              "material")
-        if not (math.isfinite(self.increment) and self.increment > 0.0):
-            raise SizingError(f"increment must be a positive length, got {self.increment!r}", "increment")
-        for axis, value in self.fixed.items():
-            if axis not in AXES:
-                raise SizingError(f"fixed sizes are given per axis x, y or z, not {axis!r}", "fixed")
-            if not (math.isfinite(value) and value > 0.0):
-                raise SizingError(f"fixed size along {axis} must be a positive length", f"fixed.{axis}")
-            if axis == self.fill.letter:
-                raise SizingError(f"the fill axis {axis} is the size the block is sized by; it cannot be fixed too",
-                                  f"fixed.{axis}")
-        if any(not (math.isfinite(t) and t > 0.0) for t in self.stock):
-            raise SizingError("stock plate thicknesses must be positive lengths", "stock")
-        if any(round(t * 1e6) < 1 for t in self.stock):  # stacks are summed in whole micrometres
-            raise SizingError("stock plate thicknesses must be at least 0.001 mm", "stock")
-        if self.max_segment_mass is not None and not (math.isfinite(self.max_segment_mass)
-                                                      and self.max_segment_mass > 0.0):
-            raise SizingError("max_segment_mass must be a positive mass", "max_segment_mass")
-        if self.min_thickness is not None and not (math.isfinite(self.min_thickness) and self.min_thickness > 0.0):
-            raise SizingError("min_thickness must be a positive length", "min_thickness")
-        split = bool(self.stock) or self.max_segment_mass is not None
-        if split and self.holes is not None and self.holes.axis != self.fill.letter:
-            raise SizingError(f"plates are stacked along the fill axis {self.fill.letter}; their holes must run along "
-                              f"it too (holes along {self.holes.axis})", "holes.axis")
-
-    @property
-    def thinnest(self) -> float:
-        return self.min_thickness if self.min_thickness is not None else self.increment
-
-
-@dataclass(frozen=True, eq=False)
-class PlacedPiece:
-    """One block or plate: its geometry and its pose (block frame → model frame)."""
-
-    geometry: BlockGeometry
-    pose: Pose
-
-    def props(self, density: float) -> MassProperties:
-        """Mass properties at ``density`` (kg/m³), model frame."""
-        g = self.geometry
-        r = self.pose.linear
-        return MassProperties(density * g.volume(), self.pose.apply(g.centroid()),
-                              density * (r @ g.inertia_per_density() @ r.T))
-
-
-@dataclass(frozen=True, eq=False)
-class BlockSizing:
-    """A sized block (or plate stack) in a slot.
-
-    Attributes
-    ----------
-    envelope : Envelope
-    spec : BlockSpec
-    target : float or None
-        Target mass at the low end of the density band, kg (None: the heaviest block was asked for).
-    pieces : tuple of PlacedPiece
-        Plates from the anchor wall outwards (one piece when not split).
-    fill_length : float
-        Size along the fill axis, m (sum of the plates).
-    reached : bool
-        Whether the mass at the lowest density reaches the target.
-    capacity : tuple of PlacedPiece
-        The heaviest block (or stack) the slot holds in this material.
-    needed_fill_length : float or None
-        When not reached: the fill length that would reach the target, m (the slot would need it plus clearance).
-    """
-
-    envelope: Envelope
-    spec: BlockSpec
-    target: float | None
-    pieces: tuple[PlacedPiece, ...]
-    fill_length: float
-    reached: bool
-    capacity: tuple[PlacedPiece, ...]
-    needed_fill_length: float | None = None
-
-    @property
-    def volume(self) -> float:
-        """Net volume, m³."""
-        return float(sum(p.geometry.volume() for p in self.pieces))
-
-    def masses(self) -> tuple[float, float, float]:
-        """(nominal, lowest, highest) mass over the density band, kg."""
-        lo, hi = self.spec.material.band
-        v = self.volume
-        return self.spec.material.density * v, lo * v, hi * v
-
-    def capacity_masses(self) -> tuple[float, float, float]:
-        """(nominal, lowest, highest) mass of the heaviest block the slot holds, kg."""
-        lo, hi = self.spec.material.band
-        v = float(sum(p.geometry.volume() for p in self.capacity))
-        return self.spec.material.density * v, lo * v, hi * v
-
-    def props(self, density: float | None = None) -> MassProperties:
-        """Mass properties of the block or stack, model frame (nominal density unless given)."""
-        rho = self.spec.material.density if density is None else density
-        return combine(p.props(rho) for p in self.pieces)
-
-    @property
-    def shortfall(self) -> float:
-        """kg missing at the low end of the band (0 when reached)."""
-        if self.target is None or self.reached:
-            return 0.0
-        return self.target - self.masses()[1]
-
-    def segment_masses(self) -> list[float]:
-        """Mass of each piece at the HIGH end of the density band, kg."""
-        hi = self.spec.material.band[1]
-        return [hi * p.geometry.volume() for p in self.pieces]
 
 
 def cross_sizes(env: Envelope, spec: BlockSpec) -> FloatArray:
@@ -317,16 +71,16 @@ def cross_sizes(env: Envelope, spec: BlockSpec) -> FloatArray:
         letter = AXES[k]
         if letter in spec.fixed:
             v = float(spec.fixed[letter])
-            if v > avail[k] * (1.0 + _EPS):
+            if v > avail[k] * (1.0 + LENGTH_SLACK):
                 raise SizingError(
-                    f"slot '{env.name}': fixed size {_mm(v)} along {letter} exceeds the {_mm(avail[k])} available "
-                    f"({_mm(env.size[k])} less twice the clearance {_mm(env.clearance)})", f"fixed.{letter}")
+                    f"slot '{env.name}': fixed size {mm_text(v)} along {letter} exceeds the {mm_text(avail[k])} available "
+                    f"({mm_text(env.size[k])} less twice the clearance {mm_text(env.clearance)})", f"fixed.{letter}")
             size[k] = v
         else:
-            n = math.floor(avail[k] / inc + _EPS)
+            n = math.floor(avail[k] / inc + LENGTH_SLACK)
             if n < 1:
-                raise SizingError(f"slot '{env.name}': {_mm(avail[k])} available along {letter} is less than one "
-                                  f"increment {_mm(inc)}", "increment")
+                raise SizingError(f"slot '{env.name}': {mm_text(avail[k])} available along {letter} is less than one "
+                                  f"increment {mm_text(inc)}", "increment")
             size[k] = round(n * inc, 12)
     return size
 
@@ -396,7 +150,7 @@ def _split_even(env: Envelope, spec: BlockSpec, cross: FloatArray, units: int) -
     hi = spec.material.band[1]
     last = _counterbore_last(spec)
     cb = spec.holes.counterbore if spec.holes is not None else None
-    cb_units = math.floor(cb.depth / inc + _EPS) + 1 if cb is not None else 1  # the counterbored plate is deeper
+    cb_units = math.floor(cb.depth / inc + LENGTH_SLACK) + 1 if cb is not None else 1  # the counterbored plate is deeper
     for n in range(1, units + 1):
         q, r = divmod(units, n)
         units_each = sorted(q + (1 if i < r else 0) for i in range(n))
@@ -418,12 +172,12 @@ def _split_even(env: Envelope, spec: BlockSpec, cross: FloatArray, units: int) -
     lightest = [hi * float(np.prod(cross[np.arange(3) != spec.fill.axis])) * inc]
     extra = ""
     if cb is not None:
-        extra = (f"; the counterbored plate must be at least {_mm(cb_units * inc)} thick and weighs about "
+        extra = (f"; the counterbored plate must be at least {mm_text(cb_units * inc)} thick and weighs about "
                  f"{lightest[0] * cb_units:.3f} kg")
     raise SizingError(
-        f"slot '{env.name}': {_mm(units * inc)} of plates cannot be split within max_segment_mass "
-        f"{spec.max_segment_mass:.3f} kg at the high density end (each {_mm(inc)} of thickness weighs about "
-        f"{lightest[0]:.3f} kg{extra}, and a chamfer of {_mm(spec.chamfer.size) if spec.chamfer else '0 mm'} needs "
+        f"slot '{env.name}': {mm_text(units * inc)} of plates cannot be split within max_segment_mass "
+        f"{spec.max_segment_mass:.3f} kg at the high density end (each {mm_text(inc)} of thickness weighs about "
+        f"{lightest[0]:.3f} kg{extra}, and a chamfer of {mm_text(spec.chamfer.size) if spec.chamfer else '0 mm'} needs "
         f"plates more than twice as thick); make the cross-section smaller or the segment limit larger",
         "max_segment_mass")
 
@@ -446,7 +200,7 @@ def _stock_sums(env: Envelope, spec: BlockSpec, cross: FloatArray, limit: float)
         raise SizingError(f"slot '{env.name}': no stock thickness gives a plate within max_segment_mass "
                           f"{spec.max_segment_mass} kg", "stock")
     g = math.gcd(*allowed)
-    cap = int(math.floor(limit * 1e6 / g + _EPS))
+    cap = int(math.floor(limit * 1e6 / g + LENGTH_SLACK))
     steps = sorted({u // g for u in allowed}, reverse=True)
     best: list[list[int] | None] = [None] * (cap + 1)
     best[0] = []
@@ -503,9 +257,9 @@ def size_block(env: Envelope, spec: BlockSpec, target: float | None) -> BlockSiz
     if spec.stock:
         sums = _stock_sums(env, spec, cross, avail)
         if not sums:
-            raise SizingError(f"slot '{env.name}': no stock plate fits in the {_mm(avail)} available along "
+            raise SizingError(f"slot '{env.name}': no stock plate fits in the {mm_text(avail)} available along "
                               f"{AXES[k]}", "stock")
-        stacks = [(t, plates) for t, plates in sums if t >= spec.thinnest * (1 - _EPS)] or sums[-1:]
+        stacks = [(t, plates) for t, plates in sums if t >= spec.thinnest * (1 - LENGTH_SLACK)] or sums[-1:]
         full = _stack(env, spec, cross, stacks[-1][1])
         if target is None:
             return BlockSizing(env, spec, None, full, stacks[-1][0], True, full)
@@ -517,14 +271,14 @@ def size_block(env: Envelope, spec: BlockSpec, target: float | None) -> BlockSiz
             if lo * _volume(pieces) >= target:
                 return BlockSizing(env, spec, target, pieces, t, True, full)
         return BlockSizing(env, spec, target, full, stacks[-1][0], False, full, _needed_length(env, spec, cross, target))
-    n_max = math.floor(avail / inc + _EPS)
-    n_min = max(1, math.ceil(spec.thinnest / inc - _EPS))
+    n_max = math.floor(avail / inc + LENGTH_SLACK)
+    n_min = max(1, math.ceil(spec.thinnest / inc - LENGTH_SLACK))
     if n_max < n_min:
         if n_max < 1:
-            raise SizingError(f"slot '{env.name}': {_mm(avail)} available along the fill axis {AXES[k]} is less than "
-                              f"one increment {_mm(inc)}", "increment")
-        raise SizingError(f"slot '{env.name}': {_mm(avail)} available along the fill axis {AXES[k]} is less than the "
-                          f"thinnest block {_mm(spec.thinnest)}", "min_thickness")
+            raise SizingError(f"slot '{env.name}': {mm_text(avail)} available along the fill axis {AXES[k]} is less than "
+                              f"one increment {mm_text(inc)}", "increment")
+        raise SizingError(f"slot '{env.name}': {mm_text(avail)} available along the fill axis {AXES[k]} is less than the "
+                          f"thinnest block {mm_text(spec.thinnest)}", "min_thickness")
     full = stack_for_units(env, spec, cross, n_max)
     if target is None:
         return BlockSizing(env, spec, None, full, n_max * inc, True, full)
@@ -580,7 +334,7 @@ def _needed_length(env: Envelope, spec: BlockSpec, cross: FloatArray, target: fl
     inc = spec.increment
     plain = replace(spec, stock=())
     k = spec.fill.axis
-    n_max = math.floor(float(env.available[k]) / inc + _EPS)
+    n_max = math.floor(float(env.available[k]) / inc + LENGTH_SLACK)
     grown = [s + (MAX_STEPS * inc if i == k else 0.0) for i, s in enumerate(env.size)]
     longer = replace(env, size=(grown[0], grown[1], grown[2]))
     v1 = _volume(_stack(longer, replace(plain, max_segment_mass=None), cross, [n_max * inc]))

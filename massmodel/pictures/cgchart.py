@@ -31,8 +31,8 @@ from massmodel.core.errors import UsageError
 from massmodel.core.model import Model, RuleCheck
 from massmodel.core.shapes import PointMass
 
+from .paper import write_png_atomic
 from .scene import CG_COLOUR, INK, PALETTE, group_key
-from .sheet import write_png_atomic
 
 __all__ = ["StationBand", "CgChart", "station_bands", "height_limit", "render_cg_chart"]
 

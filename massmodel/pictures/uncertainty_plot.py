@@ -14,7 +14,7 @@ from massmodel.core.model import Model, RuleCheck
 from massmodel.uncertainty.montecarlo import MonteCarloResult
 from massmodel.uncertainty.rss import rss_uncertainties
 
-from .sheet import write_png_atomic
+from .paper import write_png_atomic
 
 __all__ = ["plot_how_sure"]
 
