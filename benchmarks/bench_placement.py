@@ -2,7 +2,10 @@
 
 Prints the time of the five-case placement beside a single-case placement of the same plan measured in the same
 run, the solver's work, and ratios against references (loading the demo model; one HiGHS LP of the same size).
-Not a test: machines are shared and noisy.
+The rows ``measure  value  target  ok/MISSED`` come from benchmarks/targets.py; the script exits 1 when a target
+is missed. Not a test: machines are shared and noisy (wall times, best of 3).
+
+Run: ``.venv/bin/python benchmarks/bench_placement.py``
 """
 
 from __future__ import annotations
@@ -14,8 +17,10 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(Path(__file__).resolve().parent))  # benchmarks/targets.py
 
 import numpy as np  # noqa: E402
+from targets import Targets  # noqa: E402
 
 from massmodel.ballast.placement import place_ballast  # noqa: E402
 from massmodel.ballast.plan import loads_plan  # noqa: E402
@@ -96,24 +101,22 @@ def main() -> int:
 
     s = result.stats
     used = sum(1 for al in result.allocations if al.sizing is not None)
-    print("bench_placement: place_ballast over 20 candidate slots and 5 load cases on the demo car")
-    print(f"  5 cases at once (sizing, solving, checking, rule costs)  {t_place:8.3f} s   (target < {TARGET_S:.1f} s: "
-          f"{'ok' if t_place < TARGET_S else 'SLOWER'}; ratio to target {t_place / TARGET_S:.2f})")
-    print(f"  1 case (base), same plan, same run                       {t_one:8.3f} s   ratio 5 cases / 1 case "
-          f"{t_place / t_one:5.2f}")
-    print(f"  least ballast: 1 case {one.least:.3f} kg, 5 cases {result.least:.3f} kg")
-    print(f"  solver time reported by the result                       {s.seconds:8.3f} s")
-    print(f"  evaluations                                              {s.evaluations:8d}   ({s.lp_solves} LP/MILP "
-          f"solves, {s.lp_iterations} iterations, {s.nonlinear_evaluations} nonlinear evaluations, {s.rounds} rounds)")
-    print(f"  methods                                                  {', '.join(s.methods)}")
-    print(f"  slots used                                               {used} of 20; ballast "
-          f"{result.ballast_mass[0]:.3f} kg nominal; {len(result.costs)} rule costs")
-    print(f"  reference: load the demo model                           {t_load:8.3f} s   ratio placement / load "
-          f"{t_place / t_load:6.2f}")
-    print(f"  reference: one 20-variable HiGHS LP                      {t_lp:8.4f} s   ratio placement / LP  "
-          f"{t_place / t_lp:6.1f}")
-    print(f"  medians of 3 runs: 5 cases {t_median:.3f} s, 1 case {t_one_median:.3f} s")
-    return 0
+    out = Targets()
+    out.header("bench_placement: place_ballast over 20 candidate slots and 5 load cases on the demo car")
+    out.at_most("place-ballast, 20 slots x 5 load cases (best of 3, wall)", t_place, TARGET_S, " s")
+    out.info("place-ballast, 20 slots x 1 load case (same plan, same run)", t_one, " s")
+    out.info("5 cases / 1 case", t_place / t_one, "x")
+    out.info("5 cases / loading the demo model", t_place / t_load, "x")
+    out.info("5 cases / one 20-variable HiGHS LP", t_place / t_lp, "x")
+    out.info("medians of 3 runs, 5 cases / 1 case", f"{t_median:.3f} s / {t_one_median:.3f} s")
+    out.info("least ballast, 1 case / 5 cases", f"{one.least:.3f} kg / {result.least:.3f} kg")
+    out.info("solver time reported by the result", s.seconds, " s")
+    out.info("evaluations", f"{s.evaluations} ({s.lp_solves} LP/MILP, {s.lp_iterations} it.)")
+    out.info("nonlinear evaluations, rounds", f"{s.nonlinear_evaluations}, {s.rounds}")
+    out.info("methods", ", ".join(s.methods))
+    out.info("slots used of 20; nominal ballast", f"{used}; {result.ballast_mass[0]:.3f} kg")
+    out.info("rule costs", str(len(result.costs)))
+    return out.exit_code()
 
 
 if __name__ == "__main__":
