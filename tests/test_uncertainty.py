@@ -22,12 +22,12 @@ from massmodel.uncertainty import (
     MATURITY_DEFAULTS,
     growth_summary,
     monte_carlo,
+    montecarlo,
     rss_uncertainties,
     rule_confidence,
     rule_margins,
     uncertainty_inputs,
 )
-from massmodel.uncertainty import montecarlo
 from massmodel.uncertainty.rss import vehicle_values
 from massmodel.uncertainty.rules import rule_margin_samples, rules_monte_carlo
 from massmodel.vehicle.balance import check_rules, static_balance

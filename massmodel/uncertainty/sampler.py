@@ -52,7 +52,7 @@ KINDS = ("mass", "cg_x", "cg_y", "cg_z", "inertia")
 # Reassociation lets the sums run in SIMD lanes; "numpy" error model: a division is a plain division (numba's
 # default checks for zero, a branch that stops vectorisation).
 _FAST = {"reassoc", "contract", "nsz", "arcp"}
-_OPTIONS = {"cache": True, "nogil": True, "boundscheck": False, "fastmath": _FAST, "error_model": "numpy"}
+_compiled = numba.njit(cache=True, nogil=True, boundscheck=False, fastmath=_FAST, error_model="numpy")
 
 _GAMMA = np.uint64(0x9E3779B97F4A7C15)  # SplitMix64's increment, 2⁶⁴/φ
 _MIX1 = np.uint64(0xBF58476D1CE4E5B9)
@@ -135,7 +135,7 @@ def _pair(w):  # type: ignore[no-untyped-def]
     return radius * a * sign_a, radius * b * sign_b
 
 
-@numba.njit(**_OPTIONS)
+@_compiled
 def _fill(key, counter, out, count):  # type: ignore[no-untyped-def]
     """out[:count] ← standard normals from the words ``counter, counter + 1, …``; returns the number of words used.
     Pair q goes to out[q] and out[pairs + q] (an odd count leaves the last pair's second normal unused)."""
@@ -147,7 +147,7 @@ def _fill(key, counter, out, count):  # type: ignore[no-untyped-def]
     return pairs
 
 
-@numba.njit(**_OPTIONS)
+@_compiled
 def normals(key, sample, count):  # type: ignore[no-untyped-def]
     """``count`` standard normals (float32) of sample ``sample``'s stream: what the kernel draws for it, in order
     (before its density words). For the tests of the generator."""
@@ -156,7 +156,7 @@ def normals(key, sample, count):  # type: ignore[no-untyped-def]
     return out[:count]
 
 
-@numba.njit(**_OPTIONS)
+@_compiled
 def uniform_words(key, sample, count):  # type: ignore[no-untyped-def]
     """The first ``count`` 64-bit words of sample ``sample``'s stream (SplitMix64 at counters s·2³², s·2³² + 1, …)."""
     out = np.empty(count, np.uint64)
@@ -166,7 +166,7 @@ def uniform_words(key, sample, count):  # type: ignore[no-untyped-def]
     return out
 
 
-@numba.njit(**_OPTIONS)
+@_compiled
 def sample_sums(key, first, out, seg_start, seg_stop, seg_slot, seg_group, density_low, density_width,
                 mass, u_mass, r, u_cg, u_inertia, own, masks):  # type: ignore[no-untyped-def]
     """Sample ``out.shape[0]`` samples (indices ``first, first + 1, …``) and write their sums.
