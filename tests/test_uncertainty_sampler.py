@@ -13,6 +13,9 @@ from __future__ import annotations
 
 import importlib.util
 import math
+import os
+import subprocess
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -198,3 +201,13 @@ def test_kernel_choice() -> None:
     assert montecarlo.kernel_for(montecarlo.NUMBA_MIN_ELEMENTS - 1, "auto") == "numpy"
     with pytest.raises(UsageError, match="kernel must be one of"):
         montecarlo.kernel_for(10, "fast")
+
+
+def test_auto_keeps_numpy_for_the_demo_size_in_a_fresh_process() -> None:
+    # the demo's how-sure run (20,000 samples x 163 parts) does not pay for loading numba
+    env = {**os.environ, "PYTHONPATH": str(DEMO.parents[1])}
+    code = ("import sys; from massmodel.uncertainty import montecarlo as mc; k = mc.kernel_for(20000 * 163); "
+            "print(k, 'numba' in sys.modules, mc.kernel_for(mc.NUMBA_LOAD_ELEMENTS))")
+    run = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
+    assert run.returncode == 0, run.stderr
+    assert run.stdout.split() == ["numpy", "False", "numba"]
