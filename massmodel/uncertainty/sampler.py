@@ -40,7 +40,7 @@ import math
 import numba
 import numpy as np
 from llvmlite import ir
-from numba import float32, int32, types, uint64
+from numba import float32, types, uint64
 from numba.extending import intrinsic
 
 __all__ = ["BLOCK", "KINDS", "normals", "sample_sums", "uniform_words"]
@@ -59,27 +59,61 @@ _GAMMA = np.uint64(0x9E3779B97F4A7C15)  # SplitMix64's increment, 2⁶⁴/φ
 _MIX1 = np.uint64(0xBF58476D1CE4E5B9)
 _MIX2 = np.uint64(0x94D049BB133111EB)
 _LN2 = math.log(2.0)
+_SQRT2 = math.sqrt(2.0)
 _HALF_PI = 0.5 * math.pi
 
 
+# Bit manipulations written as LLVM instructions on 32-bit lanes: numba's own integer arithmetic widens int32 to
+# int64, which halves the SIMD width of the loop.
+_I32 = ir.IntType(32)
+_F32 = ir.FloatType()
+
+
 @intrinsic
-def _float_bits(typingctx, x):  # type: ignore[no-untyped-def]
-    """The bits of a float32 as an int32 (a bit cast, no conversion)."""
-    sig = types.int32(types.float32)
+def _exponent(typingctx, x):  # type: ignore[no-untyped-def]
+    """The unbiased binary exponent e of a positive normal float32 x = m·2ᵉ, m ∈ [1, 2), as a float32."""
+    sig = types.float32(types.float32)
 
     def codegen(context, builder, signature, args):  # type: ignore[no-untyped-def]
-        return builder.bitcast(args[0], ir.IntType(32))
+        bits = builder.bitcast(args[0], _I32)
+        e = builder.sub(builder.lshr(bits, ir.Constant(_I32, 23)), ir.Constant(_I32, 127))
+        return builder.sitofp(e, _F32)
 
     return sig, codegen
 
 
 @intrinsic
-def _bits_float(typingctx, x):  # type: ignore[no-untyped-def]
-    """The float32 whose bits are the int32 ``x`` (a bit cast)."""
-    sig = types.float32(types.int32)
+def _mantissa(typingctx, x):  # type: ignore[no-untyped-def]
+    """The significand m ∈ [1, 2) of a positive normal float32 x = m·2ᵉ (its exponent bits set to 0)."""
+    sig = types.float32(types.float32)
 
     def codegen(context, builder, signature, args):  # type: ignore[no-untyped-def]
-        return builder.bitcast(args[0], ir.FloatType())
+        bits = builder.bitcast(args[0], _I32)
+        m = builder.or_(builder.and_(bits, ir.Constant(_I32, 0x7FFFFF)), ir.Constant(_I32, 0x3F800000))
+        return builder.bitcast(m, _F32)
+
+    return sig, codegen
+
+
+@intrinsic
+def _high40(typingctx, w):  # type: ignore[no-untyped-def]
+    """The top 40 bits of a 64-bit word as a float32 (rounded to 24 significant bits)."""
+    sig = types.float32(types.uint64)
+
+    def codegen(context, builder, signature, args):  # type: ignore[no-untyped-def]
+        return builder.uitofp(builder.lshr(args[0], ir.Constant(ir.IntType(64), 24)), _F32)
+
+    return sig, codegen
+
+
+@intrinsic
+def _low24(typingctx, w):  # type: ignore[no-untyped-def]
+    """The low 24 bits of a 64-bit word as a float32 (exact)."""
+    sig = types.float32(types.uint64)
+
+    def codegen(context, builder, signature, args):  # type: ignore[no-untyped-def]
+        low = builder.and_(builder.trunc(args[0], _I32), ir.Constant(_I32, 0xFFFFFF))
+        return builder.sitofp(low, _F32)
 
     return sig, codegen
 
@@ -101,39 +135,41 @@ def _word(key, counter):  # type: ignore[no-untyped-def]
 def _log(x):  # type: ignore[no-untyped-def]
     """ln x for a positive normal float32: x = m·2ᵉ with m ∈ [√½, √2), ln m = 2 artanh s = 2(s + s³/3 + … + s⁹/9),
     s = (m − 1)/(m + 1), |s| ≤ 0.172 (the next term, 2s¹¹/11, is below 1e-9)."""
-    b = _float_bits(x)
-    mant = b & int32(0x7FFFFF)
-    high = int32(mant > int32(0x3504F3))  # m > √2 (0x3504F3: the mantissa bits of √2): take m/2, e + 1
-    e = (b >> int32(23)) - int32(127) + high
-    m = _bits_float(mant | (int32(0x3F800000) - (high << int32(23))))
+    m = _mantissa(x)
+    e = _exponent(x)
+    high = m > float32(_SQRT2)
+    m = float32(0.5) * m if high else m
+    e = e + float32(1.0) if high else e
     s = (m - float32(1.0)) / (m + float32(1.0))
     s2 = s * s
     series = float32(1.0) + s2 * (float32(1.0 / 3.0) + s2 * (float32(0.2) + s2 * (float32(1.0 / 7.0)
                                                                                  + s2 * float32(1.0 / 9.0))))
-    return float32(2.0) * s * series + float32(e) * float32(_LN2)
+    return float32(2.0) * s * series + e * float32(_LN2)
 
 
 @numba.njit(inline="always")
 def _pair(w):  # type: ignore[no-untyped-def]
     """Two independent standard normals from one 64-bit word (Box–Muller, see the module docstring)."""
-    u = (float32(w >> uint64(24)) + float32(0.5)) * float32(2.0**-40)  # (0, 1), 40 bits
+    u = (_high40(w) + float32(0.5)) * float32(2.0**-40)  # (0, 1), 40 bits
     radius = math.sqrt(float32(-2.0) * _log(u))
-    k = int32(w & uint64(0x3FFFFF))
-    quadrant = int32((w >> uint64(22)) & uint64(3))
-    phi = ((float32(k) + float32(0.5)) * float32(2.0**-22) - float32(0.5)) * float32(_HALF_PI)
+    t = _low24(w)  # bits 23 and 22: the quadrant; bits 0-21: the angle inside it
+    hi = t >= float32(2.0**23)
+    t = t - float32(2.0**23) if hi else t
+    lo = t >= float32(2.0**22)
+    t = t - float32(2.0**22) if lo else t
+    phi = ((t + float32(0.5)) * float32(2.0**-22) - float32(0.5)) * float32(_HALF_PI)
     p2 = phi * phi
     # Taylor series to φ⁹ and φ¹⁰ (|φ| ≤ π/4: remainders below 2e-9)
     sin = phi * (float32(1.0) - p2 / float32(6.0) * (float32(1.0) - p2 / float32(20.0) * (
         float32(1.0) - p2 / float32(42.0) * (float32(1.0) - p2 / float32(72.0)))))
     cos = float32(1.0) - p2 / float32(2.0) * (float32(1.0) - p2 / float32(12.0) * (float32(1.0) - p2 / float32(30.0) * (
         float32(1.0) - p2 / float32(56.0) * (float32(1.0) - p2 / float32(90.0)))))
-    # turn (cos φ, sin φ) by quadrant quarter turns: (c, s), (−s, c), (−c, −s), (s, −c)
-    odd = (quadrant & int32(1)) != int32(0)
-    a = sin if odd else cos
-    b = cos if odd else sin
-    sign_a = float32(1.0) - float32(2.0) * float32(((quadrant + int32(1)) >> int32(1)) & int32(1))
-    sign_b = float32(1.0) - float32(2.0) * float32(quadrant >> int32(1))
-    return radius * a * sign_a, radius * b * sign_b
+    # turn (cos φ, sin φ) by quadrant q = 2·hi + lo quarter turns: (c, s), (−s, c), (−c, −s), (s, −c)
+    a = sin if lo else cos
+    b = cos if lo else sin
+    sign_lo = float32(-1.0) if lo else float32(1.0)
+    sign_b = float32(-1.0) if hi else float32(1.0)
+    return radius * a * (sign_lo * sign_b), radius * b * sign_b
 
 
 @_compiled
@@ -141,8 +177,10 @@ def _fill(key, counter, out, count):  # type: ignore[no-untyped-def]
     """out[:count] ← standard normals from the words ``counter, counter + 1, …``; returns the number of words used.
     Pair q goes to out[q] and out[pairs + q] (an odd count leaves the last pair's second normal unused)."""
     pairs = (count + 1) // 2
+    state = key + counter * _GAMMA  # SplitMix64's Weyl sequence, stepped by γ (no multiply in the loop)
     for q in range(pairs):
-        a, b = _pair(_word(key, counter + uint64(q)))
+        a, b = _pair(_mix(state))
+        state += _GAMMA
         out[q] = a
         out[pairs + q] = b
     return pairs
