@@ -29,8 +29,8 @@ Random numbers
 
 The ziggurat method (Marsaglia & Tsang, J. Statistical Software 5(8), 2000) with xoshiro256++ (Blackman & Vigna,
 ACM TOMS 47(4), 2021) was measured first, in a prototype: its fast path needs a table look-up per draw, which the
-compiler does not vectorise here (a gather), and one draw at a time it took 2.0–2.4 ns per normal against 0.8 ns for
-this vectorised transform; see docs/uncertainty.md.
+compiler does not vectorise here (a gather), and one draw at a time it took 2.0–2.4 ns per normal against 0.6 ns
+for this vectorised transform; see docs/uncertainty.md.
 """
 
 from __future__ import annotations
