@@ -114,7 +114,8 @@ def monte_carlo(
         Number of samples (≥ 2).
     seed : int or None
         Seed of the run (``numpy.random.SeedSequence``); the same seed and kernel give the same samples, however
-        they are chunked. None: fresh entropy.
+        they are chunked (bit for bit on one machine; the compiled sampler's single-precision sums may differ in the
+        last bits on another processor). None: fresh entropy.
     inputs : UncertaintyInputs, optional
         Default: :func:`~massmodel.uncertainty.inputs.uncertainty_inputs` of the model.
     subsets : mapping of str to (N,) bool, optional
