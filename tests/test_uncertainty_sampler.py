@@ -113,6 +113,27 @@ def test_pair_members_are_independent(draws) -> None:  # type: ignore[no-untyped
     assert abs(np.corrcoef(draws[:-1], draws[1:])[0, 1]) < 4 / math.sqrt(len(draws))  # neighbours in the stream
 
 
+def test_the_kernel_draws_the_tested_normals(sampler) -> None:  # type: ignore[no-untyped-def]
+    # three parts with a mass uncertainty only (one segment, no density group): sample s's Σδm and Σδm·r_x are
+    # the sums of u_m·z and u_m·z·r_x over the first three normals of its stream, the ones tested above
+    f32 = np.float32
+    u_mass = np.array([0.5, 1.5, 2.0], f32)
+    r = np.array([[0.3, -1.0, 2.0], [0.0, 0.0, 0.0], [0.0, 0.0, 0.0]], f32)
+    ones, zeros3 = np.ones(3, f32), np.zeros((3, 3), f32)
+    out = np.zeros((4, 10))
+    key = np.uint64(99)
+    sampler.sample_sums(key, 7, out, np.array([0]), np.array([3]), np.array([[0, -1, -1, -1, -1]]), np.array([0]),
+                        np.zeros(0), np.zeros(0), ones, u_mass, r, zeros3, np.zeros(3, f32), zeros3,
+                        np.zeros((0, 3), f32))
+    for row in range(4):
+        z = sampler.normals(key, 7 + row, 3).astype(np.float64)
+        dm = u_mass * z
+        assert out[row, 0] == pytest.approx(dm.sum(), rel=1e-6, abs=1e-6)
+        assert out[row, 1] == pytest.approx((dm * r[0]).sum(), rel=1e-6, abs=1e-6)
+        assert out[row, 4] == pytest.approx((dm * r[0] ** 2).sum(), rel=1e-6, abs=1e-6)
+        assert np.all(out[row, [2, 3, 5, 6, 7, 8, 9]] == 0.0)
+
+
 def test_log_series_against_numpy(sampler) -> None:  # type: ignore[no-untyped-def]
     # ln of the 40-bit uniforms the radius is made from, including the smallest (2⁻⁴¹)
     x = np.geomspace(2.0**-41, 1.0 - 2.0**-24, 2001).astype(np.float32)

@@ -188,8 +188,9 @@ def _fill(key, counter, out, count):  # type: ignore[no-untyped-def]
 
 @_compiled
 def normals(key, sample, count):  # type: ignore[no-untyped-def]
-    """``count`` standard normals (float32) of sample ``sample``'s stream: what the kernel draws for it, in order
-    (before its density words). For the tests of the generator."""
+    """``count`` standard normals (float32) of sample ``sample``'s stream, in the kernel's order: what
+    :func:`sample_sums` draws for that sample's first block when the model has no density group (with K groups
+    they start K words later). For the tests of the generator."""
     out = np.empty(count + 1, np.float32)
     _fill(key, uint64(sample) << uint64(32), out, count)
     return out[:count]
