@@ -50,8 +50,8 @@ SAMPLE_BLOCK = 16
 #: Samplers: "numpy" (always available), "numba" (compiled, :mod:`massmodel.uncertainty.sampler`), "auto".
 KERNELS = ("auto", "numpy", "numba")
 #: "auto" loads the compiled sampler for at least this many samples × parts: importing numba and loading the cached
-#: machine code costs about 1 s once per process (compiling it, the first time on a machine, about 10 s); numpy
-#: takes about 60 ns per sample and part, the compiled sampler a tenth of that (benchmarks/bench_uncertainty.py).
+#: machine code costs about 0.5–1 s once per process (compiling it, the first time on a machine, about 7 s); numpy
+#: takes 50–75 ns per sample and part, the compiled sampler under 4 ns (benchmarks/bench_uncertainty.py).
 NUMBA_LOAD_ELEMENTS = 20_000_000
 #: Once the compiled sampler is loaded in the process, "auto" uses it from this many samples × parts.
 NUMBA_MIN_ELEMENTS = 100_000
