@@ -9,6 +9,7 @@ mean has standard error s/√n, a sample standard deviation about σ/√(2(n−1
 
 from __future__ import annotations
 
+import importlib.util
 import math
 from statistics import NormalDist
 
@@ -21,6 +22,7 @@ from massmodel.uncertainty import (
     MATURITY_DEFAULTS,
     growth_summary,
     monte_carlo,
+    montecarlo,
     rss_uncertainties,
     rule_confidence,
     rule_margins,
@@ -29,6 +31,11 @@ from massmodel.uncertainty import (
 from massmodel.uncertainty.rss import vehicle_values
 from massmodel.uncertainty.rules import rule_margin_samples, rules_monte_carlo
 from massmodel.vehicle.balance import check_rules, static_balance
+
+needs_numba = pytest.mark.skipif(importlib.util.find_spec("numba") is None,
+                                 reason="numba is not installed: only the numpy sampler exists here")
+#: Every Monte Carlo check runs on both samplers (forced; "auto" picks by size).
+KERNELS = ["numpy", pytest.param("numba", marks=needs_numba)]
 
 HEAD = """
 [model]
@@ -120,11 +127,13 @@ def _car(extra: str = "") -> str:
             + _point("driver", 75, (-1100, 0, 50), "measured") + extra)
 
 
-def test_monte_carlo_agrees_with_rss_within_three_standard_errors() -> None:
+@pytest.mark.parametrize("kernel", KERNELS)
+def test_monte_carlo_agrees_with_rss_within_three_standard_errors(kernel: str) -> None:
     model = loads_model(_car())
     est = rss_uncertainties(model)
     n = 40000
-    mc = monte_carlo(model, n, seed=3)
+    mc = monte_carlo(model, n, seed=3, kernel=kernel)
+    assert mc.kernel == kernel
     for name in ("mass", "front", "rear"):  # linear (mass) and bilinear in the part errors
         se_mean = mc.standard_error(name)
         assert abs(mc.mean(name) - est[name].value) < 3 * se_mean, name
@@ -134,7 +143,8 @@ def test_monte_carlo_agrees_with_rss_within_three_standard_errors() -> None:
         assert mc.std(name) == pytest.approx(est[name].u, rel=0.03), name
 
 
-def test_inertia_bias_rss_cannot_show() -> None:
+@pytest.mark.parametrize("kernel", KERNELS)
+def test_inertia_bias_rss_cannot_show(kernel: str) -> None:
     # A 300 kg part AT the CG (between two 50 kg parts) with a CG error of 20 mm in x and y: to first order the
     # moment does not change (dᵢ = 0, so RSS gives u = 0), but I_zz = Σ m r² − M s² rises on average by
     # m_a (1 − m_a/M) · 2u² = 300 · 0.25 · 2 · 0.0004 = 0.06 kg·m² (E[δ²] = u²): a non-linear effect only the
@@ -145,7 +155,7 @@ def test_inertia_bias_rss_cannot_show() -> None:
     model = loads_model(text)
     est = rss_uncertainties(model)
     assert est["izz"].u == 0.0
-    mc = monte_carlo(model, 40000, seed=11)
+    mc = monte_carlo(model, 40000, seed=11, kernel=kernel)
     bias = 300 * (1 - 300 / 400) * 2 * 0.02**2
     assert mc.mean("izz") - est["izz"].value == pytest.approx(bias, abs=3 * mc.standard_error("izz"))
     assert bias > 20 * mc.standard_error("izz")  # the effect is resolved, not noise
@@ -173,7 +183,8 @@ def _tungsten_blocks() -> str:
     return text + "[uncertainty]\n" + _item("ballast", mass="0 %", cg="0 mm", inertia="0 %", growth="0 %")
 
 
-def test_one_density_error_moves_every_block_of_the_material() -> None:
+@pytest.mark.parametrize("kernel", KERNELS)
+def test_one_density_error_moves_every_block_of_the_material(kernel: str) -> None:
     model = loads_model(_tungsten_blocks())
     inp = uncertainty_inputs(model)
     assert inp.density_keys == ("tungsten_b777_class1",)
@@ -185,7 +196,7 @@ def test_one_density_error_moves_every_block_of_the_material() -> None:
     assert est.u == pytest.approx(total * u_rel, rel=1e-9)  # correlated: the parts' errors add linearly
     assert est.u_density_if_independent == pytest.approx(total * u_rel / math.sqrt(BLOCKS), rel=1e-9)
     n = 20000
-    mc = monte_carlo(model, n, seed=5)
+    mc = monte_carlo(model, n, seed=5, kernel=kernel)
     # Sampled independently the spread would be √10 times smaller; shared, it is the full band:
     assert abs(mc.std("mass") - est.u) < 3 * est.u / math.sqrt(2 * (n - 1)) * 1.2  # uniform: slightly wider s.e.
     samples = np.asarray(mc.values["mass"])
@@ -194,14 +205,22 @@ def test_one_density_error_moves_every_block_of_the_material() -> None:
     assert samples.max() - samples.min() > 0.98 * (hi - lo)  # every block at one end of the band together
 
 
-def test_same_seed_same_samples_and_chunking_keeps_the_statistics() -> None:
+@pytest.mark.parametrize("kernel", KERNELS)
+def test_same_seed_same_samples_and_chunking_keeps_the_statistics(kernel: str) -> None:
     model = loads_model(_car())
-    a = monte_carlo(model, 3000, seed=42)
-    b = monte_carlo(model, 3000, seed=42)
+    a = monte_carlo(model, 3000, seed=42, kernel=kernel)
+    b = monte_carlo(model, 3000, seed=42, kernel=kernel)
     assert np.array_equal(a.values["front"], b.values["front"])
-    c = monte_carlo(model, 20000, seed=1, chunk_elements=64)  # chunks of 12 samples × 5 parts
+    c = monte_carlo(model, 20000, seed=1, chunk_elements=64, kernel=kernel)  # chunks of 12 (numpy: 16) samples
     est = rss_uncertainties(model)["mass"]
     assert abs(c.mean("mass") - est.value) < 3 * c.standard_error("mass")
+    # the chunking changes nothing: every sample's numbers depend on the seed and its index only
+    d = monte_carlo(model, 20000, seed=1, kernel=kernel)
+    for name in d.values:
+        assert np.array_equal(c.values[name], d.values[name]), name
+    # so a shorter run is the start of a longer one, and another seed gives other samples
+    assert np.array_equal(monte_carlo(model, 3000, seed=1, kernel=kernel).values["mass"], d.values["mass"][:3000])
+    assert not np.array_equal(a.values["mass"], d.values["mass"][:3000])
 
 
 def test_defaults_by_maturity_and_growth_are_separate() -> None:
@@ -271,7 +290,9 @@ def test_rule_confidence_matches_the_vehicle_checks_and_the_normal_quantile() ->
     assert again.probability_rss == pytest.approx(0.95, abs=1e-6)
 
 
-def test_rule_probability_by_monte_carlo() -> None:
+@pytest.mark.parametrize("kernel", KERNELS)
+def test_rule_probability_by_monte_carlo(kernel: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(montecarlo, "kernel_for", lambda elements, kernel_asked="auto": kernel)
     model = loads_model(_car(RULES.format(limit=440)))
     mc = rules_monte_carlo(model, 40000, seed=9)
     rows = rule_confidence(model, 0.9, mc)

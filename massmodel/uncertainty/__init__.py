@@ -4,7 +4,8 @@
   by maturity), the shared density error of every material with a density band, and the growth allowance.
 * :mod:`~massmodel.uncertainty.rss`: first-order propagation by root sum of squares (Zimmerman & Nakai, SAWE Paper
   3360, 2005; GUM §5.1.2 and §5.2).
-* :mod:`~massmodel.uncertainty.montecarlo`: seedable Monte Carlo over samples × parts, in bounded chunks.
+* :mod:`~massmodel.uncertainty.montecarlo`: seedable Monte Carlo over samples × parts, in bounded memory.
+* :mod:`~massmodel.uncertainty.sampler`: its compiled sampler (numba; imported lazily, only by ``montecarlo``).
 * :mod:`~massmodel.uncertainty.rules`: probability of passing each rule, and the margin a rule needs for a chosen
   confidence (:func:`rule_margins`).
 
