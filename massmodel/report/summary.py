@@ -172,9 +172,11 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = (), 
     return out
 
 
-#: Components converted from the model's arrays to Python lists per block of this many (the lists of a whole
-#: model of 10⁵ parts would take about 75 MiB; one conversion per block keeps the speed of one per model).
-_BLOCK = 4096
+#: Components converted from the model's arrays to Python lists per block of this many: one conversion per block
+#: keeps the speed of one per model, and a block's few lists die young (blocks of 4096 left so many of them alive at
+#: each young collection that the cyclic garbage collector went on to full passes over the model: +50 % on the JSON
+#: of 10⁵ parts; the lists of a whole model would take about 75 MiB).
+_BLOCK = 256
 
 
 class ComponentEntries:
@@ -216,6 +218,17 @@ class ComponentEntries:
                     "slot": c.slot,
                     "colour": c.colour,
                 }
+
+    def brief(self) -> Iterator[tuple[str, float, str, str, list[float]]]:
+        """(path, mass_kg, mass_source, maturity, cg_m) of each component: the members the terminal table shows, the
+        same values as in the dictionaries, without making them."""
+        masses, centers, _ = self.model._all_arrays()
+        components = self.model.components
+        for start in range(0, len(components), _BLOCK):
+            stop = start + _BLOCK
+            rows = zip(components[start:stop], masses[start:stop].tolist(), centers[start:stop].tolist(), strict=True)
+            for c, mass, cg in rows:
+                yield c.path, mass, c.source.value, c.maturity.value, cg
 
     def __repr__(self) -> str:
         return f"<ComponentEntries of {self.model.name!r}: {len(self)} components, made when iterated>"
@@ -339,10 +352,13 @@ def report_lines(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append(f"frame: model axes · inertia about the CG, tensor convention (I_xy = -∫xy dm) · lengths {lu}")
     out.append("")
     if components:
-        rows = [
-            [c["path"], _num(c["mass_kg"], ".3f"), c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
-            for c in report["components"]
-        ]
+        entries = report["components"]
+        brief = entries.brief() if isinstance(entries, ComponentEntries) else (
+            (c["path"], c["mass_kg"], c["mass_source"], c["maturity"], c["cg_m"]) for c in entries)
+        # tuples of text, which the cyclic garbage collector stops tracking (lists of 10^5 rows would set off full
+        # collections over the whole model)
+        rows = [(path, _num(mass, ".3f"), source, maturity, _vec(cg, ls, ld))
+                for path, mass, source, maturity, cg in brief]
         out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
         yield from out
         out.clear()
