@@ -12,6 +12,8 @@ against a reference measured in the same run; the script exits 1 when a target i
   compiled ``tomli`` parser that the loader uses is printed for context, with the share of each step;
 * peak memory of ``python -m massmodel report FILE --json OUT`` in a subprocess (the child's peak resident
   set, VmHWM), target ≤ 250 MiB; the interpreter with numpy alone is printed for context;
+* the resident set after each step of the report (loading, the engine's arrays, the streamed text and JSON),
+  with its peak so far, for context;
 * the report command does not import numba (target: no; the compiled kernel does not pay for its import there);
 * the demo car's report command and ``import massmodel``, wall time, for context.
 
@@ -147,6 +149,46 @@ sys.stderr.write(f"{kib} {'numba' in sys.modules}\\n")
 """
 
 
+# The steps of the report command in a fresh interpreter, with the resident set (VmRSS) and its peak so far (VmHWM)
+# after each: where the memory goes (Linux only; nothing is printed where /proc is missing).
+STAGES_SCRIPT = """
+import json, os, sys
+def rss():
+    with open("/proc/self/status") as status:
+        seen = dict(line.split(":", 1) for line in status if line.startswith(("VmRSS", "VmHWM")))
+    return [int(seen[k].split()[0]) / 1024 for k in ("VmRSS", "VmHWM")]
+stages = [("the interpreter", rss())]
+import massmodel.cli
+from massmodel.modelfile.loader import load_model
+from massmodel.report.summary import build_report, write_json_atomic, write_report_text
+stages.append(("imports of the report command", rss()))
+model = load_model(sys.argv[1])
+stages.append(("model loaded (file text, parts parsed a batch at a time)", rss()))
+model.mass_properties()
+stages.append(("engine arrays of every part", rss()))
+report = build_report(model, stream=True)
+stages.append(("report data (components streamed)", rss()))
+with open(os.devnull, "w", encoding="utf-8") as terminal:
+    write_report_text(report, terminal)
+stages.append(("terminal text written", rss()))
+write_json_atomic(report, sys.argv[2])
+stages.append(("JSON file written", rss()))
+sys.stderr.write(json.dumps(stages) + "\\n")
+"""
+
+
+def child_stages(path: Path, out: Path) -> list[tuple[str, list[float]]]:
+    """(stage, [resident MiB, peak MiB so far]) of the report command's steps in a subprocess; [] without /proc."""
+    if not Path("/proc/self/status").exists():
+        return []
+    env = {**os.environ, "PYTHONPATH": str(REPO)}
+    done = subprocess.run([sys.executable, "-c", STAGES_SCRIPT, str(path), str(out)], cwd=REPO, env=env, check=True,
+                          stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    import json
+
+    return [(name, values) for name, values in json.loads(done.stderr.strip().splitlines()[-1])]
+
+
 def child_peak(args: list[str]) -> tuple[float, bool]:
     """(peak resident memory in MiB, numba imported) of ``python -m massmodel ARGS`` in a subprocess."""
     env = {**os.environ, "PYTHONPATH": str(REPO)}
@@ -204,6 +246,8 @@ def main(argv: list[str]) -> int:
         out.info("peak memory of `massmodel --help` (interpreter, numpy, the CLI)", base, " MiB")
         out.at_most(f"peak memory of `massmodel report FILE --json OUT`, {n} components", peak, PEAK_MIB, " MiB")
         out.at_most("the report command imports numba (1 = yes)", float(numba), 0.0, "")
+        for stage, (resident, high) in child_stages(path, Path(tmp) / "stages.json"):
+            out.info(f"  resident set after: {stage} (peak so far {high:.0f} MiB)", resident, " MiB")
     demo = REPO / "parts_demo" / "brindlecombe_bl3.toml"
     bare = cli_wall(["-c", "pass"])
     out.info(f"demo car `massmodel report {demo.relative_to(REPO)}` wall / bare interpreter",
