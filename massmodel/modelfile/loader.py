@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import expr, units
+from massmodel.core.errors import UserError
 from massmodel.core.frames import Pose, reflection_across_plane
 from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.materials import MaterialError, builtin_materials, material_from_fields
@@ -60,7 +61,7 @@ from .fields import (
 )
 from .parts import part_components
 from .partstream import WholeText, split_part_tables
-from .reader import InputError, ModelFileError, parse_toml, read_text, read_toml, read_units
+from .reader import ModelFileError, parse_toml, read_text, read_toml, read_units
 from .uncertainty import attach_uncertainty
 
 __all__ = ["ModelFileError", "ModelSource", "build_model", "load_model", "loads_model", "load_case_models", "read_source",
@@ -178,7 +179,7 @@ def _load_text(text: str, label: str, base_dir: Path, overrides: Mapping[str, st
                                parts=cut.tables())
         except WholeText as whole:
             data = whole.data
-        except InputError:
+        except UserError:
             cut.whole()  # a syntax error anywhere in the file is reported first, as when the file is parsed whole
             raise
     data = resolve_extends(data, label, base_dir, chain=chain)

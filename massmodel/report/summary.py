@@ -357,13 +357,13 @@ def report_lines(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
             (c["path"], c["mass_kg"], c["mass_source"], c["maturity"], c["cg_m"]) for c in entries)
         # tuples of text, which the cyclic garbage collector stops tracking (lists of 10^5 rows would set off full
         # collections over the whole model)
-        rows = [(path, _num(mass, ".3f"), source, maturity, _vec(cg, ls, ld))
+        cells = [(path, _num(mass, ".3f"), source, maturity, _vec(cg, ls, ld))
                 for path, mass, source, maturity, cg in brief]
-        out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
+        out.append(f"COMPONENT BUDGET ({len(cells)} parts)")
         yield from out
         out.clear()
-        yield from table_lines(["path", "mass kg", "source", "maturity", f"CG {lu}"], rows, "lrllr")
-        del rows
+        yield from table_lines(["path", "mass kg", "source", "maturity", f"CG {lu}"], cells, "lrllr")
+        del cells
         out.append("")
     top = [g for g in report["groups"] if "/" not in g["path"]]
     rows = [[g["path"], str(g["parts"]), f"{g['mass_kg']:.3f}",
