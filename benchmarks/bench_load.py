@@ -5,12 +5,15 @@ groups and parts, linear patterns, cut-outs, all four mass sources, rotations, v
 expressions, a vehicle and rules). Rows ``measure  value  target  ok/MISSED`` (benchmarks/targets.py), each value
 against a reference measured in the same run; the script exits 1 when a target is missed:
 
-* report ÷ parse, target ≤ 3×: the CPU time of ``load_model`` + ``build_report`` + ``format_report`` +
-  ``write_json_atomic`` (what ``massmodel report FILE --json OUT`` does, without the interpreter start) over the
+* report ÷ parse, target ≤ 3×: the CPU time of ``load_model`` + ``build_report(stream=True)`` +
+  ``write_report_text`` (to the null device) + ``write_json_atomic`` (what ``massmodel report FILE --json OUT``
+  does, without the interpreter start) over the
   CPU time of the standard library's ``tomllib.loads`` on the same text (best of k each). The ratio to the
   compiled ``tomli`` parser that the loader uses is printed for context, with the share of each step;
 * peak memory of ``python -m massmodel report FILE --json OUT`` in a subprocess (the child's peak resident
   set, VmHWM), target ≤ 250 MiB; the interpreter with numpy alone is printed for context;
+* the resident set after each step of the report (loading, the engine's arrays, the streamed text and JSON),
+  with its peak so far, for context;
 * the report command does not import numba (target: no; the compiled kernel does not pay for its import there);
 * the demo car's report command and ``import massmodel``, wall time, for context.
 
@@ -146,6 +149,46 @@ sys.stderr.write(f"{kib} {'numba' in sys.modules}\\n")
 """
 
 
+# The steps of the report command in a fresh interpreter, with the resident set (VmRSS) and its peak so far (VmHWM)
+# after each: where the memory goes (Linux only; nothing is printed where /proc is missing).
+STAGES_SCRIPT = """
+import json, os, sys
+def rss():
+    with open("/proc/self/status") as status:
+        seen = dict(line.split(":", 1) for line in status if line.startswith(("VmRSS", "VmHWM")))
+    return [int(seen[k].split()[0]) / 1024 for k in ("VmRSS", "VmHWM")]
+stages = [("the interpreter", rss())]
+import massmodel.cli
+from massmodel.modelfile.loader import load_model
+from massmodel.report.summary import build_report, write_json_atomic, write_report_text
+stages.append(("imports of the report command", rss()))
+model = load_model(sys.argv[1])
+stages.append(("model loaded (file text, parts parsed a batch at a time)", rss()))
+model.mass_properties()
+stages.append(("engine arrays of every part", rss()))
+report = build_report(model, stream=True)
+stages.append(("report data (components streamed)", rss()))
+with open(os.devnull, "w", encoding="utf-8") as terminal:
+    write_report_text(report, terminal)
+stages.append(("terminal text written", rss()))
+write_json_atomic(report, sys.argv[2])
+stages.append(("JSON file written", rss()))
+sys.stderr.write(json.dumps(stages) + "\\n")
+"""
+
+
+def child_stages(path: Path, out: Path) -> list[tuple[str, list[float]]]:
+    """(stage, [resident MiB, peak MiB so far]) of the report command's steps in a subprocess; [] without /proc."""
+    if not Path("/proc/self/status").exists():
+        return []
+    env = {**os.environ, "PYTHONPATH": str(REPO)}
+    done = subprocess.run([sys.executable, "-c", STAGES_SCRIPT, str(path), str(out)], cwd=REPO, env=env, check=True,
+                          stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    import json
+
+    return [(name, values) for name, values in json.loads(done.stderr.strip().splitlines()[-1])]
+
+
 def child_peak(args: list[str]) -> tuple[float, bool]:
     """(peak resident memory in MiB, numba imported) of ``python -m massmodel ARGS`` in a subprocess."""
     env = {**os.environ, "PYTHONPATH": str(REPO)}
@@ -162,7 +205,7 @@ def main(argv: list[str]) -> int:
     import tomli
 
     from massmodel.modelfile.loader import load_model
-    from massmodel.report.summary import build_report, format_report, write_json_atomic
+    from massmodel.report.summary import build_report, write_json_atomic, write_report_text
 
     out = Targets()
     with tempfile.TemporaryDirectory(prefix="massmodel-bench-") as tmp:
@@ -177,13 +220,14 @@ def main(argv: list[str]) -> int:
             marks = [time.process_time()]
             model = load_model(path)
             marks.append(time.process_time())
-            data = build_report(model)
+            data = build_report(model, stream=True)
             marks.append(time.process_time())
-            format_report(data)
+            with open(os.devnull, "w", encoding="utf-8") as terminal:
+                write_report_text(data, terminal)
             marks.append(time.process_time())
             write_json_atomic(data, Path(tmp) / "report.json")
             marks.append(time.process_time())
-            for key, a, b in zip(("load", "build", "format", "json"), marks, marks[1:], strict=False):
+            for key, a, b in zip(("load", "build", "text", "json"), marks, marks[1:], strict=False):
                 steps[key] = min(steps.get(key, float("inf")), b - a)
 
         t_parse = t_tomli = t_report = float("inf")
@@ -192,7 +236,7 @@ def main(argv: list[str]) -> int:
             t_tomli = min(t_tomli, best_cpu(lambda: tomli.loads(text), 1))
             t_report = min(t_report, best_cpu(report, 1))
         out.info("tomllib.loads, per component", t_parse / n * 1e6, " us")
-        out.info("report (load + build + format + json), per component", t_report / n * 1e6, " us")
+        out.info("report (load + build + text + json), per component", t_report / n * 1e6, " us")
         out.at_most("report / tomllib parse", t_report / t_parse, REPORT_RATIO)
         out.info("report / tomli parse (the loader's parser)", t_report / t_tomli, "x")
         for key, value in steps.items():
@@ -202,6 +246,8 @@ def main(argv: list[str]) -> int:
         out.info("peak memory of `massmodel --help` (interpreter, numpy, the CLI)", base, " MiB")
         out.at_most(f"peak memory of `massmodel report FILE --json OUT`, {n} components", peak, PEAK_MIB, " MiB")
         out.at_most("the report command imports numba (1 = yes)", float(numba), 0.0, "")
+        for stage, (resident, high) in child_stages(path, Path(tmp) / "stages.json"):
+            out.info(f"  resident set after: {stage} (peak so far {high:.0f} MiB)", resident, " MiB")
     demo = REPO / "parts_demo" / "brindlecombe_bl3.toml"
     bare = cli_wall(["-c", "pass"])
     out.info(f"demo car `massmodel report {demo.relative_to(REPO)}` wall / bare interpreter",

@@ -240,3 +240,77 @@ def test_rule_limits_are_numbers_and_the_text_is_built_from_them(report: dict) -
     assert limit_text("between", 0.428, 0.46, "fraction") == "0.4280 .. 0.4600 fraction"
     with pytest.raises(ValueError):
         limit_text("above", 1.0, None, "kg")  # not a bound kind
+
+
+# --- streamed components (build_report(stream=True)): the same report, never held whole --------------------------
+
+def _streamed_and_whole(path: Path) -> tuple[dict, dict]:
+    model = load_model(path)
+    return build_report(model, stream=True), build_report(model)
+
+
+@pytest.mark.parametrize("which", ["demo", "patterned"])
+def test_streamed_report_equals_the_whole_one(tmp_path: Path, which: str) -> None:
+    import io
+
+    from massmodel.report.summary import _BLOCK, ComponentEntries, json_text, write_report_text
+
+    if which == "demo":
+        path = Path(__file__).resolve().parents[1] / "parts_demo" / "brindlecombe_bl3.toml"
+    else:  # more parts than a block of the conversion, so that block edges are crossed
+        path = tmp_path / "many.toml"
+        path.write_text(CAR.replace('at = [-1200, 0, -100]', 'at = [-1200, 0, -100]\npattern = { count = '
+                                    f'{2 * _BLOCK + 3}, step = [0.5, 0, 0] }}'), encoding="utf-8")
+    streamed, whole = _streamed_and_whole(path)
+    entries = streamed["components"]
+    assert isinstance(entries, ComponentEntries) and len(entries) == len(whole["components"])
+    assert list(entries) == whole["components"]  # the same dictionaries, number for number
+    assert {k: v for k, v in streamed.items() if k != "components"} == {k: v for k, v in whole.items()
+                                                                        if k != "components"}
+    assert json_text(streamed) == json_text(whole)
+    write_json_atomic(streamed, tmp_path / "streamed.json")
+    write_json_atomic(whole, tmp_path / "whole.json")
+    assert (tmp_path / "streamed.json").read_bytes() == (tmp_path / "whole.json").read_bytes()
+    assert json.loads((tmp_path / "streamed.json").read_text(encoding="utf-8"))["components"] == whole["components"]
+    for units in DisplayUnits:
+        for components in (True, False):
+            out = io.StringIO()
+            write_report_text(streamed, out, units, components=components)
+            assert out.getvalue() == format_report(whole, units, components=components) + "\n"
+            assert format_report(streamed, units, components=components) == format_report(whole, units, components)
+
+
+def test_streamed_json_goes_into_the_temporary_file(tmp_path: Path, car: Path) -> None:
+    # a value refused after the components were written: the earlier file stays, no temporary file is left
+    streamed = build_report(load_model(car), stream=True)
+    target = tmp_path / "out" / "report.json"
+    write_json_atomic(streamed, target)
+    before = target.read_bytes()
+    with pytest.raises(ValueError):
+        write_json_atomic({**streamed, "zz_after_components": float("nan")}, target)
+    assert target.read_bytes() == before
+    assert sorted(p.name for p in target.parent.iterdir()) == ["report.json"]
+
+
+def test_no_components_stream_as_an_empty_list() -> None:
+    from massmodel.core.model import Model
+    from massmodel.report.summary import ComponentEntries, json_text
+
+    empty = ComponentEntries(Model("empty", ()))
+    assert len(empty) == 0 and list(empty) == [] and list(empty.brief()) == []
+    assert json_text({"components": empty}) == json_text({"components": []}) == '{\n  "components": []\n}'
+
+
+def test_report_command_streams_the_same_text_and_json(tmp_path: Path, car: Path) -> None:
+    import os
+    import subprocess
+    import sys
+
+    repo = Path(__file__).resolve().parents[1]
+    out = tmp_path / "r.json"
+    done = subprocess.run([sys.executable, "-m", "massmodel", "report", str(car), "--units", "mm", "--json", str(out)],
+                          capture_output=True, text=True, env={**os.environ, "PYTHONPATH": str(repo)}, check=True)
+    whole = build_report(load_model(car))
+    assert done.stdout == format_report(whole, DisplayUnits.MM) + f"\n\nreport written to {out}\n"
+    write_json_atomic(whole, tmp_path / "whole.json")
+    assert out.read_bytes() == (tmp_path / "whole.json").read_bytes()

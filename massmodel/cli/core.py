@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import re
+import sys
 from collections.abc import Mapping
 from typing import Any
 
@@ -109,8 +110,8 @@ def _report(args: argparse.Namespace) -> int:
         DisplayUnits,
         InertiaRequest,
         build_report,
-        format_report,
         write_json_atomic,
+        write_report_text,
     )
 
     if args.all_cases:
@@ -121,11 +122,12 @@ def _report(args: argparse.Namespace) -> int:
         InertiaRequest(_resolve(p, model.parameters), axes, label=p.text, axes_label=args.inertia_axes)
         for p in args.inertia_about
     ]
-    report = build_report(model, requests)
+    # the components are streamed to the terminal and to the JSON file, never held whole (a model of 10^5 parts)
+    report = build_report(model, requests, stream=True)
     from massmodel.cli.uncertainty import add_report_uncertainty
 
     sure = add_report_uncertainty(report, model, args)
-    print(format_report(report, DisplayUnits(args.units), components=not args.brief))
+    write_report_text(report, sys.stdout, DisplayUnits(args.units), components=not args.brief)
     if args.json:
         write_json_atomic(report, args.json)
         print(f"\nreport written to {args.json}")

@@ -5,7 +5,8 @@ point syntax, the base of every file's reader, and :class:`ModelFileError`; ``un
 section (per-part standard uncertainties, merged across ``extends``); ``extends``: merging a model that extends
 another; ``fields``: the values of a model file in SI (quantities, poses, shapes, paths, colours); ``parts``,
 ``cases``, ``driver`` and ``chassis``: the ``[[part]]``, ``[[case]]``, ``[[driver]]`` tables and the ``[chassis]``
-section; ``loader``: :func:`load_model`,
+section; ``partstream``: a file's ``[[part]]`` tables parsed a batch at a time while the model is built (a large
+file's parsed tables and its model are never both whole in memory); ``loader``: :func:`load_model`,
 :class:`ModelSource`, :func:`read_source`, :func:`build_model`. Each module imports only those listed before it
 (the loader imports them all; nothing imports the loader).
 

@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from massmodel.core import expr, units
+from massmodel.core.errors import UserError
 from massmodel.core.frames import Pose, reflection_across_plane
 from massmodel.core.loadcases import BASE_CASE
 from massmodel.core.materials import MaterialError, builtin_materials, material_from_fields
@@ -59,7 +60,8 @@ from .fields import (
     shape_keys,
 )
 from .parts import part_components
-from .reader import ModelFileError, parse_toml, read_toml, read_units
+from .partstream import WholeText, split_part_tables
+from .reader import ModelFileError, parse_toml, read_text, read_toml, read_units
 from .uncertainty import attach_uncertainty
 
 __all__ = ["ModelFileError", "ModelSource", "build_model", "load_model", "loads_model", "load_case_models", "read_source",
@@ -157,8 +159,36 @@ def load_model(path: str | Path, overrides: Mapping[str, str] | None = None, cas
     """
     p = Path(path)
     with _collector_paused():
-        data = resolve_extends(read_toml(p, str(path)), str(path), p.parent, chain=(p.resolve(),))
-        return _build_case(data, label=str(path), base_dir=p.parent, overrides=overrides, case=case)
+        return _load_text(read_text(p, str(path), ModelFileError), str(path), p.parent, overrides, case,
+                          chain=(p.resolve(),))
+
+
+def _load_text(text: str, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None,
+               chain: tuple[Path, ...]) -> Model:
+    """Build the model of a file's text, its ``[[part]]`` tables parsed a batch at a time while the parts are made
+    (:mod:`massmodel.modelfile.partstream`: the parsed TOML and the model are never both whole in memory)."""
+    cut = split_part_tables(text, label)
+    if isinstance(cut, dict):
+        data = cut
+    elif _extends(cut.rest):
+        data = cut.assembled()  # merging with a base file needs every table
+    else:
+        try:
+            rest = resolve_extends(cut.rest, label, base_dir, chain=chain)
+            return _build_case(rest, label=label, base_dir=base_dir, overrides=overrides, case=case,
+                               parts=cut.tables())
+        except WholeText as whole:
+            data = whole.data
+        except UserError:
+            cut.whole()  # a syntax error anywhere in the file is reported first, as when the file is parsed whole
+            raise
+    data = resolve_extends(data, label, base_dir, chain=chain)
+    return _build_case(data, label=label, base_dir=base_dir, overrides=overrides, case=case)
+
+
+def _extends(data: Mapping[str, Any]) -> bool:
+    head = data.get("model")
+    return isinstance(head, dict) and "extends" in head
 
 
 @contextmanager
@@ -184,10 +214,8 @@ def loads_model(
     case: str | None = None,
 ) -> Model:
     """Like :func:`load_model`, from a string (for tests and tools)."""
-    data = parse_toml(text, label)
     with _collector_paused():
-        data = resolve_extends(data, label, Path(base_dir), chain=())
-        return _build_case(data, label=label, base_dir=Path(base_dir), overrides=overrides, case=case)
+        return _load_text(text, label, Path(base_dir), overrides, case, chain=())
 
 
 def load_case_models(path: str | Path, overrides: Mapping[str, str] | None = None) -> dict[str, Model]:
@@ -224,11 +252,12 @@ def _check_override_dimensions(label: str, params: Mapping[str, Any], env: Mappi
 
 
 def _build_case(
-    data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None
+    data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None,
+    parts: Iterator[dict[str, Any]] | None = None,
 ) -> Model:
     """:func:`_build`, naming the load case in any error met while building it."""
     try:
-        return _build(data, label=label, base_dir=base_dir, overrides=overrides, case=case)
+        return _build(data, label=label, base_dir=base_dir, overrides=overrides, case=case, parts=parts)
     except ModelFileError as exc:
         if case is None or case == BASE_CASE or exc.item == f"case '{case}'":
             raise
@@ -236,8 +265,13 @@ def _build_case(
 
 
 def _build(
-    data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None = None
+    data: dict[str, Any], *, label: str, base_dir: Path, overrides: Mapping[str, str] | None, case: str | None = None,
+    parts: Iterator[dict[str, Any]] | None = None,
 ) -> Model:
+    """The model of a file's tables. ``parts``: the ``[[part]]`` tables, when they are not in ``data`` but parsed
+    while they are consumed (:mod:`massmodel.modelfile.partstream`); else those of ``data`` are taken, and each is
+    dropped from ``data`` once its components are made (``data`` is the builder's own: parsed for it, or a copy),
+    so that the parsed TOML and the model are not both whole in memory."""
     unknown = sorted(set(data) - TOP_LEVEL_KEYS)
     if unknown:
         raise ModelFileError(label, f"[{unknown[0]}]", None,
@@ -311,7 +345,7 @@ def _build(
             seen[c.path] = c.origin
             components.append(c)
 
-    for i, table in enumerate(rd.table_list(data, "part")):
+    for i, table in enumerate(_consumed(rd.table_list(data, "part")) if parts is None else parts):
         prd = rd.for_table(table)
         made = part_components(prd, table, i, groups, materials, mirror, frames)
         add(made, prd, f"part '{table['path']}'")
@@ -383,6 +417,13 @@ def _build(
         allowed_contacts=contacts,
         chassis=chassis,
     )
+
+
+def _consumed(tables: list[Any]) -> Iterator[dict[str, Any]]:
+    """The tables of a list, each dropped from the list as it is handed over."""
+    for i in range(len(tables)):
+        table, tables[i] = tables[i], None
+        yield table
 
 
 def _optional(rd: FieldReader, table: Mapping[str, Any], item: str, enclosing: Sequence[GroupFrame]) -> bool:

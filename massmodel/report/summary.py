@@ -6,17 +6,18 @@ lengths in mm and inertia in kg·mm² (:class:`DisplayUnits`); conversion happen
 
 from __future__ import annotations
 
+import itertools
 import json
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, TextIO
 
 import numpy as np
 import numpy.typing as npt
 
 from massmodel.core import cautions
-from massmodel.core.atomic import write_text_atomic
+from massmodel.core.atomic import write_atomic
 from massmodel.core.errors import UsageError
 from massmodel.core.frames import is_orthogonal
 from massmodel.core.massprops import (
@@ -28,15 +29,19 @@ from massmodel.core.massprops import (
 )
 from massmodel.core.model import Maturity, Model
 from massmodel.report.rules import DECIMALS, dict_limit_text, rule_dict
-from massmodel.report.text import DisplayUnits, table
+from massmodel.report.text import DisplayUnits, table, table_lines
 from massmodel.vehicle.balance import ASSUMPTIONS, Balance, check_rules, static_balance
 
 __all__ = [
     "DisplayUnits",
     "InertiaRequest",
+    "ComponentEntries",
     "build_report",
     "format_report",
+    "report_lines",
+    "write_report_text",
     "inertia_about_entry",
+    "json_chunks",
     "json_text",
     "write_json_atomic",
     "CONVENTIONS",
@@ -113,10 +118,16 @@ def _props_dict(mp: MassProperties) -> dict[str, Any]:
     return {"mass_kg": mp.mass, "cg_m": mp.center.tolist(), "inertia_cg_kg_m2": mp.inertia.tolist()}
 
 
-def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) -> dict[str, Any]:
+def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = (), *,
+                 stream: bool = False) -> dict[str, Any]:
     """The full report of a model as plain data (JSON-ready, SI).
 
     ``inertia_requests`` add the whole model's tensor about user points (key ``inertia_about_points``).
+
+    With ``stream=True`` the member ``components`` is a :class:`ComponentEntries` instead of a list: the same
+    dictionaries, made one at a time whenever it is iterated, so that :func:`write_json_atomic` and
+    :func:`write_report_text` write a model of 10⁵ parts without holding one dictionary per part (about 70 MiB)
+    or the whole text. Everything else is the same plain data.
     """
     total = model.mass_properties()
     out: dict[str, Any] = {
@@ -149,33 +160,78 @@ def build_report(model: Model, inertia_requests: Sequence[InertiaRequest] = ()) 
     out["rules"] = [rule_dict(r) for r in check_rules(model)]
     out["rules_passed"] = all(r["passed"] for r in out["rules"])
     out["groups"] = [{"path": g, "parts": n, **_props_dict(mp)} for g, n, mp in model.group_properties()]
-    masses, centers, inertias = model._all_arrays()
+    masses = model._all_arrays()[0]
     maturity = [c.maturity for c in model.components]
     out["maturity_kg"] = {
         m.value: float(masses[[k is m for k in maturity]].sum()) if maturity else 0.0 for m in Maturity
     }
-    # one conversion of the stacked arrays to lists instead of three small ones per component
-    rows = zip(masses.tolist(), centers.tolist(), inertias.tolist(), strict=True)
-    out["components"] = [
-        {
-            "path": c.path,
-            "mass_kg": mass,
-            "cg_m": cg,
-            "inertia_cg_kg_m2": tensor,
-            "volume_m3": c.volume if c.volume > 0 else None,
-            "mass_source": c.source.value,
-            "material": c.material,
-            "density_kg_m3": c.implied_density,
-            "inertia_source": c.inertia_source,
-            "maturity": c.maturity.value,
-            "slot": c.slot,
-            "colour": c.colour,
-        }
-        for c, (mass, cg, tensor) in zip(model.components, rows, strict=True)
-    ]
+    entries = ComponentEntries(model)
+    out["components"] = entries if stream else list(entries)
     out["parameters"] = {k: {"value_si": q.value, "unit": str(q.dim)} for k, q in model.parameters.items()}
     out["cautions"] = cautions.for_report("ballast") if any(c.slot for c in model.components) else cautions.for_report()
     return out
+
+
+#: Components converted from the model's arrays to Python lists per block of this many: one conversion per block
+#: keeps the speed of one per model, and a block's few lists die young (blocks of 4096 left so many of them alive at
+#: each young collection that the cyclic garbage collector went on to full passes over the model: +50 % on the JSON
+#: of 10⁵ parts; the lists of a whole model would take about 75 MiB).
+_BLOCK = 256
+
+
+class ComponentEntries:
+    """The ``components`` of a streamed report (:func:`build_report` with ``stream=True``).
+
+    Iterating yields the dictionary of each component, in the model's order, made from the model's arrays at that
+    moment (one at a time: nothing is kept); ``len()`` is the number of components. ``list(entries)`` is exactly
+    the list that :func:`build_report` gives without streaming.
+    """
+
+    __slots__ = ("model",)
+
+    def __init__(self, model: Model) -> None:
+        self.model = model
+
+    def __len__(self) -> int:
+        return len(self.model.components)
+
+    def __iter__(self) -> Iterator[dict[str, Any]]:
+        masses, centers, inertias = self.model._all_arrays()
+        components = self.model.components
+        for start in range(0, len(components), _BLOCK):
+            stop = start + _BLOCK
+            # one conversion of a block of the stacked arrays to lists instead of three small ones per component
+            rows = zip(masses[start:stop].tolist(), centers[start:stop].tolist(), inertias[start:stop].tolist(),
+                       strict=True)
+            for c, (mass, cg, tensor) in zip(components[start:stop], rows, strict=True):
+                yield {
+                    "path": c.path,
+                    "mass_kg": mass,
+                    "cg_m": cg,
+                    "inertia_cg_kg_m2": tensor,
+                    "volume_m3": c.volume if c.volume > 0 else None,
+                    "mass_source": c.source.value,
+                    "material": c.material,
+                    "density_kg_m3": c.implied_density,
+                    "inertia_source": c.inertia_source,
+                    "maturity": c.maturity.value,
+                    "slot": c.slot,
+                    "colour": c.colour,
+                }
+
+    def brief(self) -> Iterator[tuple[str, float, str, str, list[float]]]:
+        """(path, mass_kg, mass_source, maturity, cg_m) of each component: the members the terminal table shows, the
+        same values as in the dictionaries, without making them."""
+        masses, centers, _ = self.model._all_arrays()
+        components = self.model.components
+        for start in range(0, len(components), _BLOCK):
+            stop = start + _BLOCK
+            rows = zip(components[start:stop], masses[start:stop].tolist(), centers[start:stop].tolist(), strict=True)
+            for c, mass, cg in rows:
+                yield c.path, mass, c.source.value, c.maturity.value, cg
+
+    def __repr__(self) -> str:
+        return f"<ComponentEntries of {self.model.name!r}: {len(self)} components, made when iterated>"
 
 
 def _balance_dict(bal: Balance) -> dict[str, Any]:
@@ -203,24 +259,50 @@ def json_text(data: Any) -> str:
     The members of the top-level object and of the objects in it go one per line, a list of objects (components,
     groups, rules) one element per line, and everything deeper is compact. Only the standard library's C encoder
     is used (indented output would take the slow pure-Python one: seconds for a model of 10,000 components). NaN
-    and infinities are refused (ValueError).
+    and infinities are refused (ValueError). The text is the concatenation of :func:`json_chunks`.
     """
+    return "".join(json_chunks(data))
+
+
+def json_chunks(data: Any) -> Iterator[str]:
+    """The text of :func:`json_text` in pieces (at most one element of a list of objects each), for writing a
+    large report without holding its text; a :class:`ComponentEntries` is written as the list it stands for."""
     return _layout(data, 0)
 
 
-def _layout(value: Any, depth: int) -> str:
+def _layout(value: Any, depth: int) -> Iterator[str]:
     pad, inner = "  " * depth, "  " * (depth + 1)
     if isinstance(value, dict) and value and depth < 2:
-        members = (f"{inner}{json.dumps(str(k))}: {_layout(v, depth + 1)}" for k, v in value.items())
-        return "{\n" + ",\n".join(members) + "\n" + pad + "}"
-    if isinstance(value, list) and value and depth < 2 and all(isinstance(v, dict) for v in value):
-        return "[\n" + ",\n".join(inner + json.dumps(v, allow_nan=False) for v in value) + "\n" + pad + "]"
-    return json.dumps(value, allow_nan=False)
+        sep = "{\n"
+        for k, v in value.items():
+            yield f"{sep}{inner}{json.dumps(str(k))}: "
+            yield from _layout(v, depth + 1)
+            sep = ",\n"
+        yield "\n" + pad + "}"
+    elif isinstance(value, ComponentEntries) and depth < 2 or (
+            isinstance(value, list) and value and depth < 2 and all(isinstance(v, dict) for v in value)):
+        sep = "[\n"
+        for v in value:
+            yield sep + inner + json.dumps(v, allow_nan=False)
+            sep = ",\n"
+        yield "[]" if sep == "[\n" else "\n" + pad + "]"
+    else:
+        yield json.dumps(list(value) if isinstance(value, ComponentEntries) else value, allow_nan=False)
 
 
 def write_json_atomic(data: Any, path: str | Path) -> None:
-    """Write JSON (:func:`json_text`) to ``path`` through a temporary file and a rename (never half-written)."""
-    write_text_atomic(path, json_text(data) + "\n")
+    """Write JSON (:func:`json_text`) to ``path`` through a temporary file and a rename (never half-written).
+
+    The text goes into the temporary file piece by piece (:func:`json_chunks`), so a streamed report
+    (``build_report(..., stream=True)``) is never held whole in memory.
+    """
+
+    def write(tmp: Path) -> None:
+        with open(tmp, "w", encoding="utf-8") as out:
+            out.writelines(json_chunks(data))
+            out.write("\n")
+
+    write_atomic(path, write)
 
 
 # --- terminal text -------------------------------------------------------------------------------------------
@@ -243,22 +325,45 @@ def _tensor_lines(tensor: Any, scale: float, digits: int) -> list[str]:
 
 def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI, components: bool = True) -> str:
     """Readable text of a report built by :func:`build_report`."""
+    return "\n".join(report_lines(report, units, components))
+
+
+def write_report_text(report: dict[str, Any], stream: TextIO, units: DisplayUnits = DisplayUnits.SI,
+                      components: bool = True) -> None:
+    """Write :func:`format_report`'s text and a final newline to a text stream line by line (what ``print`` of
+    the text writes, without holding the text of a model of 10⁵ parts)."""
+    lines = report_lines(report, units, components)
+    while block := list(itertools.islice(lines, 2048)):  # a few writes of joined lines, not one per line
+        stream.write("\n".join(block) + "\n")
+
+
+def report_lines(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
+                 components: bool = True) -> Iterator[str]:
+    """The lines of :func:`format_report`, one at a time (the component table's cells are made first, for the
+    widths of its columns)."""
     lu, ls = units.length
     iu, isc = units.inertia
     ld = 1 if units is DisplayUnits.MM else 4
     idg = 0 if units is DisplayUnits.MM else 4
+    # lines gathered between the streamed parts (an entry may be a table of several lines, joined by newlines)
     out: list[str] = []
     case = f" · load case {report['case']}" if report.get("case", "base") != "base" else ""
     out.append(f"massmodel report · {report['model']}{case}   ({report['source']})")
     out.append(f"frame: model axes · inertia about the CG, tensor convention (I_xy = -∫xy dm) · lengths {lu}")
     out.append("")
     if components:
-        rows = [
-            [c["path"], _num(c["mass_kg"], ".3f"), c["mass_source"], c["maturity"], _vec(c["cg_m"], ls, ld)]
-            for c in report["components"]
-        ]
-        out.append(f"COMPONENT BUDGET ({len(rows)} parts)")
-        out.append(table(["path", "mass kg", "source", "maturity", f"CG {lu}"], rows, "lrllr"))
+        entries = report["components"]
+        brief = entries.brief() if isinstance(entries, ComponentEntries) else (
+            (c["path"], c["mass_kg"], c["mass_source"], c["maturity"], c["cg_m"]) for c in entries)
+        # tuples of text, which the cyclic garbage collector stops tracking (lists of 10^5 rows would set off full
+        # collections over the whole model)
+        cells = [(path, _num(mass, ".3f"), source, maturity, _vec(cg, ls, ld))
+                for path, mass, source, maturity, cg in brief]
+        out.append(f"COMPONENT BUDGET ({len(cells)} parts)")
+        yield from out
+        out.clear()
+        yield from table_lines(["path", "mass kg", "source", "maturity", f"CG {lu}"], cells, "lrllr")
+        del cells
         out.append("")
     top = [g for g in report["groups"] if "/" not in g["path"]]
     rows = [[g["path"], str(g["parts"]), f"{g['mass_kg']:.3f}",
@@ -331,4 +436,4 @@ def format_report(report: dict[str, Any], units: DisplayUnits = DisplayUnits.SI,
     out.append("")
     out.append("CAUTIONS")
     out.extend(f"  - {line}" for line in report["cautions"])
-    return "\n".join(out)
+    yield from out

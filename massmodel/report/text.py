@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import enum
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 
-__all__ = ["DisplayUnits", "table"]
+__all__ = ["DisplayUnits", "table", "table_lines"]
 
 
 class DisplayUnits(enum.Enum):
@@ -25,10 +25,18 @@ class DisplayUnits(enum.Enum):
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | None = None) -> str:
     """A plain fixed-width table: header, a rule of '─', rows. ``align`` has one 'l' or 'r' per column."""
+    return "\n".join(table_lines(headers, rows, align))
+
+
+def table_lines(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str | None = None) -> Iterator[str]:
+    """The lines of :func:`table`, one at a time (a table of 10⁵ rows is not held as one text)."""
     align = align or "l" + "r" * (len(headers) - 1)
     widths = [max(len(str(h)), *(len(str(r[i])) for r in rows)) if rows else len(str(h)) for i, h in enumerate(headers)]
 
     def line(cells: Sequence[str]) -> str:
         return "  ".join(str(c).ljust(w) if a == "l" else str(c).rjust(w) for c, w, a in zip(cells, widths, align, strict=True)).rstrip()
 
-    return "\n".join([line(headers), "  ".join("─" * w for w in widths), *(line(r) for r in rows)])
+    yield line(headers)
+    yield "  ".join("─" * w for w in widths)
+    for r in rows:
+        yield line(r)
