@@ -90,8 +90,26 @@ def _mesh_volume(vertices: FloatArray, faces: IntArray) -> float:
     return float(np.einsum("ij,ij->i", a, np.cross(b, c)).sum() / 6.0)
 
 
-def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0) -> IntArray:
-    """Vertex index pairs (E, 2) of the edges whose two faces meet at more than ``angle_deg`` (or are open)."""
+def _row_ids(keys: IntArray) -> IntArray:
+    """Rank of each row of ``keys`` (K, C) among the distinct rows sorted lexicographically (as
+    ``np.unique(keys, axis=0, return_inverse=True)`` numbers them, with one sort of the columns)."""
+    order = np.lexsort(keys.T[::-1])
+    ranked = keys[order]
+    new = np.ones(len(keys), np.int64)
+    new[0] = 0
+    new[1:] = np.any(ranked[1:] != ranked[:-1], axis=1)
+    ids = np.empty(len(keys), np.int64)
+    ids[order] = np.cumsum(new)
+    return ids
+
+
+def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0,
+                vertex_owner: IntArray | None = None) -> IntArray:
+    """Vertex index pairs (E, 2) of the edges whose two faces meet at more than ``angle_deg`` (or are open).
+
+    ``vertex_owner`` (V,) int, optional: the part of each vertex when ``vertices`` hold many parts' meshes; vertices
+    of different parts are never welded, so the result is each part's own edges (in part order).
+    """
     if len(faces) == 0:
         return np.zeros((0, 2), np.int64)
     a, b, c = (vertices[faces[:, k]] for k in range(3))
@@ -102,8 +120,9 @@ def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0) 
     face_of = np.tile(np.arange(len(faces)), 3)
     # weld coincident vertices (meshes may duplicate seams) before pairing edges
     keys = np.round(vertices / 1e-7).astype(np.int64)
-    _, weld = np.unique(keys, axis=0, return_inverse=True)
-    weld = weld.reshape(-1)
+    if vertex_owner is not None:
+        keys = np.column_stack([np.asarray(vertex_owner, np.int64), keys])
+    weld = _row_ids(keys)
     we = np.sort(weld[e], axis=1)
     order = np.lexsort((we[:, 1], we[:, 0]))
     we, e, face_of = we[order], e[order], face_of[order]

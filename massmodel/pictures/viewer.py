@@ -266,28 +266,50 @@ def principal_axis_factor(scene: Scene) -> float:
     return 0.125
 
 
-def _view_props(scene: Scene, cam: ViewCamera | None) -> list[Prop]:
-    """Actors that change with the view: parts (opaque and see-through), outlines, layer-1 marks, the CG."""
+def _part_props(scene: Scene, parts: npt.NDArray[np.int64], opacity: float) -> list[Prop]:
+    """Layer-0 actors of some parts: one mesh with per-cell colours and its outlines (ink, or grey when the parts
+    are see-through)."""
     from . import vtkbits as vb
 
     out: list[Prop] = []
-    clear = _split_for_view(scene, cam) if cam is not None else _split_interactive(scene)
-    for mask, opacity in ((~clear, 1.0), (clear, TRANSLUCENT_OPACITY)):
-        if mask.any():
-            poly = vb.polydata(scene.vertices, scene.faces[mask], scene.part_colours[scene.owner[mask]])
-            out.append((0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62)))
-    e_clear = np.isin(scene.edge_owner, np.unique(scene.owner[clear]))
-    if (~e_clear).any():
-        out.append((0, vb.actor(vb.lines(scene.edges[~e_clear]), INK, lighting=False)))
-    if e_clear.any():
-        out.append((0, vb.actor(vb.lines(scene.edges[e_clear]), "#9aa1a6", opacity=0.6, lighting=False)))
-    px = 1.0 / cam.scale if cam is not None else 0.004
+    if len(parts) == 0:
+        return out
+    faces = scene.part_faces(parts)
+    if len(faces):
+        poly = vb.polydata(scene.vertices, scene.faces[faces], scene.part_colours[scene.owner[faces]])
+        out.append((0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62)))
+    every = len(parts) == len(scene.model.components)
+    edges = scene.edges if every else scene.edges[np.isin(scene.edge_owner, parts)]
+    if len(edges):
+        if opacity < 1.0:
+            out.append((0, vb.actor(vb.lines(edges), "#9aa1a6", opacity=0.6, lighting=False)))
+        else:
+            out.append((0, vb.actor(vb.lines(edges), INK, lighting=False)))
+    return out
+
+
+def _fixed_marks(scene: Scene) -> list[Prop]:
+    """Layer-1 actors that do not change with the view: slot envelopes and ballast outlines."""
+    from . import vtkbits as vb
+
+    out: list[Prop] = []
     for _name, edges in scene.slot_edges:
         out.append((1, vb.actor(vb.lines(edges), SLOT_COLOUR, line_width=2.0, lighting=False)))
     if scene.ballast:
         mask = np.isin(scene.edge_owner, scene.ballast)
         if mask.any():
             out.append((1, vb.actor(vb.lines(scene.edges[mask]), BALLAST_COLOUR, line_width=3.0, lighting=False)))
+    return out
+
+
+def _view_props(scene: Scene, cam: ViewCamera | None, changing: npt.NDArray[np.int64],
+                clear: npt.NDArray[np.int64]) -> list[Prop]:
+    """Actors that change with the view: the parts that are see-through in some view (``changing``), drawn
+    see-through where they are in ``clear``; the principal axes, group CG markers and the CG (sized in pixels)."""
+    from . import vtkbits as vb
+
+    out = _part_props(scene, np.setdiff1d(changing, clear), 1.0) + _part_props(scene, clear, TRANSLUCENT_OPACITY)
+    px = 1.0 / cam.scale if cam is not None else 0.004
     if scene.options.principal_axes and scene.mass > 0:
         f = principal_axis_factor(scene)
         seg = [[scene.cg - f * r * a, scene.cg + f * r * a] for a, r in zip(scene.axes, scene.radii, strict=True)]
@@ -311,52 +333,55 @@ def _targets(scene: Scene, cam: ViewCamera) -> list[FloatArray]:
     disc = scene.cg + r * (np.cos(ang)[:, None] * cam.right + np.sin(ang)[:, None] * cam.up)
     targets = [np.vstack([scene.cg, disc])]
     for i in scene.ballast:
-        v = scene.vertices[np.unique(scene.faces[scene.owner == i])]
+        v = scene.vertices[np.unique(scene.faces[scene.part_faces([i])])]
         c = 0.5 * (v.min(axis=0) + v.max(axis=0))
         targets.append(np.vstack([c, c + 0.6 * (v[:: max(1, len(v) // 12)] - c)]))
     return targets
 
 
-def _split_for_view(scene: Scene, cam: ViewCamera) -> npt.NDArray[np.bool_]:
-    """Face mask of the parts drawn see-through in this view (they hide the CG or a ballast block)."""
+def see_through(scene: Scene, cam: ViewCamera) -> npt.NDArray[np.int64]:
+    """Components drawn see-through in this view (sorted): the parts that hide the CG or a ballast block."""
     targets = _targets(scene, cam)
     hidden = hidden_by(scene, cam.toward, targets[:1])
     if len(targets) > 1:
         hidden |= hidden_by(scene, cam.toward, targets[1:], skip=scene.ballast)
     hidden -= set(scene.ballast)
-    return np.isin(scene.owner, sorted(hidden))
-
-
-def _split_interactive(scene: Scene) -> npt.NDArray[np.bool_]:
-    """For the interactive window: parts hiding the CG from the isometric direction are see-through."""
-    return _split_for_view(scene, view_camera(scene, "iso", 1200, 800))
+    return np.array(sorted(hidden), np.int64)
 
 
 class _Stage:
     """A render window with three layers, re-filled and re-aimed for every view.
 
+    The parts that are opaque in every view to be drawn go into one actor made once (with their outlines), so the
+    renderer uploads that large mesh once for all views; only the few parts that are see-through in some view
+    (``changing``) and the marks sized in pixels are made again for each view.
+
     Off-screen it is a bare VTK window (fast to start); for the interactive window it borrows a pyvista
     plotter's window and renderer.
     """
 
-    def __init__(self, scene: Scene, size: tuple[int, int], plotter: Any = None) -> None:
+    def __init__(self, scene: Scene, size: tuple[int, int], changing: npt.NDArray[np.int64],
+                 plotter: Any = None) -> None:
         from . import vtkbits as vb
 
         self.scene = scene
+        self.changing = np.asarray(changing, np.int64)
         if plotter is None:
             self.window, base = vb.offscreen_window(size[0], size[1], PANEL_BACKGROUND)
         else:
             self.window, base = plotter.ren_win, plotter.renderer
         self.layers = [base, vb.layer_renderer(self.window, base, 1), vb.layer_renderer(self.window, base, 2)]
-        for layer, act in _static_props(scene):
+        steady = np.setdiff1d(np.arange(len(scene.model.components)), self.changing)
+        for layer, act in _static_props(scene) + _part_props(scene, steady, 1.0) + _fixed_marks(scene):
             self.layers[layer].AddActor(act)
         self._view_actors: list[Prop] = []
 
-    def fill(self, cam: ViewCamera | None) -> None:
-        """Put in the view-dependent actors for camera ``cam`` (None: the interactive view)."""
+    def fill(self, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> None:
+        """Put in the view-dependent actors for camera ``cam`` (None: the interactive view), with the parts
+        ``clear`` (a subset of ``changing``) see-through."""
         for layer, act in self._view_actors:
             self.layers[layer].RemoveActor(act)
-        self._view_actors = _view_props(self.scene, cam)
+        self._view_actors = _view_props(self.scene, cam, self.changing, clear)
         for layer, act in self._view_actors:
             self.layers[layer].AddActor(act)
 
@@ -386,12 +411,14 @@ class _Stage:
 @dataclass(frozen=True, slots=True)
 class RenderedView:
     """One rendered view: its camera, the RGB image (H, W, 3) uint8 and VTK's composite projection matrix
-    (model coordinates → normalised device coordinates) of the camera it was drawn with."""
+    (model coordinates → normalised device coordinates) of the camera it was drawn with; ``seconds`` the time spent
+    drawing it (actors, render, pixels), ``ray_seconds`` its share of the see-through ray tests, s."""
 
     camera: ViewCamera
     image: npt.NDArray[np.uint8]
     vtk_matrix: FloatArray
     seconds: float
+    ray_seconds: float = 0.0
 
 
 def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedView]:
@@ -399,18 +426,22 @@ def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedVi
     if not cameras:
         return []
     first = cameras[0]
-    stage = _Stage(scene, (first.width, first.height))
+    t0 = time.perf_counter()
+    clear = [see_through(scene, cam) for cam in cameras]  # all views' ray tests first: they fix the static actor
+    t_rays = (time.perf_counter() - t0) / len(cameras)
+    changing = np.unique(np.concatenate(clear)).astype(np.int64)
+    stage = _Stage(scene, (first.width, first.height), changing)
     out = []
     try:
-        for cam in cameras:
+        for cam, see in zip(cameras, clear, strict=True):
             t0 = time.perf_counter()
-            stage.fill(cam)
+            stage.fill(cam, see)
             stage.aim(cam)
             img = stage.snap()
             if img.shape[:2] != (cam.height, cam.width):
                 raise OSError(f"the renderer returned a {img.shape[1]}x{img.shape[0]} image for a "
                               f"{cam.width}x{cam.height} view")
-            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0))
+            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0, t_rays))
     finally:
         stage.close()
     return out
@@ -447,8 +478,9 @@ def show_interactive(
 
     pl = pv.Plotter(off_screen=off_screen, window_size=list(window_size), lighting="light kit")
     pl.set_background(PANEL_BACKGROUND)  # type: ignore[arg-type]  # pyvista's decorator hides the signature
-    stage = _Stage(scene, window_size, plotter=pl)
-    stage.fill(None)
+    clear = see_through(scene, view_camera(scene, "iso", 1200, 800))  # parts hiding the CG seen from the iso view
+    stage = _Stage(scene, window_size, clear, plotter=pl)
+    stage.fill(None, clear)
     pl.add_text("\n".join(title_lines), position="upper_left", font_size=10, color=INK)
     entries = [[f"{e.label}" + (f"  {e.mass:.1f} kg" if e.mass is not None else ""), e.colour] for e in scene.legend]
     if entries:

@@ -238,6 +238,7 @@ def grab(window: Any) -> npt.NDArray[np.uint8]:
     window.Render()
     f = vtkWindowToImageFilter()
     f.SetInput(window)
+    f.ShouldRerenderOff()  # just rendered: a second render would double the time of a large view
     f.SetInputBufferTypeToRGB()
     f.ReadFrontBufferOff()
     f.Update()
