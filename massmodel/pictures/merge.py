@@ -31,7 +31,7 @@ from massmodel.core import geometry as geo
 from massmodel.core.model import Model
 from massmodel.core.shapes import Box, PointMass, RevolvedShape, Shape, Sphere
 
-from .meshes import part_mesh, sharp_edges
+from .meshes import part_mesh, sharp_edges_and_faces
 
 __all__ = ["MergedParts", "merge_parts", "bulk_meshes", "gather_ranges"]
 
@@ -55,7 +55,8 @@ class MergedParts:
     face_start : (N + 1,) int
         Faces of component i are ``faces[face_start[i]:face_start[i + 1]]``.
     edges : (E, 2, 3) float
-        Sharp edges, m; ``edge_owner`` (E,) their components.
+        Sharp edges, m; ``edge_owner`` (E,) their components; ``edge_index`` (E, 2) their vertices and
+        ``edge_faces`` (E, 2) the two faces meeting there (-1 for the second face of an open edge).
     part_boxes : (N, 2, 3) float
         Low and high corners of each part's placed mesh, m.
     points : list of int
@@ -73,6 +74,8 @@ class MergedParts:
     edges: FloatArray
     edge_owner: IntArray
     part_boxes: FloatArray
+    edge_index: IntArray | None = None
+    edge_faces: IntArray | None = None
     points: list[int] = field(default_factory=list)
     fallback: list[str] = field(default_factory=list)
     templates: int = 0
@@ -101,7 +104,9 @@ def _revolve_signature(shape: RevolvedShape, tol: float) -> tuple[tuple[Any, ...
     curved = any(isinstance(seg, geo.ProfileArc) for seg in profile)
     profile_tol = 0.5 * tol if curved else tol
     around_tol = tol - profile_tol if curved else tol
-    loop = np.concatenate([seg.points(seg.chords(profile_tol))[:-1] for seg in profile], axis=0)
+    # a straight edge is one chord: its only loop point is its start (ProfileLine.points(1)[:-1])
+    loop = np.concatenate([[seg.start] if isinstance(seg, geo.ProfileLine) else seg.points(seg.chords(profile_tol))[:-1]
+                           for seg in profile], axis=0)
     n = geo.segments_for_arc(float(loop[:, 0].max()), 2.0 * math.pi, around_tol)
     return (n, tuple((loop[:, 0] == 0.0).tolist())), loop
 
@@ -225,11 +230,13 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
     vertex_tmpl = np.repeat(np.arange(len(tv)), nv)
 
     # sharp edges of every template at once (none for the point-mass spheres)
-    edge_f = all_f[np.repeat(np.arange(len(tf)), nf) != point_tmpl]
-    all_e = sharp_edges(all_v, edge_f, vertex_owner=vertex_tmpl)
+    face_tmpl = np.repeat(np.arange(len(tf)), nf)
+    edged = np.flatnonzero(face_tmpl != point_tmpl)
+    all_e, e_faces = sharp_edges_and_faces(all_v, all_f[edged], vertex_owner=vertex_tmpl)
+    e_faces = np.where(e_faces >= 0, edged[e_faces], -1)  # template faces, as indices into all_f
     e_tmpl = vertex_tmpl[all_e[:, 0]]
     order = np.argsort(e_tmpl, kind="stable")
-    all_e, e_tmpl = all_e[order], e_tmpl[order]
+    all_e, e_tmpl, e_faces = all_e[order], e_tmpl[order], e_faces[order]
     ne = np.bincount(e_tmpl, minlength=len(tv)).astype(np.int64)
     e_start = np.cumsum(ne) - ne
 
@@ -258,6 +265,8 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
     src_e = gather_ranges(e_start[tmpl_of], ec)
     inst_e = np.repeat(np.arange(n), ec)
     edge_idx = all_e[src_e] + (out_v_start - v_start[tmpl_of])[inst_e][:, None]
+    face_shift = (np.cumsum(fc) - fc - (np.cumsum(nf) - nf)[tmpl_of])[inst_e][:, None]
+    edge_faces = np.where(e_faces[src_e] >= 0, e_faces[src_e] + face_shift, -1)
 
     boxes = np.zeros((n, 2, 3))
     has = vc > 0
@@ -271,6 +280,8 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
         owner=inst_f.astype(np.int64),
         face_start=face_start,
         edges=vertices[edge_idx] if len(edge_idx) else np.zeros((0, 2, 3)),
+        edge_index=edge_idx,
+        edge_faces=edge_faces,
         edge_owner=inst_e.astype(np.int64),
         part_boxes=boxes,
         points=[i for i in range(n) if tmpl_of[i] == point_tmpl],

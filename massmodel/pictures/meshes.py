@@ -14,7 +14,7 @@ import numpy.typing as npt
 
 from massmodel.core.model import Component
 
-__all__ = ["part_mesh", "place_mesh", "sharp_edges"]
+__all__ = ["part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces"]
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
@@ -110,8 +110,14 @@ def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0,
     ``vertex_owner`` (V,) int, optional: the part of each vertex when ``vertices`` hold many parts' meshes; vertices
     of different parts are never welded, so the result is each part's own edges (in part order).
     """
+    return sharp_edges_and_faces(vertices, faces, angle_deg, vertex_owner)[0]
+
+
+def sharp_edges_and_faces(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0,
+                          vertex_owner: IntArray | None = None) -> tuple[IntArray, IntArray]:
+    """:func:`sharp_edges` and the two faces (E, 2) that meet at each edge (-1 as the second of an open edge)."""
     if len(faces) == 0:
-        return np.zeros((0, 2), np.int64)
+        return np.zeros((0, 2), np.int64), np.zeros((0, 2), np.int64)
     a, b, c = (vertices[faces[:, k]] for k in range(3))
     normals = np.cross(b - a, c - a)
     norms = np.linalg.norm(normals, axis=1)
@@ -123,19 +129,23 @@ def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0,
     if vertex_owner is not None:
         keys = np.column_stack([np.asarray(vertex_owner, np.int64), keys])
     weld = _row_ids(keys)
-    we = np.sort(weld[e], axis=1)
-    order = np.lexsort((we[:, 1], we[:, 0]))
-    we, e, face_of = we[order], e[order], face_of[order]
-    same = np.all(we[1:] == we[:-1], axis=1)
-    keep = np.ones(len(we), bool)
+    ends = weld[e]
+    lo, hi = ends.min(axis=1), ends.max(axis=1)
+    key = lo * (int(weld.max()) + 1) + hi  # one integer a welded edge, ordered as (lo, hi)
+    order = np.argsort(key, kind="stable")
+    key, lo, hi, e, face_of = key[order], lo[order], hi[order], e[order], face_of[order]
+    same = key[1:] == key[:-1]
+    keep = np.ones(len(key), bool)
     # a pair (i, i+1) with the same key is one interior edge: keep the first only when sharp
     pair = np.flatnonzero(same)
     cosang = np.einsum("ij,ij->i", normals[face_of[pair]], normals[face_of[pair + 1]])
     sharp = cosang < math.cos(math.radians(angle_deg))
     keep[pair + 1] = False
     keep[pair[~sharp]] = False
-    degenerate = we[:, 0] == we[:, 1]
-    return e[keep & ~degenerate]
+    keep &= lo != hi  # a degenerate edge (both ends welded together) is no edge
+    partner = np.full(len(key), -1, np.int64)
+    partner[pair] = face_of[pair + 1]
+    return e[keep], np.column_stack([face_of, partner])[keep]
 
 
 def place_mesh(vertices: FloatArray, faces: IntArray, component: Component) -> tuple[FloatArray, IntArray]:

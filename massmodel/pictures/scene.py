@@ -164,6 +164,12 @@ class Scene:
         Sharp edges of the parts (dihedral angle above 30°), m, drawn as ink outlines.
     edge_owner : (E,) int
         Component of each edge.
+    part_boxes : (N, 2, 3) float or None
+        Low and high corners of each part's mesh, m (see :meth:`boxes`).
+    face_start : (N + 1,) int or None
+        Faces of component i are ``faces[face_start[i]:face_start[i + 1]]`` (see :meth:`part_faces`).
+    edge_faces : (E, 2) int or None
+        The two faces meeting at each edge (-1 as the second of an open edge).
     ballast : list of int
         Components that name a slot.
     slot_edges : list of (str, (K, 2, 3) float)
@@ -206,8 +212,10 @@ class Scene:
     fallback_parts: list[str] = field(default_factory=list)
     part_boxes: FloatArray | None = None
     face_start: IntArray | None = None
+    edge_faces: IntArray | None = None
     mesh_seconds: float = 0.0
     _extent: tuple[FloatArray, FloatArray] | None = field(default=None, init=False, repr=False)
+    _normals: FloatArray | None = field(default=None, init=False, repr=False)
 
     @property
     def forward(self) -> FloatArray:
@@ -229,7 +237,7 @@ class Scene:
             pts = [self.vertices, self.cg[None, :]]
             if self.contact_points is not None:
                 pts.append(self.contact_points)
-            local = np.vstack(pts) @ self.basis.T
+            local = np.einsum("ij,kj->ik", np.vstack(pts), self.basis)  # (numpy's matmul is slow for 3 columns)
             low, high = local.min(axis=0), local.max(axis=0)
             if self.ground is not None:
                 low[2] = min(low[2], self.ground)
@@ -245,6 +253,13 @@ class Scene:
                 boxes[i] = v.min(axis=0), v.max(axis=0)
             self.part_boxes = boxes
         return self.part_boxes
+
+    def face_normals(self) -> FloatArray:
+        """(F, 3) outward normal of each face (not normalised: length twice the face's area, m²), made once."""
+        if self._normals is None:
+            a, b, c = (self.vertices[self.faces[:, k]] for k in range(3))
+            self._normals = np.cross(b - a, c - a)
+        return self._normals
 
     def part_faces(self, parts: Sequence[int] | npt.NDArray[np.int64]) -> IntArray:
         """Indices of the faces of the given components."""
@@ -482,6 +497,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
         fallback_parts=merged.fallback,
         part_boxes=merged.part_boxes,
         face_start=merged.face_start,
+        edge_faces=merged.edge_faces,
     )
     scene.mesh_seconds = time.perf_counter() - t0
     return scene
@@ -539,7 +555,7 @@ def hidden_by(scene: Scene, toward_camera: FloatArray, targets: Sequence[FloatAr
     # first the parts, by their boxes (8 corners each, in view coordinates), then only the candidates' faces
     boxes = scene.boxes()
     corners = np.stack([boxes[:, [i, j, k], [0, 1, 2]] for i in (0, 1) for j in (0, 1) for k in (0, 1)], axis=1)
-    part_view = corners @ frame  # (N, 8, 3)
+    part_view = np.einsum("nkj,ji->nki", corners, frame)  # (N, 8, 3)
     part_lo, part_hi = part_view.min(axis=1), part_view.max(axis=1)
     hidden: set[int] = set()
     skip_set = set(skip)
@@ -552,7 +568,7 @@ def hidden_by(scene: Scene, toward_camera: FloatArray, targets: Sequence[FloatAr
         if not len(parts):
             continue
         faces = scene.part_faces(parts)
-        tri_view = scene.vertices[scene.faces[faces]] @ frame  # (F, 3, 3)
+        tri_view = np.einsum("fkj,ji->fki", scene.vertices[scene.faces[faces]], frame)  # (F, 3, 3)
         cand = faces[_in_front(tri_view.min(axis=1), tri_view.max(axis=1), box_lo, box_hi)]
         for start in range(0, len(cand), 4000):
             chunk = cand[start : start + 4000]

@@ -266,26 +266,52 @@ def principal_axis_factor(scene: Scene) -> float:
     return 0.125
 
 
-def _part_props(scene: Scene, parts: npt.NDArray[np.int64], opacity: float) -> list[Prop]:
-    """Layer-0 actors of some parts: one mesh with per-cell colours and its outlines (ink, or grey when the parts
-    are see-through)."""
+def _faces_prop(scene: Scene, faces: npt.NDArray[np.int64], opacity: float) -> list[Prop]:
+    """A layer-0 actor of some faces: one mesh with the per-cell colours of their parts."""
     from . import vtkbits as vb
 
-    out: list[Prop] = []
-    if len(parts) == 0:
-        return out
-    faces = scene.part_faces(parts)
-    if len(faces):
-        poly = vb.polydata(scene.vertices, scene.faces[faces], scene.part_colours[scene.owner[faces]])
-        out.append((0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62)))
-    every = len(parts) == len(scene.model.components)
-    edges = scene.edges if every else scene.edges[np.isin(scene.edge_owner, parts)]
-    if len(edges):
-        if opacity < 1.0:
-            out.append((0, vb.actor(vb.lines(edges), "#9aa1a6", opacity=0.6, lighting=False)))
-        else:
-            out.append((0, vb.actor(vb.lines(edges), INK, lighting=False)))
-    return out
+    if len(faces) == 0:
+        return []
+    poly = vb.polydata(scene.vertices, scene.faces[faces], scene.part_colours[scene.owner[faces]])
+    return [(0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62))]
+
+
+def _edges_prop(scene: Scene, edges: npt.NDArray[np.int64], see_through: bool) -> list[Prop]:
+    """A layer-0 actor of some outline edges: ink, or light grey on see-through parts."""
+    from . import vtkbits as vb
+
+    if len(edges) == 0:
+        return []
+    if see_through:
+        return [(0, vb.actor(vb.lines(scene.edges[edges]), "#9aa1a6", opacity=0.6, lighting=False))]
+    return [(0, vb.actor(vb.lines(scene.edges[edges]), INK, lighting=False))]
+
+
+def facing_parts(scene: Scene, cam: ViewCamera | None,
+                 clear: npt.NDArray[np.int64]) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int64]]:
+    """Faces and outline edges drawn opaque in a view: those of the parts not in ``clear`` that can be seen.
+
+    A part's mesh is closed with its faces outward, so in a parallel view a face turned away from the camera
+    (outward normal · toward < 0) lies behind the part's own front faces and is never seen, nor is an edge
+    between two such faces: leaving them out halves what the renderer draws. Edge-on faces, open edges and
+    every face of the interactive view (``cam`` None, turned by the user) are kept.
+
+    Returns
+    -------
+    faces, edges : (K,) int
+        Indices into ``scene.faces`` and ``scene.edges``.
+    """
+    face_on = np.ones(len(scene.faces), bool)
+    if cam is not None:
+        face_on = scene.face_normals() @ np.asarray(cam.toward, float) >= 0.0
+    edge_on = np.ones(len(scene.edges), bool)
+    if cam is not None and scene.edge_faces is not None and len(scene.edges):
+        ef = scene.edge_faces
+        edge_on = face_on[ef[:, 0]] | (ef[:, 1] < 0) | face_on[np.maximum(ef[:, 1], 0)]
+    if len(clear):
+        face_on[scene.part_faces(clear)] = False
+        edge_on &= ~np.isin(scene.edge_owner, clear)
+    return np.flatnonzero(face_on), np.flatnonzero(edge_on)
 
 
 def _fixed_marks(scene: Scene) -> list[Prop]:
@@ -302,13 +328,16 @@ def _fixed_marks(scene: Scene) -> list[Prop]:
     return out
 
 
-def _view_props(scene: Scene, cam: ViewCamera | None, changing: npt.NDArray[np.int64],
-                clear: npt.NDArray[np.int64]) -> list[Prop]:
-    """Actors that change with the view: the parts that are see-through in some view (``changing``), drawn
-    see-through where they are in ``clear``; the principal axes, group CG markers and the CG (sized in pixels)."""
+def _view_props(scene: Scene, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> list[Prop]:
+    """Actors that change with the view: the parts that face the camera (opaque; :func:`facing_parts`), the parts
+    in ``clear`` (see-through, every face), their outlines, and the principal axes, group CG markers and the CG
+    (sized in pixels)."""
     from . import vtkbits as vb
 
-    out = _part_props(scene, np.setdiff1d(changing, clear), 1.0) + _part_props(scene, clear, TRANSLUCENT_OPACITY)
+    faces, edges = facing_parts(scene, cam, clear)
+    out = _faces_prop(scene, faces, 1.0) + _faces_prop(scene, scene.part_faces(clear), TRANSLUCENT_OPACITY)
+    out += _edges_prop(scene, edges, False)
+    out += _edges_prop(scene, np.flatnonzero(np.isin(scene.edge_owner, clear)), True)
     px = 1.0 / cam.scale if cam is not None else 0.004
     if scene.options.principal_axes and scene.mass > 0:
         f = principal_axis_factor(scene)
@@ -352,36 +381,32 @@ def see_through(scene: Scene, cam: ViewCamera) -> npt.NDArray[np.int64]:
 class _Stage:
     """A render window with three layers, re-filled and re-aimed for every view.
 
-    The parts that are opaque in every view to be drawn go into one actor made once (with their outlines), so the
-    renderer uploads that large mesh once for all views; only the few parts that are see-through in some view
-    (``changing``) and the marks sized in pixels are made again for each view.
+    The marks that do not change with the view are put in once; the parts (as they face each camera, see
+    :func:`facing_parts`) and the marks sized in pixels are made again for each view.
 
     Off-screen it is a bare VTK window (fast to start); for the interactive window it borrows a pyvista
     plotter's window and renderer.
     """
 
-    def __init__(self, scene: Scene, size: tuple[int, int], changing: npt.NDArray[np.int64],
-                 plotter: Any = None) -> None:
+    def __init__(self, scene: Scene, size: tuple[int, int], plotter: Any = None) -> None:
         from . import vtkbits as vb
 
         self.scene = scene
-        self.changing = np.asarray(changing, np.int64)
         if plotter is None:
             self.window, base = vb.offscreen_window(size[0], size[1], PANEL_BACKGROUND)
         else:
             self.window, base = plotter.ren_win, plotter.renderer
         self.layers = [base, vb.layer_renderer(self.window, base, 1), vb.layer_renderer(self.window, base, 2)]
-        steady = np.setdiff1d(np.arange(len(scene.model.components)), self.changing)
-        for layer, act in _static_props(scene) + _part_props(scene, steady, 1.0) + _fixed_marks(scene):
+        for layer, act in _static_props(scene) + _fixed_marks(scene):
             self.layers[layer].AddActor(act)
         self._view_actors: list[Prop] = []
 
     def fill(self, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> None:
         """Put in the view-dependent actors for camera ``cam`` (None: the interactive view), with the parts
-        ``clear`` (a subset of ``changing``) see-through."""
+        ``clear`` see-through."""
         for layer, act in self._view_actors:
             self.layers[layer].RemoveActor(act)
-        self._view_actors = _view_props(self.scene, cam, self.changing, clear)
+        self._view_actors = _view_props(self.scene, cam, clear)
         for layer, act in self._view_actors:
             self.layers[layer].AddActor(act)
 
@@ -426,14 +451,13 @@ def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedVi
     if not cameras:
         return []
     first = cameras[0]
-    t0 = time.perf_counter()
-    clear = [see_through(scene, cam) for cam in cameras]  # all views' ray tests first: they fix the static actor
-    t_rays = (time.perf_counter() - t0) / len(cameras)
-    changing = np.unique(np.concatenate(clear)).astype(np.int64)
-    stage = _Stage(scene, (first.width, first.height), changing)
+    stage = _Stage(scene, (first.width, first.height))
     out = []
     try:
-        for cam, see in zip(cameras, clear, strict=True):
+        for cam in cameras:
+            t0 = time.perf_counter()
+            see = see_through(scene, cam)
+            t_rays = time.perf_counter() - t0
             t0 = time.perf_counter()
             stage.fill(cam, see)
             stage.aim(cam)
@@ -478,9 +502,8 @@ def show_interactive(
 
     pl = pv.Plotter(off_screen=off_screen, window_size=list(window_size), lighting="light kit")
     pl.set_background(PANEL_BACKGROUND)  # type: ignore[arg-type]  # pyvista's decorator hides the signature
-    clear = see_through(scene, view_camera(scene, "iso", 1200, 800))  # parts hiding the CG seen from the iso view
-    stage = _Stage(scene, window_size, clear, plotter=pl)
-    stage.fill(None, clear)
+    stage = _Stage(scene, window_size, plotter=pl)
+    stage.fill(None, see_through(scene, view_camera(scene, "iso", 1200, 800)))  # parts hiding the CG from iso
     pl.add_text("\n".join(title_lines), position="upper_left", font_size=10, color=INK)
     entries = [[f"{e.label}" + (f"  {e.mass:.1f} kg" if e.mass is not None else ""), e.colour] for e in scene.legend]
     if entries:
