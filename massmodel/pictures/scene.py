@@ -170,6 +170,8 @@ class Scene:
         Faces of component i are ``faces[face_start[i]:face_start[i + 1]]`` (see :meth:`part_faces`).
     edge_faces : (E, 2) int or None
         The two faces meeting at each edge (-1 as the second of an open edge).
+    edge_index : (E, 2) int or None
+        The vertices at the ends of each edge (``edges == vertices[edge_index]``).
     ballast : list of int
         Components that name a slot.
     slot_edges : list of (str, (K, 2, 3) float)
@@ -213,6 +215,7 @@ class Scene:
     part_boxes: FloatArray | None = None
     face_start: IntArray | None = None
     edge_faces: IntArray | None = None
+    edge_index: IntArray | None = None
     mesh_seconds: float = 0.0
     _extent: tuple[FloatArray, FloatArray] | None = field(default=None, init=False, repr=False)
     _normals: FloatArray | None = field(default=None, init=False, repr=False)
@@ -498,6 +501,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
         part_boxes=merged.part_boxes,
         face_start=merged.face_start,
         edge_faces=merged.edge_faces,
+        edge_index=merged.edge_index,
     )
     scene.mesh_seconds = time.perf_counter() - t0
     return scene

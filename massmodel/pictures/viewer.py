@@ -266,25 +266,30 @@ def principal_axis_factor(scene: Scene) -> float:
     return 0.125
 
 
-def _faces_prop(scene: Scene, faces: npt.NDArray[np.int64], opacity: float) -> list[Prop]:
-    """A layer-0 actor of some faces: one mesh with the per-cell colours of their parts."""
+def _faces_prop(scene: Scene, points: Any, faces: npt.NDArray[np.int64], opacity: float) -> list[Prop]:
+    """A layer-0 actor of some faces (on the scene's shared VTK points): one mesh with the per-cell colours of
+    their parts."""
     from . import vtkbits as vb
 
     if len(faces) == 0:
         return []
-    poly = vb.polydata(scene.vertices, scene.faces[faces], scene.part_colours[scene.owner[faces]])
+    poly = vb.polydata(points, scene.faces[faces], scene.part_colours[scene.owner[faces]])
     return [(0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62))]
 
 
-def _edges_prop(scene: Scene, edges: npt.NDArray[np.int64], see_through: bool) -> list[Prop]:
+def _edges_prop(scene: Scene, points: Any, edges: npt.NDArray[np.int64], see_through: bool) -> list[Prop]:
     """A layer-0 actor of some outline edges: ink, or light grey on see-through parts."""
     from . import vtkbits as vb
 
     if len(edges) == 0:
         return []
+    if scene.edge_index is not None:
+        poly = vb.edge_lines(points, scene.edge_index[edges])
+    else:
+        poly = vb.lines(scene.edges[edges])
     if see_through:
-        return [(0, vb.actor(vb.lines(scene.edges[edges]), "#9aa1a6", opacity=0.6, lighting=False))]
-    return [(0, vb.actor(vb.lines(scene.edges[edges]), INK, lighting=False))]
+        return [(0, vb.actor(poly, "#9aa1a6", opacity=0.6, lighting=False))]
+    return [(0, vb.actor(poly, INK, lighting=False))]
 
 
 def facing_parts(scene: Scene, cam: ViewCamera | None,
@@ -328,16 +333,17 @@ def _fixed_marks(scene: Scene) -> list[Prop]:
     return out
 
 
-def _view_props(scene: Scene, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> list[Prop]:
+def _view_props(scene: Scene, points: Any, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> list[Prop]:
     """Actors that change with the view: the parts that face the camera (opaque; :func:`facing_parts`), the parts
     in ``clear`` (see-through, every face), their outlines, and the principal axes, group CG markers and the CG
     (sized in pixels)."""
     from . import vtkbits as vb
 
     faces, edges = facing_parts(scene, cam, clear)
-    out = _faces_prop(scene, faces, 1.0) + _faces_prop(scene, scene.part_faces(clear), TRANSLUCENT_OPACITY)
-    out += _edges_prop(scene, edges, False)
-    out += _edges_prop(scene, np.flatnonzero(np.isin(scene.edge_owner, clear)), True)
+    out = _faces_prop(scene, points, faces, 1.0)
+    out += _faces_prop(scene, points, scene.part_faces(clear), TRANSLUCENT_OPACITY)
+    out += _edges_prop(scene, points, edges, False)
+    out += _edges_prop(scene, points, np.flatnonzero(np.isin(scene.edge_owner, clear)), True)
     px = 1.0 / cam.scale if cam is not None else 0.004
     if scene.options.principal_axes and scene.mass > 0:
         f = principal_axis_factor(scene)
@@ -392,6 +398,7 @@ class _Stage:
         from . import vtkbits as vb
 
         self.scene = scene
+        self.points = vb.shared_points(scene.vertices)  # one array of points for every view's parts and outlines
         if plotter is None:
             self.window, base = vb.offscreen_window(size[0], size[1], PANEL_BACKGROUND)
         else:
@@ -406,7 +413,7 @@ class _Stage:
         ``clear`` see-through."""
         for layer, act in self._view_actors:
             self.layers[layer].RemoveActor(act)
-        self._view_actors = _view_props(self.scene, cam, clear)
+        self._view_actors = _view_props(self.scene, self.points, cam, clear)
         for layer, act in self._view_actors:
             self.layers[layer].AddActor(act)
 
