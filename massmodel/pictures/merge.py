@@ -31,9 +31,9 @@ from massmodel.core import geometry as geo
 from massmodel.core.model import Model
 from massmodel.core.shapes import Box, PointMass, RevolvedShape, Shape, Sphere
 
-from .meshes import part_mesh, sharp_edges_and_faces
+from .meshes import _row_ids, edge_pairs, face_normals, part_mesh, sharp_edges_and_faces, sharp_pairs
 
-__all__ = ["MergedParts", "merge_parts", "bulk_meshes", "gather_ranges"]
+__all__ = ["MergedParts", "merge_parts", "bulk_meshes", "mesh_families", "gather_ranges"]
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
@@ -131,11 +131,41 @@ def _revolve_family(loops: FloatArray, n: int, on_axis: Sequence[bool], first: R
     return v.reshape(-1, 3), np.asarray(faces, np.int64)
 
 
+Family = tuple[list[int], FloatArray, IntArray]  # member indices, vertices (G, V, 3), shared faces (F, 3)
+FAMILY_EDGES_MIN = 8  # fewest members for which a family's sharp edges are found a family at a time
+
+
+def mesh_families(shapes: Sequence[Shape], chord_tolerance: float) -> list[Family]:
+    """The shapes that mesh in bulk, by family: (indices into ``shapes``, stacked vertices (G, V, 3) m, the
+    family's faces (F, 3)). Boxes form one family; solids of revolution one for each loop layout and facet count."""
+    groups: dict[tuple[Any, ...], list[tuple[int, FloatArray | None]]] = {}
+    for i, s in enumerate(shapes):
+        if type(s) is Box:
+            groups.setdefault(("box",), []).append((i, None))
+        elif isinstance(s, RevolvedShape):
+            try:
+                key, loop = _revolve_signature(s, chord_tolerance)
+            except geo.ToleranceTooSmall:
+                continue  # mesh_arrays reports it as a shape error
+            groups.setdefault(("revolve", len(loop), *key), []).append((i, loop))
+    out: list[Family] = []
+    for key, members in groups.items():
+        index = [i for i, _ in members]
+        if key[0] == "box":
+            v, f = _box_family([shapes[i] for i in index])  # type: ignore[misc]
+        else:
+            loops = np.stack([loop for _, loop in members if loop is not None])
+            v, f = _revolve_family(loops, key[2], key[3], shapes[index[0]], chord_tolerance)  # type: ignore[arg-type]
+        out.append((index, v.reshape(len(index), -1, 3), f))
+    return out
+
+
 def bulk_meshes(shapes: Sequence[Shape], chord_tolerance: float) -> list[Mesh | None]:
     """Part-frame meshes of many shapes at once, equal to each shape's ``mesh_arrays(chord_tolerance)``.
 
-    Boxes and solids of revolution are meshed a family at a time (same facet counts: shared faces, vertices in
-    bulk); any other shape, or one whose tolerance the core refuses, gives None (mesh it alone).
+    Boxes and solids of revolution are meshed a family at a time (:func:`mesh_families`: same facet counts,
+    shared faces, vertices in bulk); any other shape, or one whose tolerance the core refuses, gives None (mesh it
+    alone).
 
     Returns
     -------
@@ -143,27 +173,65 @@ def bulk_meshes(shapes: Sequence[Shape], chord_tolerance: float) -> list[Mesh | 
         In the order of ``shapes``, m.
     """
     out: list[Mesh | None] = [None] * len(shapes)
-    families: dict[tuple[Any, ...], list[tuple[int, FloatArray | None]]] = {}
-    for i, s in enumerate(shapes):
-        if type(s) is Box:
-            families.setdefault(("box",), []).append((i, None))
-        elif isinstance(s, RevolvedShape):
-            try:
-                key, loop = _revolve_signature(s, chord_tolerance)
-            except geo.ToleranceTooSmall:
-                continue  # mesh_arrays reports it as a shape error
-            families.setdefault(("revolve", len(loop), *key), []).append((i, loop))
-    for key, members in families.items():
-        index = [i for i, _ in members]
-        if key[0] == "box":
-            v, f = _box_family([shapes[i] for i in index])  # type: ignore[misc]
-        else:
-            loops = np.stack([loop for _, loop in members if loop is not None])
-            v, f = _revolve_family(loops, key[2], key[3], shapes[index[0]], chord_tolerance)  # type: ignore[arg-type]
-        per = len(v) // len(index)
+    for index, v, f in mesh_families(shapes, chord_tolerance):
         for k, i in enumerate(index):
-            out[i] = (v[k * per : (k + 1) * per], f)
+            out[i] = (v[k], f)
     return out
+
+
+def _family_edges(v: FloatArray, f: IntArray) -> tuple[IntArray, IntArray, IntArray] | None:
+    """Sharp edges of the G meshes of one family at once: (member of each edge (E,), edge vertices (E, 2), the
+    two faces (E, 2)), members in order, or None when some member has coincident vertices.
+
+    With no two vertices of a member welded, the edges pair up by vertex number alone, the same for every member
+    (:func:`massmodel.pictures.meshes.edge_pairs` of the first); only which edges are sharp depends on the member's
+    shape (:func:`massmodel.pictures.meshes.sharp_pairs`). The result is each member's :func:`sharp_edges` (the
+    same edges and faces; the order of a member's edges may differ, which changes nothing drawn).
+    """
+    g, nv = v.shape[:2]
+    keys = np.round(v / 1e-7).astype(np.int64).reshape(-1, 3)
+    member = np.repeat(np.arange(g), nv)
+    if int(_row_ids(np.column_stack([member, keys])).max()) + 1 != g * nv:  # ranks: all distinct or not
+        return None
+    edges, pair_faces = edge_pairs(v[0], f)
+    keep = sharp_pairs(face_normals(v, f), pair_faces)  # (G, K)
+    who, which = np.nonzero(keep)
+    return who.astype(np.int64), edges[which], pair_faces[which]
+
+
+def _template_edges(tv: list[FloatArray], tf: list[IntArray], families: list[list[int]],
+                    skip: int) -> tuple[IntArray, IntArray, IntArray]:
+    """Sharp edges of every template (none for template ``skip``): (edges (E, 2) as template-local vertex
+    indices, their faces (E, 2) template-local (-1 open), the number of edges of each template), in template
+    order. Families sharing faces go a family at a time, the other templates in one pass."""
+    pools: list[tuple[IntArray, IntArray, IntArray]] = []  # (template of each edge, edges, faces)
+    rest = [t for t in range(len(tv)) if t != skip]
+    done: set[int] = set()
+    for members in families:
+        if len(members) < FAMILY_EDGES_MIN:
+            continue  # a small family is cheaper in the one pass of the rest
+        found = _family_edges(np.stack([tv[t] for t in members]), tf[members[0]])
+        if found is not None:
+            who, edges, faces = found
+            pools.append((np.asarray(members, np.int64)[who], edges, faces))
+            done.update(members)
+    rest = [t for t in rest if t not in done]
+    if rest:
+        nv = np.array([len(tv[t]) for t in rest], np.int64)
+        nf = np.array([len(tf[t]) for t in rest], np.int64)
+        v0, f0 = np.cumsum(nv) - nv, np.cumsum(nf) - nf
+        owner = np.repeat(np.arange(len(rest)), nv)
+        edges, faces = sharp_edges_and_faces(np.vstack([tv[t] for t in rest]),
+                                             np.vstack([tf[t] + o for t, o in zip(rest, v0, strict=True)]),
+                                             vertex_owner=owner)
+        local = owner[edges[:, 0]]
+        face_base = np.where(faces >= 0, f0[local][:, None], 0)
+        pools.append((np.asarray(rest, np.int64)[local], edges - v0[local][:, None], faces - face_base))
+    tmpl = np.concatenate([p[0] for p in pools]) if pools else np.zeros(0, np.int64)
+    order = np.argsort(tmpl, kind="stable")
+    edges = np.vstack([p[1] for p in pools])[order] if pools else np.zeros((0, 2), np.int64)
+    faces = np.vstack([p[2] for p in pools])[order] if pools else np.zeros((0, 2), np.int64)
+    return edges, faces, np.bincount(tmpl, minlength=len(tv)).astype(np.int64)
 
 
 # --- merging -----------------------------------------------------------------------------------------------------
@@ -203,10 +271,12 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
         tmpl_of[i] = t
 
     plain = [k for k, i in enumerate(first_part) if not comps[i].cutouts and not isinstance(comps[i].shape, PointMass)]
-    bulk = bulk_meshes([comps[first_part[k]].shape for k in plain], chord_tolerance)
     meshes: list[Mesh | None] = [None] * len(first_part)
-    for k, mesh in zip(plain, bulk, strict=True):
-        meshes[k] = mesh
+    families: list[list[int]] = []
+    for index, fv, ff in mesh_families([comps[first_part[k]].shape for k in plain], chord_tolerance):
+        families.append([plain[i] for i in index])
+        for k, i in enumerate(index):
+            meshes[plain[i]] = (fv[k], ff)
     fallback_tmpl: set[int] = set()
     point_tmpl = -1
     for k, i in enumerate(first_part):
@@ -227,17 +297,13 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
     v_start = np.cumsum(nv) - nv
     all_v = np.vstack(tv)
     all_f = np.vstack([f + s for f, s in zip(tf, v_start, strict=True)])
-    vertex_tmpl = np.repeat(np.arange(len(tv)), nv)
 
-    # sharp edges of every template at once (none for the point-mass spheres)
-    face_tmpl = np.repeat(np.arange(len(tf)), nf)
-    edged = np.flatnonzero(face_tmpl != point_tmpl)
-    all_e, e_faces = sharp_edges_and_faces(all_v, all_f[edged], vertex_owner=vertex_tmpl)
-    e_faces = np.where(e_faces >= 0, edged[e_faces], -1)  # template faces, as indices into all_f
-    e_tmpl = vertex_tmpl[all_e[:, 0]]
-    order = np.argsort(e_tmpl, kind="stable")
-    all_e, e_tmpl, e_faces = all_e[order], e_tmpl[order], e_faces[order]
-    ne = np.bincount(e_tmpl, minlength=len(tv)).astype(np.int64)
+    # sharp edges of every template (none for the point-mass spheres), template-local, then as indices into
+    # the templates' stacked vertices and faces
+    local_e, local_f, ne = _template_edges(tv, tf, families, point_tmpl)
+    e_tmpl = np.repeat(np.arange(len(tv)), ne)
+    all_e = local_e + v_start[e_tmpl][:, None]
+    e_faces = np.where(local_f >= 0, local_f + (np.cumsum(nf) - nf)[e_tmpl][:, None], -1)
     e_start = np.cumsum(ne) - ne
 
     # placement: rotation (or mirror) and translation of every part

@@ -14,7 +14,7 @@ import numpy.typing as npt
 
 from massmodel.core.model import Component
 
-__all__ = ["part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces"]
+__all__ = ["part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces", "edge_pairs", "face_normals", "sharp_pairs"]
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
@@ -116,35 +116,71 @@ def sharp_edges(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0,
 def sharp_edges_and_faces(vertices: FloatArray, faces: IntArray, angle_deg: float = 30.0,
                           vertex_owner: IntArray | None = None) -> tuple[IntArray, IntArray]:
     """:func:`sharp_edges` and the two faces (E, 2) that meet at each edge (-1 as the second of an open edge)."""
+    edges, pair_faces = edge_pairs(vertices, faces, vertex_owner)
+    keep = sharp_pairs(face_normals(vertices, faces), pair_faces, angle_deg)
+    return edges[keep], pair_faces[keep]
+
+
+def face_normals(vertices: FloatArray, faces: IntArray) -> FloatArray:
+    """Unit normals (..., F, 3) of the faces (zero for a face of no area); ``vertices`` may be (V, 3) or stacked
+    meshes of equal faces (G, V, 3)."""
+    a, b, c = (vertices[..., faces[:, k], :] for k in range(3))
+    normals = np.cross(b - a, c - a)
+    norms = np.linalg.norm(normals, axis=-1)
+    return normals / np.where(norms > 0, norms, 1.0)[..., None]
+
+
+def sharp_pairs(normals: FloatArray, pair_faces: IntArray, angle_deg: float = 30.0) -> npt.NDArray[np.bool_]:
+    """Which edges of :func:`edge_pairs` are sharp: open, or their faces meet at more than ``angle_deg``.
+
+    ``normals`` (F, 3) unit face normals, or (G, F, 3) for G meshes sharing the faces (then the result is (G, K)).
+    """
+    second = pair_faces[:, 1]
+    inner = np.flatnonzero(second >= 0)
+    n = normals.reshape(-1, normals.shape[-2], 3)
+    a = n[:, pair_faces[inner, 0]].reshape(-1, 3)
+    b = n[:, second[inner]].reshape(-1, 3)
+    cosang = np.einsum("ij,ij->i", a, b).reshape(len(n), -1)
+    keep = np.ones((len(n), len(pair_faces)), bool)
+    keep[:, inner] = cosang < math.cos(math.radians(angle_deg))
+    return keep.reshape(normals.shape[:-2] + (len(pair_faces),))
+
+
+def edge_pairs(vertices: FloatArray, faces: IntArray,
+               vertex_owner: IntArray | None = None) -> tuple[IntArray, IntArray]:
+    """Every edge of a triangle mesh once, with the faces that meet there.
+
+    Coincident vertices are welded first (to 1e-7 m; meshes may duplicate seams; never across owners when
+    ``vertex_owner`` (V,) is given). An edge is the first of the half-edges that share its two welded ends, in the
+    order of the welded vertex numbers (ranked by owner, then coordinates); an edge whose ends weld together is no
+    edge.
+
+    Returns
+    -------
+    edges : (K, 2) int
+        Vertex indices of each edge.
+    faces : (K, 2) int
+        The face of that half-edge and the face of the next one sharing its ends (-1 for an open edge).
+    """
     if len(faces) == 0:
         return np.zeros((0, 2), np.int64), np.zeros((0, 2), np.int64)
-    a, b, c = (vertices[faces[:, k]] for k in range(3))
-    normals = np.cross(b - a, c - a)
-    norms = np.linalg.norm(normals, axis=1)
-    normals = normals / np.where(norms > 0, norms, 1.0)[:, None]
     e = np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]])
     face_of = np.tile(np.arange(len(faces)), 3)
-    # weld coincident vertices (meshes may duplicate seams) before pairing edges
     keys = np.round(vertices / 1e-7).astype(np.int64)
     if vertex_owner is not None:
         keys = np.column_stack([np.asarray(vertex_owner, np.int64), keys])
     weld = _row_ids(keys)
-    ends = weld[e]
-    lo, hi = ends.min(axis=1), ends.max(axis=1)
+    ends_a, ends_b = weld[e[:, 0]], weld[e[:, 1]]
+    lo, hi = np.minimum(ends_a, ends_b), np.maximum(ends_a, ends_b)
     key = lo * (int(weld.max()) + 1) + hi  # one integer a welded edge, ordered as (lo, hi)
     order = np.argsort(key, kind="stable")
-    key, lo, hi, e, face_of = key[order], lo[order], hi[order], e[order], face_of[order]
-    same = key[1:] == key[:-1]
-    keep = np.ones(len(key), bool)
-    # a pair (i, i+1) with the same key is one interior edge: keep the first only when sharp
-    pair = np.flatnonzero(same)
-    cosang = np.einsum("ij,ij->i", normals[face_of[pair]], normals[face_of[pair + 1]])
-    sharp = cosang < math.cos(math.radians(angle_deg))
-    keep[pair + 1] = False
-    keep[pair[~sharp]] = False
-    keep &= lo != hi  # a degenerate edge (both ends welded together) is no edge
+    key, e, face_of = key[order], e[order], face_of[order]
+    first = np.ones(len(key), bool)
+    first[1:] = key[1:] != key[:-1]
     partner = np.full(len(key), -1, np.int64)
-    partner[pair] = face_of[pair + 1]
+    follows = np.flatnonzero(~first[1:])  # half-edge i + 1 shares the ends of half-edge i
+    partner[follows] = face_of[follows + 1]
+    keep = first & (lo[order] != hi[order])
     return e[keep], np.column_stack([face_of, partner])[keep]
 
 

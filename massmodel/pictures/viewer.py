@@ -407,6 +407,7 @@ class _Stage:
         for layer, act in _static_props(scene) + _fixed_marks(scene):
             self.layers[layer].AddActor(act)
         self._view_actors: list[Prop] = []
+        self.triangles = 0
 
     def fill(self, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> None:
         """Put in the view-dependent actors for camera ``cam`` (None: the interactive view), with the parts
@@ -416,6 +417,8 @@ class _Stage:
         self._view_actors = _view_props(self.scene, self.points, cam, clear)
         for layer, act in self._view_actors:
             self.layers[layer].AddActor(act)
+        self.triangles = sum(int(act.GetMapper().GetInput().GetNumberOfPolys()) for layer, act in self._view_actors
+                             if layer == 0)  # the parts' triangles in this view (opaque and see-through)
 
     def aim(self, cam: ViewCamera) -> None:
         self.window.SetSize(cam.width, cam.height)
@@ -444,13 +447,15 @@ class _Stage:
 class RenderedView:
     """One rendered view: its camera, the RGB image (H, W, 3) uint8 and VTK's composite projection matrix
     (model coordinates → normalised device coordinates) of the camera it was drawn with; ``seconds`` the time spent
-    drawing it (actors, render, pixels), ``ray_seconds`` its share of the see-through ray tests, s."""
+    drawing it (actors, render, pixels), ``ray_seconds`` the time of its see-through ray tests, s; ``triangles``
+    the number of the parts' triangles drawn (those facing the camera, and every face of the see-through parts)."""
 
     camera: ViewCamera
     image: npt.NDArray[np.uint8]
     vtk_matrix: FloatArray
     seconds: float
     ray_seconds: float = 0.0
+    triangles: int = 0
 
 
 def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedView]:
@@ -472,7 +477,8 @@ def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedVi
             if img.shape[:2] != (cam.height, cam.width):
                 raise OSError(f"the renderer returned a {img.shape[1]}x{img.shape[0]} image for a "
                               f"{cam.width}x{cam.height} view")
-            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0, t_rays))
+            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0, t_rays,
+                                    stage.triangles))
     finally:
         stage.close()
     return out
