@@ -277,6 +277,11 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
         families.append([plain[i] for i in index])
         for k, i in enumerate(index):
             meshes[plain[i]] = (fv[k], ff)
+    # the shapes of the parts with cut-outs and of their cut-outs, meshed in bulk where they can be
+    cut_parts = [comps[i] for i in first_part if comps[i].cutouts]
+    cut_shapes = [s for c in cut_parts for s in (c.shape, *(cut.shape for cut in c.cutouts))]
+    premade = iter(bulk_meshes(cut_shapes, chord_tolerance))
+    shape_meshes = {id(c): [next(premade) for _ in range(1 + len(c.cutouts))] for c in cut_parts}
     fallback_tmpl: set[int] = set()
     point_tmpl = -1
     for k, i in enumerate(first_part):
@@ -286,7 +291,9 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
             mv, mf = Sphere(point_radius).mesh_arrays(min(chord_tolerance, point_radius / 4))
             meshes[k], point_tmpl = (np.asarray(mv, float), np.asarray(mf, np.int64)), k
         else:
-            lv, lf, used_cad = part_mesh(comps[i], chord_tolerance)
+            given = shape_meshes.get(id(comps[i]), [])
+            whole = [m for m in given if m is not None]
+            lv, lf, used_cad = part_mesh(comps[i], chord_tolerance, whole if len(whole) == len(given) else None)
             meshes[k] = (lv, lf)
             if used_cad:
                 fallback_tmpl.add(k)

@@ -7,6 +7,7 @@ Numpy, plus manifold3d for the cut-out booleans and OpenCascade (through :mod:`m
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -46,11 +47,14 @@ def _cad_part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatA
     return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
 
 
-def part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray, IntArray, bool]:
+def part_mesh(component: Component, chord_tolerance: float,
+              shape_meshes: Sequence[tuple[FloatArray, IntArray]] | None = None) -> tuple[FloatArray, IntArray, bool]:
     """Display mesh of one part in its part frame: the shape minus its cut-outs.
 
     The cut-outs are removed by a manifold3d boolean difference; when that fails (an error status, or a volume
     more than 2 % + chord error away from the exact net volume) the OpenCascade solid is tessellated instead.
+    ``shape_meshes``, optional: the meshes of the shape and of each cut-out's shape (``mesh_arrays(chord_tolerance)``
+    of each, made beforehand, e.g. many at once).
 
     Returns
     -------
@@ -61,14 +65,15 @@ def part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatArray,
     fallback : bool
         True when OpenCascade made the mesh.
     """
-    v, f = component.shape.mesh_arrays(chord_tolerance)
+    given = list(shape_meshes) if shape_meshes is not None else []
+    v, f = given[0] if given else component.shape.mesh_arrays(chord_tolerance)
     if not component.cutouts:
         return np.asarray(v, float), np.asarray(f, np.int64), False
     import manifold3d
 
     body = _to_manifold(v, f)
-    for cut in component.cutouts:
-        cv, cf = cut.shape.mesh_arrays(chord_tolerance)
+    for k, cut in enumerate(component.cutouts, start=1):
+        cv, cf = given[k] if given else cut.shape.mesh_arrays(chord_tolerance)
         body = body - _to_manifold(cut.pose.apply(cv), cf)
     ok = body.status() == manifold3d.Error.NoError
     if ok:
