@@ -1,8 +1,10 @@
 """Display geometry of a mass model: one merged triangle mesh with per-part colours, markers and references.
 
 This is the renderer-free half of the picture (numpy, plus manifold3d for cut-outs): every part is meshed in its
-part frame, its cut-outs removed by a mesh boolean (:mod:`massmodel.pictures.meshes`), placed by its pose and appended to one mesh whose faces
-remember their owner (one actor draws all parts; colours are per cell). The scene also holds what the sheet
+part frame, its cut-outs removed by a mesh boolean (:mod:`massmodel.pictures.meshes`), placed by its pose and put in
+one mesh whose faces remember their owner (one actor draws all parts; colours are per cell), all parts at once
+(:mod:`massmodel.pictures.merge`). Group CGs come from the engine's group sums; what hides the CG is found by ray
+tests against the candidate parts' boxes first, then their triangles. The scene also holds what the sheet
 annotates: the total CG with its principal axes, group CGs, ballast, slots, ground, axles and wheel contact points,
 the vehicle axis triad and the legend. :mod:`massmodel.pictures.viewer` turns it into pictures.
 

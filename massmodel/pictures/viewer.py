@@ -7,9 +7,9 @@ sheet keep one scale (pixels per metre) and the side, top and front views line u
 
 The scene is drawn in three layers of one render window:
 
-- layer 0: the parts (one actor for the opaque parts, one semi-transparent actor for the parts that hide the CG or
-  a ballast block in this view; colours per cell), their ink outlines, the ground plane, axle lines, wheel contact
-  points and the axis triad;
+- layer 0: the parts (one actor for the opaque parts, only their faces that face the camera, see
+  :func:`facing_parts`; one semi-transparent actor for the parts that hide the CG or a ballast block in this view;
+  colours per cell), their ink outlines, the ground plane, axle lines, wheel contact points and the axis triad;
 - layer 1: slot wire envelopes, ballast outlines, principal axes of inertia and group CG markers (drawn over the
   parts, so they stay visible);
 - layer 2: the total CG marker, unlit, so its colour in the picture is exactly :data:`~massmodel.pictures.scene.CG_COLOUR`.
