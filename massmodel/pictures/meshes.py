@@ -15,7 +15,7 @@ import numpy.typing as npt
 
 from massmodel.core.model import Component
 
-__all__ = ["part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces", "edge_pairs", "face_normals", "sharp_pairs"]
+__all__ = ["part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces", "edge_pairs", "face_normals", "cross_normals", "sharp_pairs"]
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
@@ -126,11 +126,22 @@ def sharp_edges_and_faces(vertices: FloatArray, faces: IntArray, angle_deg: floa
     return edges[keep], pair_faces[keep]
 
 
+def cross_normals(vertices: FloatArray, faces: IntArray) -> FloatArray:
+    """Normals (..., F, 3) of the faces, (b − a) × (c − a) for corners a, b, c (length twice the area; the same
+    numbers as ``np.cross``, computed a coordinate at a time from contiguous copies, several times faster for
+    large meshes); ``vertices`` may be (V, 3) or stacked meshes of equal faces (G, V, 3)."""
+    xyz = np.ascontiguousarray(np.moveaxis(np.asarray(vertices, float), -1, 0))  # (3, ..., V)
+    f0, f1, f2 = faces[:, 0], faces[:, 1], faces[:, 2]
+    a = [xyz[k][..., f0] for k in range(3)]
+    u = [xyz[k][..., f1] - a[k] for k in range(3)]
+    w = [xyz[k][..., f2] - a[k] for k in range(3)]
+    return np.stack([u[1] * w[2] - u[2] * w[1], u[2] * w[0] - u[0] * w[2], u[0] * w[1] - u[1] * w[0]], axis=-1)
+
+
 def face_normals(vertices: FloatArray, faces: IntArray) -> FloatArray:
     """Unit normals (..., F, 3) of the faces (zero for a face of no area); ``vertices`` may be (V, 3) or stacked
     meshes of equal faces (G, V, 3)."""
-    a, b, c = (vertices[..., faces[:, k], :] for k in range(3))
-    normals = np.cross(b - a, c - a)
+    normals = cross_normals(vertices, faces)
     norms = np.linalg.norm(normals, axis=-1)
     return normals / np.where(norms > 0, norms, 1.0)[..., None]
 

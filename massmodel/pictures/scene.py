@@ -34,7 +34,7 @@ from massmodel.core.massprops import principal_axes, radii_of_gyration
 from massmodel.core.model import Model
 
 from .merge import merge_parts
-from .meshes import part_mesh, sharp_edges
+from .meshes import cross_normals, part_mesh, sharp_edges
 
 __all__ = [
     "ColourBy",
@@ -262,8 +262,7 @@ class Scene:
     def face_normals(self) -> FloatArray:
         """(F, 3) outward normal of each face (not normalised: length twice the face's area, m²), made once."""
         if self._normals is None:
-            a, b, c = (self.vertices[self.faces[:, k]] for k in range(3))
-            self._normals = np.cross(b - a, c - a)
+            self._normals = cross_normals(self.vertices, self.faces)
         return self._normals
 
     def part_faces(self, parts: Sequence[int] | npt.NDArray[np.int64]) -> IntArray:
