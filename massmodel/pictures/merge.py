@@ -327,7 +327,12 @@ def merge_parts(model: Model, chord_tolerance: float, point_radius: float) -> Me
     out_v_start = np.cumsum(vc) - vc
     src_v = gather_ranges(v_start[tmpl_of], vc)
     inst_v = np.repeat(np.arange(n), vc)
-    vertices = np.einsum("vj,vij->vi", all_v[src_v], linear[inst_v]) + shift[inst_v]
+    local = all_v[src_v]
+    vertices = np.empty_like(local)
+    for k in range(3):  # a coordinate at a time: no (V, 3, 3) copy of the rotations
+        row = linear[:, k, :]
+        vertices[:, k] = (local[:, 0] * row[inst_v, 0] + local[:, 1] * row[inst_v, 1] + local[:, 2] * row[inst_v, 2]
+                          + shift[inst_v, k])
 
     src_f = gather_ranges(np.cumsum(nf)[tmpl_of] - fc, fc)
     inst_f = np.repeat(np.arange(n), fc)
