@@ -322,3 +322,35 @@ def test_cross_normals_are_numpys_cross_products():
     for g in range(3):
         a, b, c = (stacked[g][f[:, k]] for k in range(3))
         assert np.array_equal(cross_normals(stacked, f)[g], np.cross(b - a, c - a))
+
+
+def _box_obj(path, inside_out: bool = False, drop: int = 0):
+    """A 100 x 40 x 20 mm cuboid as an OBJ file, outward winding (``inside_out`` reversed, ``drop`` triangles
+    left out)."""
+    v = [(x, y, z) for x in (-50, 50) for y in (-20, 20) for z in (-10, 10)]
+    quads = [(0, 1, 3, 2), (4, 6, 7, 5), (0, 4, 5, 1), (2, 3, 7, 6), (0, 2, 6, 4), (1, 5, 7, 3)]
+    tris = [t for a, b, c, d in quads for t in ((a, b, c), (a, c, d))]
+    tris = [(a, c, b) for a, b, c in tris] if inside_out else tris
+    lines = [f"v {x} {y} {z}" for x, y, z in v] + [f"f {a + 1} {b + 1} {c + 1}" for a, b, c in tris[drop:]]
+    path.write_text("\n".join(lines) + "\n")
+
+
+def test_a_mesh_that_may_be_seen_from_inside_keeps_every_face(tmp_path):
+    # an open mesh (a face missing) and an inside-out mesh, both shown with measured properties, beside a closed box
+    from massmodel.pictures.viewer import facing_parts, view_camera
+
+    _box_obj(tmp_path / "open.obj", drop=2)
+    _box_obj(tmp_path / "inv.obj", inside_out=True)
+    text = ('[model]\nname = "covers"\n[units]\nlength = "mm"\nmass = "kg"\nangle = "deg"\n'
+            '[[group]]\npath = "g"\nmaturity = "measured"\n'
+            '[[part]]\npath = "g/open"\nshape = "mesh"\nfile = "open.obj"\nunit = "mm"\n'
+            'measured = { mass = "1.2 kg", cg = [0, 0, 0] }\n'
+            '[[part]]\npath = "g/inv"\nshape = "mesh"\nfile = "inv.obj"\nunit = "mm"\nat = [0, 200, 0]\n'
+            'measured = { mass = "1.2 kg", cg = [0, 0, 0] }\n'
+            '[[part]]\npath = "g/box"\nshape = "box"\nsize = [100, 40, 20]\nmass = "1 kg"\nat = [0, 400, 0]\n')
+    scene = build_scene(loads_model(text, label="covers.toml", base_dir=tmp_path))
+    assert scene.two_sided_parts().tolist() == [0, 1]
+    faces, _ = facing_parts(scene, view_camera(scene, "iso", 600, 400), np.zeros(0, np.int64))
+    kept = np.bincount(scene.owner[faces], minlength=3)
+    assert kept[0] == 10 and kept[1] == 12  # every face of the open and the inside-out mesh
+    assert kept[2] == 6  # the closed box: the three sides facing the iso camera, two triangles each

@@ -14,8 +14,9 @@ import numpy as np
 import numpy.typing as npt
 
 from massmodel.core.model import Component
+from massmodel.core.shapes import Shape
 
-__all__ = ["part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces", "edge_pairs", "face_normals", "cross_normals", "sharp_pairs"]
+__all__ = ["shape_mesh", "part_mesh", "place_mesh", "sharp_edges", "sharp_edges_and_faces", "edge_pairs", "face_normals", "cross_normals", "sharp_pairs"]
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.int64]
@@ -47,6 +48,19 @@ def _cad_part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatA
     return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
 
 
+def shape_mesh(shape: Any, chord_tolerance: float) -> tuple[FloatArray, IntArray]:
+    """Display mesh (vertices (V, 3) m, faces (F, 3)) of a shape in its own frame: the primitives mesh themselves
+    (``mesh_arrays``, numpy); a shape read from a file (STEP, STL/OBJ/GLB) through the mesher
+    :mod:`massmodel.cad.primitives` registers for it (``to_mesh``: trimesh, metres)."""
+    if isinstance(shape, Shape):
+        v, f = shape.mesh_arrays(chord_tolerance)
+        return np.asarray(v, float), np.asarray(f, np.int64)
+    from massmodel.cad.primitives import to_mesh
+
+    mesh = to_mesh(shape, chord_tolerance)
+    return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
+
+
 def part_mesh(component: Component, chord_tolerance: float,
               shape_meshes: Sequence[tuple[FloatArray, IntArray]] | None = None) -> tuple[FloatArray, IntArray, bool]:
     """Display mesh of one part in its part frame: the shape minus its cut-outs.
@@ -66,14 +80,14 @@ def part_mesh(component: Component, chord_tolerance: float,
         True when OpenCascade made the mesh.
     """
     given = list(shape_meshes) if shape_meshes is not None else []
-    v, f = given[0] if given else component.shape.mesh_arrays(chord_tolerance)
+    v, f = given[0] if given else shape_mesh(component.shape, chord_tolerance)
     if not component.cutouts:
         return np.asarray(v, float), np.asarray(f, np.int64), False
     import manifold3d
 
     body = _to_manifold(v, f)
     for k, cut in enumerate(component.cutouts, start=1):
-        cv, cf = given[k] if given else cut.shape.mesh_arrays(chord_tolerance)
+        cv, cf = given[k] if given else shape_mesh(cut.shape, chord_tolerance)
         body = body - _to_manifold(cut.pose.apply(cv), cf)
     ok = body.status() == manifold3d.Error.NoError
     if ok:

@@ -221,6 +221,7 @@ class Scene:
     mesh_seconds: float = 0.0
     _extent: tuple[FloatArray, FloatArray] | None = field(default=None, init=False, repr=False)
     _normals: FloatArray | None = field(default=None, init=False, repr=False)
+    _two_sided: IntArray | None = field(default=None, init=False, repr=False)
 
     @property
     def forward(self) -> FloatArray:
@@ -264,6 +265,18 @@ class Scene:
         if self._normals is None:
             self._normals = cross_normals(self.vertices, self.faces)
         return self._normals
+
+    def two_sided_parts(self) -> IntArray:
+        """Components whose mesh may be seen from inside (sorted): a shape that says it is not closed (an open or
+        inside-out imported mesh, shown with measured properties) or a mesh with open edges. Views draw every face
+        of these (:func:`massmodel.pictures.viewer.facing_parts`)."""
+        if self._two_sided is None:
+            flagged = [i for i, c in enumerate(self.model.components) if getattr(c.shape, "closed", True) is False]
+            opened: IntArray = np.zeros(0, np.int64)
+            if self.edge_faces is not None and len(self.edge_faces):
+                opened = self.edge_owner[self.edge_faces[:, 1] < 0]
+            self._two_sided = np.union1d(np.asarray(flagged, np.int64), opened).astype(np.int64)
+        return self._two_sided
 
     def part_faces(self, parts: Sequence[int] | npt.NDArray[np.int64]) -> IntArray:
         """Indices of the faces of the given components."""

@@ -296,10 +296,11 @@ def facing_parts(scene: Scene, cam: ViewCamera | None,
                  clear: npt.NDArray[np.int64]) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int64]]:
     """Faces and outline edges drawn opaque in a view: those of the parts not in ``clear`` that can be seen.
 
-    A part's mesh is closed with its faces outward, so in a parallel view a face turned away from the camera
-    (outward normal · toward < 0) lies behind the part's own front faces and is never seen, nor is an edge
-    between two such faces: leaving them out halves what the renderer draws. Edge-on faces, open edges and
-    every face of the interactive view (``cam`` None, turned by the user) are kept.
+    A closed part with its faces outward hides, in a parallel view, every face turned away from the camera
+    (outward normal · toward < 0) behind its own front faces, and every edge between two such faces: leaving them
+    out halves what the renderer draws. Edge-on faces, open edges, every face of a part that may be seen from inside
+    (:meth:`~massmodel.pictures.scene.Scene.two_sided_parts`) and every face of the interactive view (``cam`` None,
+    turned by the user), or of a scene that does not know its edges' faces, are kept.
 
     Returns
     -------
@@ -307,12 +308,15 @@ def facing_parts(scene: Scene, cam: ViewCamera | None,
         Indices into ``scene.faces`` and ``scene.edges``.
     """
     face_on = np.ones(len(scene.faces), bool)
-    if cam is not None:
-        face_on = scene.face_normals() @ np.asarray(cam.toward, float) >= 0.0
     edge_on = np.ones(len(scene.edges), bool)
-    if cam is not None and scene.edge_faces is not None and len(scene.edges):
-        ef = scene.edge_faces
-        edge_on = face_on[ef[:, 0]] | (ef[:, 1] < 0) | face_on[np.maximum(ef[:, 1], 0)]
+    if cam is not None and scene.edge_faces is not None:
+        face_on = scene.face_normals() @ np.asarray(cam.toward, float) >= 0.0
+        two_sided = scene.two_sided_parts()
+        if len(two_sided):
+            face_on[scene.part_faces(two_sided)] = True
+        if len(scene.edges):
+            ef = scene.edge_faces
+            edge_on = face_on[ef[:, 0]] | (ef[:, 1] < 0) | face_on[np.maximum(ef[:, 1], 0)]
     if len(clear):
         face_on[scene.part_faces(clear)] = False
         edge_on &= ~np.isin(scene.edge_owner, clear)
