@@ -154,7 +154,7 @@ def report_case(name: str, target: float, wall: float, data: dict, reference: fl
 
 def cutout_comparison() -> None:
     from massmodel import load_model
-    from massmodel.pictures.scene import _cad_part_mesh, part_mesh
+    from massmodel.pictures.meshes import _cad_part_mesh, part_mesh
 
     model = load_model(CAR)
     parts = [c for c in model.components if c.cutouts]
