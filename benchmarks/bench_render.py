@@ -3,11 +3,12 @@
 Measured in fresh processes (cold: imports, model loading, meshing, renderer start, views, sheet):
 
 1. the four-view sheet of the demo car (target < 5 s);
-2. the four-view sheet of a generated 1,000-component model (target < 15 s).
+2. the four-view sheet of generated models of 1,000 and 10,000 components (target < 15 s each), and the row
+   "render of 10,000 parts / render of the demo car (cold, wall)" with its target of at most 3x.
 
-Each case prints the seconds per view and the shares spent building meshes and rendering, against a reference
-measured in the same run: a cold process that renders one sphere off-screen and saves it (the floor cost of any
-picture on this machine). ``--cut-outs`` also compares the two ways of meshing the demo's parts with cut-outs
+Each case prints the triangle counts (all, and drawn in each view), the seconds per view and the shares spent
+meshing, rendering and on the see-through ray tests, against a reference measured in the same run: a cold
+process that renders one sphere off-screen and saves it (the floor cost of any picture on this machine). ``--cut-outs`` also compares the two ways of meshing the demo's parts with cut-outs
 (manifold3d boolean difference, used, against tessellating OpenCascade's solid).
 
 Run: ``.venv/bin/python benchmarks/bench_render.py [--cut-outs]``
@@ -47,6 +48,7 @@ t4 = time.perf_counter()
 ru = resource.getrusage(resource.RUSAGE_SELF)
 print(json.dumps({"import": t1 - t0, "load": t2 - t1, "mesh": t3 - t2, "render_compose": t4 - t3,
                   "seconds": result.seconds, "parts": len(model.components), "triangles": int(len(scene.faces)),
+                  "drawn": [v.triangles for v in result.views], "edges": int(len(scene.edges)),
                   "cpu": ru.ru_utime + ru.ru_stime}))
 """
 
@@ -127,12 +129,17 @@ def report_case(name: str, target: float, wall: float, data: dict, reference: fl
     sec = data["seconds"]
     views = [k for k in sec if k.startswith("view_")]
     view_total = sum(sec[k] for k in views)
-    start = sec["render"] - view_total  # renderer start (imports, window, static actors)
+    start = sec["render"] - view_total - sec["rays"]  # renderer start (imports, window, static actors)
     mesh = data["mesh"]
     render = sec["render"]
+    rays = sec["rays"]
     compose = sec["compose"]
     busy = data["import"] + data["load"] + mesh + render + compose
-    print(f"\n{name}: {data['parts']} parts, {data['triangles']} triangles, 2000x1400 px, four views")
+    drawn = data["drawn"]
+    print(f"\n{name}: {data['parts']} parts, {data['triangles']} triangles and {data['edges']} outline edges, "
+          f"2000x1400 px, four views")
+    print("  triangles drawn a view (facing the camera, and see-through parts): "
+          + ", ".join(str(d) for d in drawn) + f" (mean {np.mean(drawn) / data['triangles']:.0%} of all)")
     print(f"  cold process wall {wall:.2f} s (target < {target:.0f} s: ratio {wall / target:.2f}); "
           f"CPU {data['cpu']:.2f} s; reference {reference:.2f} s -> {wall / reference:.2f} x reference")
     print("  seconds per view: " + ", ".join(f"{k[5:]} {sec[k]:.2f} s" for k in views)
@@ -140,13 +147,14 @@ def report_case(name: str, target: float, wall: float, data: dict, reference: fl
     print(f"  shares of the work: imports {data['import'] / busy:.0%} · model file {data['load'] / busy:.0%} · "
           f"building meshes {mesh / busy:.0%} · rendering {render / busy:.0%} "
           f"(renderer start {start:.2f} s, views {view_total:.2f} s) · sheet composition {compose / busy:.0%}")
-    print(f"  meshes vs rendering: {mesh:.2f} s vs {render:.2f} s ({mesh / (mesh + render):.0%} / "
-          f"{render / (mesh + render):.0%})")
+    work = mesh + render
+    print(f"  meshing / rendering / ray tests: {mesh:.2f} s / {render - rays:.2f} s / {rays:.2f} s "
+          f"({mesh / work:.0%} / {(render - rays) / work:.0%} / {rays / work:.0%})")
 
 
 def cutout_comparison() -> None:
     from massmodel import load_model
-    from massmodel.pictures.scene import _cad_part_mesh, part_mesh
+    from massmodel.pictures.meshes import _cad_part_mesh, part_mesh
 
     model = load_model(CAR)
     parts = [c for c in model.components if c.cutouts]

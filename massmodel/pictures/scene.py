@@ -1,8 +1,10 @@
 """Display geometry of a mass model: one merged triangle mesh with per-part colours, markers and references.
 
 This is the renderer-free half of the picture (numpy, plus manifold3d for cut-outs): every part is meshed in its
-part frame, its cut-outs removed by a mesh boolean (:mod:`massmodel.pictures.meshes`), placed by its pose and appended to one mesh whose faces
-remember their owner (one actor draws all parts; colours are per cell). The scene also holds what the sheet
+part frame, its cut-outs removed by a mesh boolean (:mod:`massmodel.pictures.meshes`), placed by its pose and put in
+one mesh whose faces remember their owner (one actor draws all parts; colours are per cell), all parts at once
+(:mod:`massmodel.pictures.merge`). Group CGs come from the engine's group sums; what hides the CG is found by ray
+tests against the candidate parts' boxes first, then their triangles. The scene also holds what the sheet
 annotates: the total CG with its principal axes, group CGs, ballast, slots, ground, axles and wheel contact points,
 the vehicle axis triad and the legend. :mod:`massmodel.pictures.viewer` turns it into pictures.
 
@@ -26,12 +28,13 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core import batch
 from massmodel.core.errors import UsageError
-from massmodel.core.massprops import MassProperties, combine_arrays, principal_axes, radii_of_gyration
+from massmodel.core.massprops import principal_axes, radii_of_gyration
 from massmodel.core.model import Model
-from massmodel.core.shapes import PointMass, Sphere
 
-from .meshes import part_mesh, place_mesh, sharp_edges
+from .merge import merge_parts
+from .meshes import cross_normals, part_mesh, sharp_edges
 
 __all__ = [
     "ColourBy",
@@ -163,6 +166,14 @@ class Scene:
         Sharp edges of the parts (dihedral angle above 30°), m, drawn as ink outlines.
     edge_owner : (E,) int
         Component of each edge.
+    part_boxes : (N, 2, 3) float or None
+        Low and high corners of each part's mesh, m (see :meth:`boxes`).
+    face_start : (N + 1,) int or None
+        Faces of component i are ``faces[face_start[i]:face_start[i + 1]]`` (see :meth:`part_faces`).
+    edge_faces : (E, 2) int or None
+        The two faces meeting at each edge (-1 as the second of an open edge).
+    edge_index : (E, 2) int or None
+        The vertices at the ends of each edge (``edges == vertices[edge_index]``).
     ballast : list of int
         Components that name a slot.
     slot_edges : list of (str, (K, 2, 3) float)
@@ -203,7 +214,14 @@ class Scene:
     group_markers: list[GroupMarker]
     axis_labels: tuple[str, str, str]
     fallback_parts: list[str] = field(default_factory=list)
+    part_boxes: FloatArray | None = None
+    face_start: IntArray | None = None
+    edge_faces: IntArray | None = None
+    edge_index: IntArray | None = None
     mesh_seconds: float = 0.0
+    _extent: tuple[FloatArray, FloatArray] | None = field(default=None, init=False, repr=False)
+    _normals: FloatArray | None = field(default=None, init=False, repr=False)
+    _two_sided: IntArray | None = field(default=None, init=False, repr=False)
 
     @property
     def forward(self) -> FloatArray:
@@ -218,15 +236,56 @@ class Scene:
         return self.basis[2]
 
     def extent(self) -> tuple[FloatArray, FloatArray]:
-        """(low, high) corners, (3,) each, of everything drawn, in (forward, left, up) coordinates, m."""
-        pts = [self.vertices, self.cg[None, :]]
-        if self.contact_points is not None:
-            pts.append(self.contact_points)
-        local = np.vstack(pts) @ self.basis.T
-        low, high = local.min(axis=0), local.max(axis=0)
-        if self.ground is not None:
-            low[2] = min(low[2], self.ground)
-        return low, high
+        """(low, high) corners, (3,) each, of everything drawn, in (forward, left, up) coordinates, m.
+
+        Worked out once (the scene's arrays are not changed after it is built) and returned as copies."""
+        if self._extent is None:
+            pts = [self.vertices, self.cg[None, :]]
+            if self.contact_points is not None:
+                pts.append(self.contact_points)
+            local = np.einsum("ij,kj->ik", np.vstack(pts), self.basis)  # (numpy's matmul is slow for 3 columns)
+            low, high = local.min(axis=0), local.max(axis=0)
+            if self.ground is not None:
+                low[2] = min(low[2], self.ground)
+            self._extent = (low, high)
+        return self._extent[0].copy(), self._extent[1].copy()
+
+    def boxes(self) -> FloatArray:
+        """(N, 2, 3) low and high corners of each part's placed mesh, m (from the faces when not given)."""
+        if self.part_boxes is None:
+            boxes = np.zeros((len(self.model.components), 2, 3))
+            for i in np.unique(self.owner):
+                v = self.vertices[np.unique(self.faces[self.owner == i])]
+                boxes[i] = v.min(axis=0), v.max(axis=0)
+            self.part_boxes = boxes
+        return self.part_boxes
+
+    def face_normals(self) -> FloatArray:
+        """(F, 3) outward normal of each face (not normalised: length twice the face's area, m²), made once."""
+        if self._normals is None:
+            self._normals = cross_normals(self.vertices, self.faces)
+        return self._normals
+
+    def two_sided_parts(self) -> IntArray:
+        """Components whose mesh may be seen from inside (sorted): a shape that says it is not closed (an open or
+        inside-out imported mesh, shown with measured properties) or a mesh with open edges. Views draw every face
+        of these (:func:`massmodel.pictures.viewer.facing_parts`)."""
+        if self._two_sided is None:
+            flagged = [i for i, c in enumerate(self.model.components) if getattr(c.shape, "closed", True) is False]
+            opened: IntArray = np.zeros(0, np.int64)
+            if self.edge_faces is not None and len(self.edge_faces):
+                opened = self.edge_owner[self.edge_faces[:, 1] < 0]
+            self._two_sided = np.union1d(np.asarray(flagged, np.int64), opened).astype(np.int64)
+        return self._two_sided
+
+    def part_faces(self, parts: Sequence[int] | npt.NDArray[np.int64]) -> IntArray:
+        """Indices of the faces of the given components."""
+        idx = np.asarray(parts, np.int64)
+        if self.face_start is None:
+            return np.flatnonzero(np.isin(self.owner, idx))
+        from .merge import gather_ranges
+
+        return gather_ranges(self.face_start[idx], self.face_start[idx + 1] - self.face_start[idx])
 
     def ground_rectangle(self, margin: float = 0.25) -> FloatArray | None:
         """(4, 3) corners of the drawn ground plane (the parts' footprint plus ``margin``, m) or None."""
@@ -275,10 +334,11 @@ def _legend_and_colours(
     model: Model, options: SceneOptions, total_mass: float
 ) -> tuple[list[str], list[LegendEntry], str, dict[str, str]]:
     comps = model.components
+    masses = model.arrays()[0].tolist()  # the engine's part masses, kg (made once for the model)
     groups: dict[str, float] = {}
-    for c in comps:
+    for c, mass in zip(comps, masses, strict=True):
         key = group_key(c.path, options.group_depth)
-        groups[key] = groups.get(key, 0.0) + c.props.mass
+        groups[key] = groups.get(key, 0.0) + mass
     group_names = sorted(groups)
     group_colour = {g: PALETTE[k % len(PALETTE)] for k, g in enumerate(group_names)}
 
@@ -296,7 +356,7 @@ def _legend_and_colours(
         colours = [MATURITY_COLOURS[c.maturity.value] for c in comps]
         legend = []
         for name, col in MATURITY_COLOURS.items():
-            m = float(sum(c.props.mass for c in comps if c.maturity.value == name))
+            m = float(sum(mass for c, mass in zip(comps, masses, strict=True) if c.maturity.value == name))
             legend.append(LegendEntry(name, col, m, share(m)))
         title = "mass maturity"
     elif options.colour_by is ColourBy.MATERIAL:
@@ -305,7 +365,7 @@ def _legend_and_colours(
         colours = [mat_colour[c.material or ""] for c in comps]
         legend = []
         for k in keys:
-            m = float(sum(c.props.mass for c in comps if (c.material or "") == k))
+            m = float(sum(mass for c, mass in zip(comps, masses, strict=True) if (c.material or "") == k))
             legend.append(LegendEntry(k or "(mass given, no material)", mat_colour[k], m, share(m)))
         title = "material"
     else:
@@ -327,6 +387,34 @@ def cg_in_material(center: FloatArray, boxes: FloatArray, grow: float = 0.1) -> 
     pad = grow * float(np.linalg.norm(boxes[:, 1].max(axis=0) - boxes[:, 0].min(axis=0)))
     inside = np.all((boxes[:, 0] - pad <= center) & (center <= boxes[:, 1] + pad), axis=1)
     return bool(inside.any())
+
+
+def _group_markers(
+    model: Model, opts: SceneOptions, group_colour: dict[str, str], part_boxes: FloatArray
+) -> list[GroupMarker]:
+    """CG markers of the groups at ``opts.group_depth``, from the engine's group sums.
+
+    A group path at exactly that depth holds the same parts as its key, so its properties come straight from
+    :meth:`massmodel.core.model.Model.group_properties` (the vectorised engine, one pass). A key above that depth
+    (parts that stop higher up, or the top-level parts, key '') holds only the parts that stop there, not the
+    deeper ones the engine's group of that path sums; those few are rolled up from the engine's part arrays.
+    """
+    members: dict[str, list[int]] = {}
+    for i, c in enumerate(model.components):  # one pass over the parts, not one a group
+        members.setdefault(group_key(c.path, opts.group_depth), []).append(i)
+    engine = {g: mp for g, _, mp in model.group_properties() if g.count("/") + 1 == opts.group_depth}
+    arrays = None
+    markers = []
+    for g in sorted(members):
+        index = np.asarray(members[g], np.intp)
+        mp = engine.get(g)
+        if mp is None:
+            arrays = arrays or model.arrays()
+            mp = batch.rollup(*(a[index] for a in arrays))
+        colour = group_colour[g] if opts.colour_by is ColourBy.GROUP else "#6d7378"
+        center = np.array(mp.center)
+        markers.append(GroupMarker(g or "(top level)", colour, center, mp.mass, cg_in_material(center, part_boxes[index])))
+    return markers
 
 
 def axis_name(vector: FloatArray) -> str:
@@ -365,44 +453,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     colours, legend, legend_title, group_colour = _legend_and_colours(model, opts, total.mass)
     part_rgb = np.array([hex_to_rgb(c) for c in colours], dtype=np.uint8)
 
-    cache: dict[Any, tuple[FloatArray, IntArray, IntArray, bool]] = {}
-    verts: list[FloatArray] = []
-    faces: list[IntArray] = []
-    owner: list[IntArray] = []
-    edges: list[FloatArray] = []
-    edge_owner: list[IntArray] = []
-    fallback: list[str] = []
-    points: list[int] = []
-    offset = 0
-    part_boxes = np.zeros((len(model.components), 2, 3))
-
-    marker = Sphere(opts.point_radius)
-    for i, comp in enumerate(model.components):
-        is_point = isinstance(comp.shape, PointMass)
-        key = ("point",) if is_point else (comp.shape, tuple((c.shape, c.pose.matrix4().tobytes()) for c in comp.cutouts))
-        if key not in cache:
-            if is_point:
-                mv, mf = marker.mesh_arrays(min(opts.chord_tolerance, opts.point_radius / 4))
-                lv, lf, used_cad = np.asarray(mv, float), np.asarray(mf, np.int64), False
-            else:
-                lv, lf, used_cad = part_mesh(comp, opts.chord_tolerance)
-            cache[key] = (lv, lf, sharp_edges(lv, lf) if not is_point else np.zeros((0, 2), np.int64), used_cad)
-        lv, lf, le, used_cad = cache[key]
-        if used_cad:
-            fallback.append(comp.path)
-        if is_point:
-            points.append(i)
-            v, f = lv + comp.props.center, lf
-        else:
-            v, f = place_mesh(lv, lf, comp)
-        part_boxes[i] = v.min(axis=0), v.max(axis=0)
-        verts.append(v)
-        faces.append(f + offset)
-        owner.append(np.full(len(f), i, np.int64))
-        if len(le):
-            edges.append(v[le])
-            edge_owner.append(np.full(len(le), i, np.int64))
-        offset += len(v)
+    merged = merge_parts(model, opts.chord_tolerance, opts.point_radius)
 
     slot_edges: list[tuple[str, FloatArray]] = []
     if opts.slots:
@@ -432,32 +483,20 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     else:
         moments, axes, radii = np.zeros(3), np.eye(3), np.zeros(3)
 
-    markers: list[GroupMarker] = []
-    if opts.group_cgs:
-        keys = [group_key(c.path, opts.group_depth) for c in model.components]
-        by_group: dict[str, list[int]] = {}
-        for i, g in enumerate(keys):  # one pass over the parts, not one a group
-            by_group.setdefault(g, []).append(i)
-        masses, centers, tensors = model.arrays()  # the engine's arrays of every part, made once
-        for g in sorted(by_group):
-            index = by_group[g]
-            mp = MassProperties(*combine_arrays(masses[index], centers[index], tensors[index]))
-            colour = group_colour[g] if opts.colour_by is ColourBy.GROUP else "#6d7378"
-            markers.append(GroupMarker(g or "(top level)", colour, np.array(mp.center), mp.mass,
-                                       cg_in_material(np.array(mp.center), part_boxes[index])))
+    markers = _group_markers(model, opts, group_colour, merged.part_boxes) if opts.group_cgs else []
 
     scene = Scene(
         model=model,
         options=opts,
         report=report,
-        vertices=np.vstack(verts),
-        faces=np.vstack(faces),
-        owner=np.concatenate(owner),
+        vertices=merged.vertices,
+        faces=merged.faces,
+        owner=merged.owner,
         part_colours=part_rgb,
-        edges=np.vstack(edges) if edges else np.zeros((0, 2, 3)),
-        edge_owner=np.concatenate(edge_owner) if edge_owner else np.zeros(0, np.int64),
+        edges=merged.edges,
+        edge_owner=merged.edge_owner,
         ballast=[i for i, c in enumerate(model.components) if c.slot],
-        points=points,
+        points=merged.points,
         slot_edges=slot_edges,
         cg=np.array(total.center),
         mass=total.mass,
@@ -472,7 +511,11 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
         legend_title=legend_title,
         group_markers=markers,
         axis_labels=labels,
-        fallback_parts=fallback,
+        fallback_parts=merged.fallback,
+        part_boxes=merged.part_boxes,
+        face_start=merged.face_start,
+        edge_faces=merged.edge_faces,
+        edge_index=merged.edge_index,
     )
     scene.mesh_seconds = time.perf_counter() - t0
     return scene
@@ -494,6 +537,13 @@ def _ray_hits(origins: FloatArray, direction: FloatArray, tri: FloatArray, eps: 
     v = np.einsum("j,rtj->rt", direction, q) * inv
     t = np.einsum("rtj,tj->rt", q, e2) * inv
     return ok & (u >= 0) & (v >= 0) & (u + v <= 1) & (t > eps)
+
+
+def _in_front(lo: FloatArray, hi: FloatArray, box_lo: FloatArray, box_hi: FloatArray) -> npt.NDArray[np.bool_]:
+    """Which boxes (lo, hi: (K, 3) in view coordinates right, up, toward the camera) overlap the targets' box
+    (box_lo, box_hi: (3,)) on screen and reach nearer the camera than its farthest point."""
+    return ((lo[:, 0] <= box_hi[0]) & (hi[:, 0] >= box_lo[0]) & (lo[:, 1] <= box_hi[1])
+            & (hi[:, 1] >= box_lo[1]) & (hi[:, 2] > box_lo[2]))
 
 
 def hidden_by(scene: Scene, toward_camera: FloatArray, targets: Sequence[FloatArray], skip: Sequence[int] = ()) -> set[int]:
@@ -519,23 +569,25 @@ def hidden_by(scene: Scene, toward_camera: FloatArray, targets: Sequence[FloatAr
     r = np.cross(d, helper)
     r /= np.linalg.norm(r)
     u = np.cross(d, r)
-    proj = np.stack([scene.vertices @ r, scene.vertices @ u, scene.vertices @ d], axis=1)
-    tri_proj = proj[scene.faces]  # (F, 3, 3)
-    lo = tri_proj.min(axis=1)
-    hi = tri_proj.max(axis=1)
+    frame = np.stack([r, u, d], axis=1)  # model → (right, up, toward the camera)
+    # first the parts, by their boxes (8 corners each, in view coordinates), then only the candidates' faces
+    boxes = scene.boxes()
+    corners = np.stack([boxes[:, [i, j, k], [0, 1, 2]] for i in (0, 1) for j in (0, 1) for k in (0, 1)], axis=1)
+    part_view = np.einsum("nkj,ji->nki", corners, frame)  # (N, 8, 3)
+    part_lo, part_hi = part_view.min(axis=1), part_view.max(axis=1)
     hidden: set[int] = set()
     skip_set = set(skip)
     for pts in targets:
         pts = np.atleast_2d(np.asarray(pts, float))
-        pp = np.stack([pts @ r, pts @ u, pts @ d], axis=1)
+        pp = pts @ frame
         box_lo, box_hi = pp.min(axis=0), pp.max(axis=0)
-        cand = np.flatnonzero(
-            (lo[:, 0] <= box_hi[0]) & (hi[:, 0] >= box_lo[0]) & (lo[:, 1] <= box_hi[1]) & (hi[:, 1] >= box_lo[1])
-            & (hi[:, 2] > box_lo[2])
-        )
-        if skip_set:
-            cand = cand[~np.isin(scene.owner[cand], list(skip_set))]
-        cand = cand[~np.isin(scene.owner[cand], list(hidden))] if hidden else cand
+        parts = np.flatnonzero(_in_front(part_lo, part_hi, box_lo, box_hi))
+        parts = parts[~np.isin(parts, list(skip_set | hidden))]
+        if not len(parts):
+            continue
+        faces = scene.part_faces(parts)
+        tri_view = np.einsum("fkj,ji->fki", scene.vertices[scene.faces[faces]], frame)  # (F, 3, 3)
+        cand = faces[_in_front(tri_view.min(axis=1), tri_view.max(axis=1), box_lo, box_hi)]
         for start in range(0, len(cand), 4000):
             chunk = cand[start : start + 4000]
             hits = _ray_hits(pts, d, scene.vertices[scene.faces[chunk]]).any(axis=0)

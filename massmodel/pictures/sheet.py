@@ -218,6 +218,7 @@ def render_sheet(scene: Scene, path: str | Path, size: tuple[int, int] = (2000, 
     result = _compose(scene, panels, rendered, (w, h), out)
     result.seconds.update(
         {"mesh": scene.mesh_seconds, "render": t1 - t0, "compose": time.perf_counter() - t1,
+         "rays": sum(r.ray_seconds for r in rendered),
          **{f"view_{r.camera.name}": r.seconds for r in rendered}}
     )
     return result

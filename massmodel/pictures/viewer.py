@@ -7,9 +7,9 @@ sheet keep one scale (pixels per metre) and the side, top and front views line u
 
 The scene is drawn in three layers of one render window:
 
-- layer 0: the parts (one actor for the opaque parts, one semi-transparent actor for the parts that hide the CG or
-  a ballast block in this view; colours per cell), their ink outlines, the ground plane, axle lines, wheel contact
-  points and the axis triad;
+- layer 0: the parts (one actor for the opaque parts, only their faces that face the camera, see
+  :func:`facing_parts`; one semi-transparent actor for the parts that hide the CG or a ballast block in this view;
+  colours per cell), their ink outlines, the ground plane, axle lines, wheel contact points and the axis triad;
 - layer 1: slot wire envelopes, ballast outlines, principal axes of inertia and group CG markers (drawn over the
   parts, so they stay visible);
 - layer 2: the total CG marker, unlit, so its colour in the picture is exactly :data:`~massmodel.pictures.scene.CG_COLOUR`.
@@ -266,28 +266,89 @@ def principal_axis_factor(scene: Scene) -> float:
     return 0.125
 
 
-def _view_props(scene: Scene, cam: ViewCamera | None) -> list[Prop]:
-    """Actors that change with the view: parts (opaque and see-through), outlines, layer-1 marks, the CG."""
+def _faces_prop(scene: Scene, points: Any, faces: npt.NDArray[np.int64], opacity: float) -> list[Prop]:
+    """A layer-0 actor of some faces (on the scene's shared VTK points): one mesh with the per-cell colours of
+    their parts."""
+    from . import vtkbits as vb
+
+    if len(faces) == 0:
+        return []
+    poly = vb.polydata(points, scene.faces[faces], scene.part_colours[scene.owner[faces]])
+    return [(0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62))]
+
+
+def _edges_prop(scene: Scene, points: Any, edges: npt.NDArray[np.int64], see_through: bool) -> list[Prop]:
+    """A layer-0 actor of some outline edges: ink, or light grey on see-through parts."""
+    from . import vtkbits as vb
+
+    if len(edges) == 0:
+        return []
+    if scene.edge_index is not None:
+        poly = vb.edge_lines(points, scene.edge_index[edges])
+    else:
+        poly = vb.lines(scene.edges[edges])
+    if see_through:
+        return [(0, vb.actor(poly, "#9aa1a6", opacity=0.6, lighting=False))]
+    return [(0, vb.actor(poly, INK, lighting=False))]
+
+
+def facing_parts(scene: Scene, cam: ViewCamera | None,
+                 clear: npt.NDArray[np.int64]) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int64]]:
+    """Faces and outline edges drawn opaque in a view: those of the parts not in ``clear`` that can be seen.
+
+    A closed part with its faces outward hides, in a parallel view, every face turned away from the camera
+    (outward normal · toward < 0) behind its own front faces, and every edge between two such faces: leaving them
+    out halves what the renderer draws. Edge-on faces, open edges, every face of a part that may be seen from inside
+    (:meth:`~massmodel.pictures.scene.Scene.two_sided_parts`) and every face of the interactive view (``cam`` None,
+    turned by the user), or of a scene that does not know its edges' faces, are kept.
+
+    Returns
+    -------
+    faces, edges : (K,) int
+        Indices into ``scene.faces`` and ``scene.edges``.
+    """
+    face_on = np.ones(len(scene.faces), bool)
+    edge_on = np.ones(len(scene.edges), bool)
+    if cam is not None and scene.edge_faces is not None:
+        face_on = scene.face_normals() @ np.asarray(cam.toward, float) >= 0.0
+        two_sided = scene.two_sided_parts()
+        if len(two_sided):
+            face_on[scene.part_faces(two_sided)] = True
+        if len(scene.edges):
+            ef = scene.edge_faces
+            edge_on = face_on[ef[:, 0]] | (ef[:, 1] < 0) | face_on[np.maximum(ef[:, 1], 0)]
+    if len(clear):
+        face_on[scene.part_faces(clear)] = False
+        edge_on &= ~np.isin(scene.edge_owner, clear)
+    return np.flatnonzero(face_on), np.flatnonzero(edge_on)
+
+
+def _fixed_marks(scene: Scene) -> list[Prop]:
+    """Layer-1 actors that do not change with the view: slot envelopes and ballast outlines."""
     from . import vtkbits as vb
 
     out: list[Prop] = []
-    clear = _split_for_view(scene, cam) if cam is not None else _split_interactive(scene)
-    for mask, opacity in ((~clear, 1.0), (clear, TRANSLUCENT_OPACITY)):
-        if mask.any():
-            poly = vb.polydata(scene.vertices, scene.faces[mask], scene.part_colours[scene.owner[mask]])
-            out.append((0, vb.actor(poly, cell_colours=True, opacity=opacity, ambient=0.38, diffuse=0.62)))
-    e_clear = np.isin(scene.edge_owner, np.unique(scene.owner[clear]))
-    if (~e_clear).any():
-        out.append((0, vb.actor(vb.lines(scene.edges[~e_clear]), INK, lighting=False)))
-    if e_clear.any():
-        out.append((0, vb.actor(vb.lines(scene.edges[e_clear]), "#9aa1a6", opacity=0.6, lighting=False)))
-    px = 1.0 / cam.scale if cam is not None else 0.004
     for _name, edges in scene.slot_edges:
         out.append((1, vb.actor(vb.lines(edges), SLOT_COLOUR, line_width=2.0, lighting=False)))
     if scene.ballast:
         mask = np.isin(scene.edge_owner, scene.ballast)
         if mask.any():
             out.append((1, vb.actor(vb.lines(scene.edges[mask]), BALLAST_COLOUR, line_width=3.0, lighting=False)))
+    return out
+
+
+def _view_props(scene: Scene, points: Any, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> list[Prop]:
+    """Actors that change with the view: the parts that face the camera (opaque; :func:`facing_parts`), the parts
+    in ``clear`` (see-through, every face), their outlines, and the principal axes, group CG markers and the CG
+    (sized in pixels)."""
+    from . import vtkbits as vb
+
+    faces, edges = facing_parts(scene, cam, clear)
+    out = _faces_prop(scene, points, faces, 1.0)
+    out += _faces_prop(scene, points, scene.part_faces(clear), TRANSLUCENT_OPACITY)
+    out += _edges_prop(scene, points, edges, False)
+    out += _edges_prop(scene, points, np.flatnonzero(np.isin(scene.edge_owner, clear)), True)
+    px = 1.0 / cam.scale if cam is not None else 0.004
     if scene.options.principal_axes and scene.mass > 0:
         f = principal_axis_factor(scene)
         seg = [[scene.cg - f * r * a, scene.cg + f * r * a] for a, r in zip(scene.axes, scene.radii, strict=True)]
@@ -311,29 +372,27 @@ def _targets(scene: Scene, cam: ViewCamera) -> list[FloatArray]:
     disc = scene.cg + r * (np.cos(ang)[:, None] * cam.right + np.sin(ang)[:, None] * cam.up)
     targets = [np.vstack([scene.cg, disc])]
     for i in scene.ballast:
-        v = scene.vertices[np.unique(scene.faces[scene.owner == i])]
+        v = scene.vertices[np.unique(scene.faces[scene.part_faces([i])])]
         c = 0.5 * (v.min(axis=0) + v.max(axis=0))
         targets.append(np.vstack([c, c + 0.6 * (v[:: max(1, len(v) // 12)] - c)]))
     return targets
 
 
-def _split_for_view(scene: Scene, cam: ViewCamera) -> npt.NDArray[np.bool_]:
-    """Face mask of the parts drawn see-through in this view (they hide the CG or a ballast block)."""
+def see_through(scene: Scene, cam: ViewCamera) -> npt.NDArray[np.int64]:
+    """Components drawn see-through in this view (sorted): the parts that hide the CG or a ballast block."""
     targets = _targets(scene, cam)
     hidden = hidden_by(scene, cam.toward, targets[:1])
     if len(targets) > 1:
         hidden |= hidden_by(scene, cam.toward, targets[1:], skip=scene.ballast)
     hidden -= set(scene.ballast)
-    return np.isin(scene.owner, sorted(hidden))
-
-
-def _split_interactive(scene: Scene) -> npt.NDArray[np.bool_]:
-    """For the interactive window: parts hiding the CG from the isometric direction are see-through."""
-    return _split_for_view(scene, view_camera(scene, "iso", 1200, 800))
+    return np.array(sorted(hidden), np.int64)
 
 
 class _Stage:
     """A render window with three layers, re-filled and re-aimed for every view.
+
+    The marks that do not change with the view are put in once; the parts (as they face each camera, see
+    :func:`facing_parts`) and the marks sized in pixels are made again for each view.
 
     Off-screen it is a bare VTK window (fast to start); for the interactive window it borrows a pyvista
     plotter's window and renderer.
@@ -343,22 +402,27 @@ class _Stage:
         from . import vtkbits as vb
 
         self.scene = scene
+        self.points = vb.shared_points(scene.vertices)  # one array of points for every view's parts and outlines
         if plotter is None:
             self.window, base = vb.offscreen_window(size[0], size[1], PANEL_BACKGROUND)
         else:
             self.window, base = plotter.ren_win, plotter.renderer
         self.layers = [base, vb.layer_renderer(self.window, base, 1), vb.layer_renderer(self.window, base, 2)]
-        for layer, act in _static_props(scene):
+        for layer, act in _static_props(scene) + _fixed_marks(scene):
             self.layers[layer].AddActor(act)
         self._view_actors: list[Prop] = []
+        self.triangles = 0
 
-    def fill(self, cam: ViewCamera | None) -> None:
-        """Put in the view-dependent actors for camera ``cam`` (None: the interactive view)."""
+    def fill(self, cam: ViewCamera | None, clear: npt.NDArray[np.int64]) -> None:
+        """Put in the view-dependent actors for camera ``cam`` (None: the interactive view), with the parts
+        ``clear`` see-through."""
         for layer, act in self._view_actors:
             self.layers[layer].RemoveActor(act)
-        self._view_actors = _view_props(self.scene, cam)
+        self._view_actors = _view_props(self.scene, self.points, cam, clear)
         for layer, act in self._view_actors:
             self.layers[layer].AddActor(act)
+        self.triangles = sum(int(act.GetMapper().GetInput().GetNumberOfPolys()) for layer, act in self._view_actors
+                             if layer == 0)  # the parts' triangles in this view (opaque and see-through)
 
     def aim(self, cam: ViewCamera) -> None:
         self.window.SetSize(cam.width, cam.height)
@@ -386,12 +450,16 @@ class _Stage:
 @dataclass(frozen=True, slots=True)
 class RenderedView:
     """One rendered view: its camera, the RGB image (H, W, 3) uint8 and VTK's composite projection matrix
-    (model coordinates → normalised device coordinates) of the camera it was drawn with."""
+    (model coordinates → normalised device coordinates) of the camera it was drawn with; ``seconds`` the time spent
+    drawing it (actors, render, pixels), ``ray_seconds`` the time of its see-through ray tests, s; ``triangles``
+    the number of the parts' triangles drawn (those facing the camera, and every face of the see-through parts)."""
 
     camera: ViewCamera
     image: npt.NDArray[np.uint8]
     vtk_matrix: FloatArray
     seconds: float
+    ray_seconds: float = 0.0
+    triangles: int = 0
 
 
 def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedView]:
@@ -404,13 +472,17 @@ def render_views(scene: Scene, cameras: Sequence[ViewCamera]) -> list[RenderedVi
     try:
         for cam in cameras:
             t0 = time.perf_counter()
-            stage.fill(cam)
+            see = see_through(scene, cam)
+            t_rays = time.perf_counter() - t0
+            t0 = time.perf_counter()
+            stage.fill(cam, see)
             stage.aim(cam)
             img = stage.snap()
             if img.shape[:2] != (cam.height, cam.width):
                 raise OSError(f"the renderer returned a {img.shape[1]}x{img.shape[0]} image for a "
                               f"{cam.width}x{cam.height} view")
-            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0))
+            out.append(RenderedView(cam, img, stage.composite_matrix(cam), time.perf_counter() - t0, t_rays,
+                                    stage.triangles))
     finally:
         stage.close()
     return out
@@ -448,7 +520,7 @@ def show_interactive(
     pl = pv.Plotter(off_screen=off_screen, window_size=list(window_size), lighting="light kit")
     pl.set_background(PANEL_BACKGROUND)  # type: ignore[arg-type]  # pyvista's decorator hides the signature
     stage = _Stage(scene, window_size, plotter=pl)
-    stage.fill(None)
+    stage.fill(None, see_through(scene, view_camera(scene, "iso", 1200, 800)))  # parts hiding the CG from iso
     pl.add_text("\n".join(title_lines), position="upper_left", font_size=10, color=INK)
     entries = [[f"{e.label}" + (f"  {e.mass:.1f} kg" if e.mass is not None else ""), e.colour] for e in scene.legend]
     if entries:

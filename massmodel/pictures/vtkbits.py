@@ -36,7 +36,9 @@ from vtkmodules.vtkRenderingCore import (
 )
 
 __all__ = [
+    "shared_points",
     "polydata",
+    "edge_lines",
     "lines",
     "polygon",
     "sphere",
@@ -66,10 +68,18 @@ def _points(vertices: FloatArray) -> Any:
     return pts
 
 
-def polydata(vertices: FloatArray, triangles: npt.NDArray[np.int64], cell_rgb: npt.NDArray[np.uint8] | None = None) -> Any:
-    """Triangles (F, 3) on vertices (V, 3) m, optionally with one RGB colour (F, 3) uint8 per triangle."""
+def shared_points(vertices: FloatArray) -> Any:
+    """VTK points (V, 3) m to build several poly data on (:func:`polydata`, :func:`edge_lines`): the renderer
+    uploads one array of points once for all the actors and views that use it."""
+    return _points(vertices)
+
+
+def polydata(vertices: FloatArray | Any, triangles: npt.NDArray[np.int64],
+             cell_rgb: npt.NDArray[np.uint8] | None = None) -> Any:
+    """Triangles (F, 3) on vertices (V, 3) m (or on :func:`shared_points`), optionally with one RGB colour (F, 3)
+    uint8 per triangle."""
     poly = vtkPolyData()
-    poly.SetPoints(_points(vertices))
+    poly.SetPoints(vertices if isinstance(vertices, vtkPoints) else _points(vertices))
     poly.SetPolys(_cell_array(triangles, 3))
     if cell_rgb is not None:
         colours = numpy_to_vtk(np.ascontiguousarray(cell_rgb, dtype=np.uint8), deep=True)
@@ -84,6 +94,14 @@ def lines(segments: FloatArray) -> Any:
     poly = vtkPolyData()
     poly.SetPoints(_points(seg.reshape(-1, 3)))
     poly.SetLines(_cell_array(np.arange(2 * len(seg), dtype=np.int64), 2))
+    return poly
+
+
+def edge_lines(points: Any, pairs: npt.NDArray[np.int64]) -> Any:
+    """Line segments between pairs (K, 2) of :func:`shared_points`."""
+    poly = vtkPolyData()
+    poly.SetPoints(points)
+    poly.SetLines(_cell_array(pairs, 2))
     return poly
 
 
@@ -238,6 +256,7 @@ def grab(window: Any) -> npt.NDArray[np.uint8]:
     window.Render()
     f = vtkWindowToImageFilter()
     f.SetInput(window)
+    f.ShouldRerenderOff()  # just rendered: a second render would double the time of a large view
     f.SetInputBufferTypeToRGB()
     f.ReadFrontBufferOff()
     f.Update()
