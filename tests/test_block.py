@@ -30,7 +30,7 @@ def occ_props(solid):
     from OCP.GProp import GProp_GProps
 
     props = GProp_GProps()
-    BRepGProp.VolumeProperties_s(solid.wrapped, props, 1e-14)
+    BRepGProp.VolumeProperties_s(getattr(solid, "wrapped", solid), props, 1e-14)  # a cadquery or an OCP shape
     c = props.CentreOfMass()
     m = props.MatrixOfInertia()
     tensor = np.array([[m.Value(i, j) for j in (1, 2, 3)] for i in (1, 2, 3)]) * 1e-15

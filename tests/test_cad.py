@@ -114,7 +114,7 @@ def test_tessellate_a_box_exactly():
     import cadquery as cq
     import trimesh
 
-    v, f = tessellate(cq.Solid.makeBox(10, 20, 30), 0.1)
+    v, f = tessellate(cq.Solid.makeBox(10, 20, 30).wrapped, 0.1)  # an OCP shape, built by cadquery
     mesh = trimesh.Trimesh(v, f, process=True)
     assert len(f) == 12 and mesh.is_watertight
     assert_close(mesh.volume, 6000.0, 1e-12)

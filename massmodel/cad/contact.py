@@ -58,7 +58,7 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
 
     Parameters
     ----------
-    block, envelope : cadquery Shape
+    block, envelope : OCP.TopoDS.TopoDS_Shape
         Solids in mm, same frame (see :mod:`massmodel.cad.solids`).
     clearance : float
         Required gap to the envelope walls, m.
@@ -79,16 +79,16 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
 
     from .solids import volume_props
 
-    cut = BRepAlgoAPI_Cut(block.wrapped, envelope.wrapped)
+    cut = BRepAlgoAPI_Cut(block, envelope)
     if not cut.IsDone():  # a failed boolean has an empty result: it must not read as "nothing outside"
         raise RuntimeError("the OpenCascade boolean (block minus slot envelope) failed")
     outside_mm3 = max(float(volume_props(cut.Shape()).Mass()), 0.0)
     outside = 0.0 if outside_mm3 < SLIVER_MM3 else outside_mm3 * 1e-9
 
     best = (np.inf, np.zeros(3), np.zeros(3))
-    explorer = TopExp_Explorer(envelope.wrapped, TopAbs_SHELL)
+    explorer = TopExp_Explorer(envelope, TopAbs_SHELL)
     while explorer.More():
-        dist = BRepExtrema_DistShapeShape(block.wrapped, explorer.Current())
+        dist = BRepExtrema_DistShapeShape(block, explorer.Current())
         if dist.IsDone() and dist.NbSolution() > 0 and dist.Value() < best[0]:
             p1, p2 = dist.PointOnShape1(1), dist.PointOnShape2(1)
             best = (dist.Value(), np.array([p1.X(), p1.Y(), p1.Z()]) * 1e-3, np.array([p2.X(), p2.Y(), p2.Z()]) * 1e-3)
@@ -155,7 +155,7 @@ def overlap_volume(a: Any, b: Any) -> tuple[float, np.ndarray]:
 
     from .solids import volume_props
 
-    op = BRepAlgoAPI_Common(a.wrapped, b.wrapped)
+    op = BRepAlgoAPI_Common(a, b)
     if not op.IsDone():
         raise RuntimeError("the OpenCascade boolean (common) failed")
     props = volume_props(op.Shape())
@@ -178,7 +178,7 @@ def distance_between(a: Any, b: Any) -> tuple[float, np.ndarray, np.ndarray]:
     """
     from OCP.BRepExtrema import BRepExtrema_DistShapeShape
 
-    dist = BRepExtrema_DistShapeShape(a.wrapped, b.wrapped)
+    dist = BRepExtrema_DistShapeShape(a, b)
     if not dist.IsDone() or dist.NbSolution() == 0:
         raise RuntimeError("the OpenCascade distance computation failed")
     p1, p2 = dist.PointOnShape1(1), dist.PointOnShape2(1)
