@@ -517,6 +517,28 @@ class BlockGeometry:
         out = about_origin - shift
         return 0.5 * (out + out.T)
 
+    def face_points(self) -> FloatArray:
+        """A point of the solid on each of the six box faces, (3, 2, 3) float, m, block frame.
+
+        ``[k, 0]`` lies on the face across axis ``k`` at −size/2, ``[k, 1]`` at +size/2: the face centre, or, on the two
+        faces the holes open into, the corner of the face's flat part (in from each edge by the chamfer leg when that
+        edge is chamfered). The holes keep at least the chamfer size from the face's edges (checked when the block is
+        made), so that corner is material. Used by the closed-form fit check (:mod:`massmodel.cad.boxfit`).
+        """
+        half = 0.5 * np.array(self.size)
+        edges = self.chamfer.edges if self.chamfer else ""
+        s = self.chamfer.size if self.chamfer else 0.0
+        pierced = AXES.index(self.holes.axis) if self.holes else None
+        out = np.zeros((3, 2, 3))
+        for k in range(3):
+            i, j = (k + 1) % 3, (k + 2) % 3
+            for side, sign in enumerate((-1.0, 1.0)):
+                out[k, side, k] = sign * half[k]
+                if k == pierced:  # the face's edges at ±half[i] run along j, those at ±half[j] along i
+                    out[k, side, i] = half[i] - (s if AXES[j] in edges else 0.0)
+                    out[k, side, j] = half[j] - (s if AXES[i] in edges else 0.0)
+        return out
+
     # --- CAD ----------------------------------------------------------------------------------------------
     def to_solid(self) -> Any:
         """The block as an OpenCascade solid (``OCP.TopoDS.TopoDS_Shape``) in MILLIMETRES, block frame: the box, then

@@ -12,9 +12,10 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["SLIVER_MM3", "FitResult", "candidate_pairs", "distance_between", "fit_in_slot", "overlap_volume"]
+__all__ = ["FIT_TOL", "SLIVER_MM3", "FitResult", "candidate_pairs", "distance_between", "fit_in_slot", "overlap_volume"]
 
 SLIVER_MM3 = 1e-3  # volumes below 0.001 mm³ are round-off of the boolean, not material
+FIT_TOL = 1e-9  # m: a clearance this much short of the requirement still passes (round-off of the distance)
 
 
 @dataclass(frozen=True, slots=True)
@@ -32,7 +33,10 @@ class FitResult:
     required_clearance : float
         m.
     closest_block, closest_envelope : (3,) float
-        The closest pair of points, m, model frame.
+        The closest pair of points, m, model frame (one point where they meet, when the clearance is 0).
+    method : str
+        How it was found: "OpenCascade" (the exact check on the B-rep solids) or "closed form" (a box block square
+        to a box slot, :mod:`massmodel.cad.boxfit`).
     """
 
     fits: bool
@@ -41,13 +45,14 @@ class FitResult:
     required_clearance: float
     closest_block: np.ndarray
     closest_envelope: np.ndarray
+    method: str = "OpenCascade"
 
     @property
     def reason(self) -> str:
         """A sentence saying why the block does not fit ('' when it fits)."""
         if self.outside_volume > 0.0:
             return f"{self.outside_volume * 1e9:.1f} mm^3 of the block lies outside the slot"
-        if self.clearance < self.required_clearance:
+        if self.clearance < self.required_clearance - FIT_TOL:
             return (f"clearance {self.clearance * 1e3:.3f} mm to the slot walls is less than the required "
                     f"{self.required_clearance * 1e3:.3f} mm")
         return ""
@@ -94,7 +99,7 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
             best = (dist.Value(), np.array([p1.X(), p1.Y(), p1.Z()]) * 1e-3, np.array([p2.X(), p2.Y(), p2.Z()]) * 1e-3)
         explorer.Next()
     gap = float(best[0]) * 1e-3
-    fits = outside == 0.0 and gap >= clearance - 1e-9
+    fits = outside == 0.0 and gap >= clearance - FIT_TOL
     return FitResult(fits, outside, gap, clearance, best[1], best[2])
 
 
