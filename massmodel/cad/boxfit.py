@@ -25,9 +25,10 @@ Lengths in metres; poses map the block (slot) frame, centred on its box, to the 
 
 References
 ----------
-Interval arithmetic of axis-aligned boxes: the intersection of two boxes is the box of the intersections of their
-intervals, and the distance between disjoint boxes is the norm of the per-axis gaps (Ericson, C. (2005). Real-Time
-Collision Detection, Morgan Kaufmann, §4.2 and §5.1.3 (AABB overlap, closest point on an AABB)).
+Interval arithmetic of axis-aligned boxes (elementary): the intersection of two boxes is the box of the intersections
+of their intervals, and the distance between disjoint boxes is the norm of the per-axis gaps. The same AABB overlap
+and closest-point tests are in Ericson, C. (2005). Real-Time Collision Detection, Morgan Kaufmann, §4.2 and §5.1.3
+(section numbers from memory).
 """
 
 from __future__ import annotations
