@@ -462,7 +462,8 @@ def test_to_solid_mass_properties(name: str) -> None:
 
 
 @pytest.mark.parametrize(
-    "name", ["box", "tube", "hemisphere", "cone", "frustum_top_larger", "wedge", "extrusion_l", "torus"]
+    "name", ["box", "cylinder", "tube", "sphere", "spherical_shell", "hemisphere", "cone", "frustum_top_larger", "wedge",
+             "extrusion_l", "torus"]
 )
 def test_to_solid_is_the_independent_solid(name: str) -> None:
     # OpenCascade booleans: both differences between our solid and the independent one have ~zero volume.
