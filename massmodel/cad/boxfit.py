@@ -7,7 +7,7 @@ When it applies
     is a signed permutation matrix to 1e-12 in every entry. Then, in the slot's frame, the block's box is the interval
     box spanned by its 8 corners, and:
 
-    * inside: every corner lies within the slot's walls (to 1e-9 m, the exact check's tolerance). Nothing lies outside; the distance from the block to the
+    * inside: every corner lies within the slot's walls. Nothing lies outside; the distance from the block to the
       slot's shell is the smallest of the six wall gaps (each wall faces a face of the block squarely, and that face
       has material on its plane); the closest points are a point of that face and its foot on the wall.
     * otherwise, for a whole box only: the volume outside is the block's volume minus the product of the interval
@@ -42,13 +42,14 @@ from massmodel.core.frames import Pose
 
 from .contact import FIT_TOL, SLIVER_MM3, FitResult
 
-__all__ = ["PERMUTATION_TOL", "BoxBlock", "box_fit", "signed_permutation"]
+__all__ = ["CLOSED_FORM", "PERMUTATION_TOL", "ROUND_OFF", "BoxBlock", "box_fit", "signed_permutation"]
 
 FloatArray = npt.NDArray[np.float64]
 
 #: largest difference of a rotation's entries from 0 or ±1 for it to count as a signed permutation
 PERMUTATION_TOL = 1e-12
 CLOSED_FORM = "closed form"  # FitResult.method
+ROUND_OFF = 1e-12  # m: a drilled or chamfered block this far past a wall is flush with it (see box_fit)
 
 
 @dataclass(frozen=True)
@@ -149,14 +150,18 @@ def box_fit(block: BoxBlock, slot_size: npt.ArrayLike, slot_pose: Pose, clearanc
         return r_slot @ q + np.asarray(slot_pose.translation, dtype=float)
 
     gaps = np.concatenate([lo + half_slot, half_slot - hi])  # low walls x, y, z, then high walls
-    if np.all(gaps >= -FIT_TOL):  # inside: the corners within the walls, to the tolerance of the exact check
+    # A whole box past a wall is measured exactly below; a block with material taken away is let ROUND_OFF past a
+    # wall (the round-off of placing it flush) only where that leaves less than the sliver volume outside.
+    faces_m2 = float(np.max(4.0 * np.array([half[1] * half[2], half[0] * half[2], half[0] * half[1]])))
+    slack = ROUND_OFF if not block.whole and faces_m2 * ROUND_OFF * 1e9 < SLIVER_MM3 else 0.0
+    if np.all(gaps >= -slack):  # inside: the 8 corners within the walls
         m = int(np.argmin(gaps))
         k, side = m % 3, (1.0 if m >= 3 else -1.0)
         axis = int(np.flatnonzero(perm[k])[0])  # the block axis along slot axis k
         face = 1 if side * perm[k, axis] > 0.0 else 0
         on_block = centre + perm @ block.face_points[axis, face]  # type: ignore[index]
         on_wall = on_block.copy()
-        gap = max(float(gaps[m]), 0.0)  # a face past its wall by less than the tolerance touches it
+        gap = max(float(gaps[m]), 0.0)  # a face past its wall by round-off touches it
         if gap > 0.0:
             on_wall[k] = side * half_slot[k]
         return FitResult(gap >= clearance - FIT_TOL, 0.0, gap, clearance, to_model(on_block), to_model(on_wall),
