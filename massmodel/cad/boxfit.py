@@ -9,7 +9,9 @@ When it applies
 
     * inside: every corner lies within the slot's walls. Nothing lies outside; the distance from the block to the
       slot's shell is the smallest of the six wall gaps (each wall faces a face of the block squarely, and that face
-      has material on its plane); the closest points are a point of that face and its foot on the wall.
+      has material on its plane); the closest points are a point of that face and its foot on the wall. A block with
+      material taken away may lie 1e-12 m past a wall (the round-off of placing it flush; less than the sliver volume
+      outside for faces under 1 m²) and count as touching it.
     * otherwise, for a whole box only: the volume outside is the block's volume minus the product of the interval
       overlaps; the distance is 0 when the boxes meet (the block crosses, touches or holds the shell; both closest
       points are then one point of the slot's shell within the block, as OpenCascade reports a meeting) and the
