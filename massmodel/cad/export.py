@@ -351,12 +351,11 @@ def export_model(
     parts: list[ExportPart] = []
     cache: dict[Any, Any] = {}
     used: set[int] = set()
+    import cadquery as cq  # MERGE ADAPTER: solids are OCP shapes now; this module and formats.py still take cadquery's
+
     for k, c in enumerate(with_solid):
         shape, location = component_local_solid(c, cache)
-        # MERGE ADAPTER: solids are OCP shapes now; this module and formats.py still use cadquery Shapes
-        import cadquery as cq
-
-        solid = cq.Shape.cast(shape)
+        solid = cq.Shape.cast(shape)  # MERGE ADAPTER (see above)
         if id(shape) in used:  # a patterned copy: its own solid, so that STEP names it by its own path
             solid = _copy_shape(solid)
         used.add(id(shape))
