@@ -113,7 +113,7 @@ def occ_solids(parts: list[batch.Batch]) -> list[tuple[object, float, bool]]:
         cls = SHAPE_KINDS[b.kind]
         for dims, rho, r, t in zip(b.dims, b.densities, b.rotations, b.translations, strict=True):
             solid = place_solid(to_solid(cls(*(float(v) for v in dims))), Pose(r, t))
-            solids.append((solid.wrapped, float(rho), b.kind == "ellipsoid"))
+            solids.append((solid, float(rho), b.kind == "ellipsoid"))
     return solids
 
 

@@ -42,7 +42,7 @@ def main() -> int:
         export_s = min(times)
         t = time.perf_counter()
         solids = [component_solid(c) for c in model.components if has_solid(c)]
-        cq.Compound.makeCompound(solids).exportStep(str(Path(tmp) / "plain.step"))
+        cq.Compound.makeCompound([cq.Shape.cast(s) for s in solids]).exportStep(str(Path(tmp) / "plain.step"))
         plain_s = time.perf_counter() - t
         sizes = {p.suffix: p.stat().st_size for p in result.files}
         t = time.perf_counter()

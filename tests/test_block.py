@@ -30,7 +30,7 @@ def occ_props(solid):
     from OCP.GProp import GProp_GProps
 
     props = GProp_GProps()
-    BRepGProp.VolumeProperties_s(solid.wrapped, props, 1e-14)
+    BRepGProp.VolumeProperties_s(getattr(solid, "wrapped", solid), props, 1e-14)  # a cadquery or an OCP shape
     c = props.CentreOfMass()
     m = props.MatrixOfInertia()
     tensor = np.array([[m.Value(i, j) for j in (1, 2, 3)] for i in (1, 2, 3)]) * 1e-15
@@ -111,6 +111,29 @@ def test_holes_along_other_axes_match_the_cad_solid(axis):
     assert g.volume() == pytest.approx(vol, rel=1e-12)
     assert_close(g.centroid(), cen, 1e-10)
     assert_close(g.inertia_per_density(), tensor, 1e-10)
+
+
+@pytest.mark.parametrize("edges", ["xyz", "z", "x", "xy"])
+@pytest.mark.parametrize("end", [">Z", "<Z"])
+def test_the_block_solid_is_the_cadquery_built_block(edges, end):
+    # The block's own solid (OCP: box, BRepFilletAPI_MakeChamfer, boolean cuts) against the same block built with
+    # cadquery's operations (oracle_block): the OpenCascade booleans both ways leave no volume, so the two solids
+    # coincide (same origin, orientation, sizes, chamfers, holes and counterbore end).
+    from OCP.BRepAlgoAPI import BRepAlgoAPI_Cut
+    from OCP.BRepGProp import BRepGProp
+    from OCP.GProp import GProp_GProps
+    from OCP.TopoDS import TopoDS_Shape
+
+    points = [(-30.0, 10.0), (25.0, -12.0), (40.0, 14.0)]
+    pattern = HolePattern("points", 3, 0.0085, axis="z", points=tuple((x * 1e-3, y * 1e-3) for x, y in points),
+                          counterbore=Counterbore(0.014, 0.006), counterbore_end=1 if end == ">Z" else -1)
+    ours = BlockGeometry((0.11, 0.05, 0.025), holes=pattern, chamfer=Chamfer(0.0015, edges)).to_solid()
+    assert isinstance(ours, TopoDS_Shape)
+    theirs = oracle_block((110, 50, 25), 1.5, edges, points, 8.5, (14.0, 6.0), end).wrapped
+    for a, b in ((ours, theirs), (theirs, ours)):
+        props = GProp_GProps()
+        BRepGProp.VolumeProperties_s(BRepAlgoAPI_Cut(a, b).Shape(), props)
+        assert abs(props.Mass()) < 1e-6  # mm³, of a block of some 1.3e5 mm³
 
 
 def test_plain_box_matches_handbook():

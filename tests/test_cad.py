@@ -11,8 +11,10 @@ import numpy as np
 import pytest
 
 from conftest import assert_close
+from massmodel.cad.primitives import solids_of
 from massmodel.cad.solids import (
     component_local_mesh,
+    component_local_solid,
     component_solid,
     has_solid,
     solid_bounds,
@@ -74,8 +76,16 @@ def test_split_pose_writes_an_improper_pose_as_rotation_times_mirror(rng):
 
 @pytest.mark.parametrize("path", ["side/left/gusset", "side/right/gusset"])
 def test_placed_solid_carries_the_models_mass_properties(model, path):
+    from OCP.TopAbs import TopAbs_SOLID
+    from OCP.TopoDS import TopoDS_Shape
+
     c = model.component(path)
-    mass, center, inertia = solid_volume_properties(component_solid(c), c.density)
+    solid = component_solid(c)
+    local, _ = component_local_solid(c)
+    for shape in (solid, local):  # OCP shapes, no cadquery wrapper (the contract for the exporters)
+        assert isinstance(shape, TopoDS_Shape) and len(solids_of(shape)) == 1
+        assert solids_of(shape)[0].ShapeType() == TopAbs_SOLID
+    mass, center, inertia = solid_volume_properties(solid, c.density)
     assert_close(mass, c.props.mass, 1e-12, "mass")
     assert_close(center, c.props.center, 1e-12, "CG")
     assert_close(inertia, c.props.inertia, 1e-10, "inertia")
@@ -114,7 +124,7 @@ def test_tessellate_a_box_exactly():
     import cadquery as cq
     import trimesh
 
-    v, f = tessellate(cq.Solid.makeBox(10, 20, 30), 0.1)
+    v, f = tessellate(cq.Solid.makeBox(10, 20, 30).wrapped, 0.1)  # an OCP shape, built by cadquery
     mesh = trimesh.Trimesh(v, f, process=True)
     assert len(f) == 12 and mesh.is_watertight
     assert_close(mesh.volume, 6000.0, 1e-12)

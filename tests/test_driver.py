@@ -233,7 +233,7 @@ def test_driver_mass_properties_against_opencascade():
     total = GProp_GProps()
     for c in model.components:
         props = GProp_GProps()
-        BRepGProp.VolumeProperties_s(component_solid(c).wrapped, props, 1e-14)
+        BRepGProp.VolumeProperties_s(component_solid(c), props, 1e-14)
         total.Add(props, c.props.mass / c.volume)
     m = total.Mass() * 1e-9
     centre = total.CentreOfMass()

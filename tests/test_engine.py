@@ -149,7 +149,7 @@ def test_the_model_engine_matches_opencascade() -> None:
     total = GProp_GProps()
     for c in density_parts:
         props = GProp_GProps()
-        BRepGProp.VolumeProperties_s(component_solid(c).wrapped, props)
+        BRepGProp.VolumeProperties_s(component_solid(c), props)
         total.Add(props, float(c.density))
     g = total.CentreOfMass()
     m = total.MatrixOfInertia()

@@ -154,7 +154,7 @@ def occ_assembly(components: list[Component]) -> tuple[float, np.ndarray, np.nda
     total = GProp_GProps()
     for c in components:
         props = GProp_GProps()
-        solid = component_solid(c).wrapped
+        solid = component_solid(c)
         if c.shape.kind == "ellipsoid":  # a NURBS solid: the adaptive integrator is needed for 1e-10 accuracy
             BRepGProp.VolumeProperties_s(solid, props, 1e-14)
         else:

@@ -42,7 +42,8 @@ angle = "deg"
 
 
 def box(sx: float, sy: float, sz: float, at=(0.0, 0.0, 0.0)):
-    return cq.Solid.makeBox(sx, sy, sz, cq.Vector(at[0] - sx / 2, at[1] - sy / 2, at[2] - sz / 2))
+    """A box built by cadquery (independent of massmodel's builders), as the OCP shape the checks take."""
+    return cq.Solid.makeBox(sx, sy, sz, cq.Vector(at[0] - sx / 2, at[1] - sy / 2, at[2] - sz / 2)).wrapped
 
 
 def test_overlap_of_two_boxes_is_the_product_of_interval_overlaps():
@@ -56,7 +57,7 @@ def test_overlap_of_two_boxes_is_the_product_of_interval_overlaps():
 
 def test_box_cutting_a_cylinder_along_its_axis_gives_a_circular_segment_prism():
     r, length, d = 50.0, 200.0, 20.0
-    cylinder = cq.Solid.makeCylinder(r, length, cq.Vector(0, 0, -length / 2))
+    cylinder = cq.Solid.makeCylinder(r, length, cq.Vector(0, 0, -length / 2)).wrapped
     cutter = box(100, 200, 300, at=(d + 50, 0, 0))  # the half-space x >= d over the cylinder
     vol, centre = overlap_volume(cylinder, cutter)
     area = r * r * math.acos(d / r) - d * math.sqrt(r * r - d * d)  # circular segment (Wikipedia, R)
@@ -67,15 +68,15 @@ def test_box_cutting_a_cylinder_along_its_axis_gives_a_circular_segment_prism():
 
 
 def test_solids_that_touch_share_no_volume_and_have_zero_distance():
-    rim = cq.Workplane("XY").circle(170).circle(163).extrude(200).val()
-    tyre = cq.Workplane("XY").circle(265).circle(170).extrude(200).val()
+    rim = cq.Workplane("XY").circle(170).circle(163).extrude(200).val().wrapped
+    tyre = cq.Workplane("XY").circle(265).circle(170).extrude(200).val().wrapped
     # round-off of the boolean at most (about 1e-6 mm^3 here), far below the 1 mm^3 sliver threshold
     assert overlap_volume(rim, tyre)[0] < 1e-3 * 1e-9
     assert distance_between(rim, tyre)[0] < 1e-12
 
 
 def test_distances_against_hand_geometry():
-    sphere = cq.Workplane("XY").sphere(30).val()
+    sphere = cq.Workplane("XY").sphere(30).val().wrapped
     wall = box(100, 400, 400, at=(150, 0, 0))  # face at x = 100
     d, p_sphere, p_wall = distance_between(sphere, wall)
     assert_close(d, 0.070, 1e-9, "sphere to wall: 100 - 30 mm")
@@ -101,7 +102,7 @@ def test_candidate_pairs_equal_the_brute_force_pairs(rng):
 def pipe_envelope():
     """A slot envelope 300 x 200 x 100 mm with a pipe passage: a hole of radius 20 mm along y at x = 80 mm."""
     passage = cq.Solid.makeCylinder(20, 400, cq.Vector(80, -200, 0), cq.Vector(0, 1, 0))
-    return box(300, 200, 100).cut(passage)
+    return cq.Shape.cast(box(300, 200, 100)).cut(passage).wrapped
 
 
 @pytest.fixture(scope="module")
@@ -130,9 +131,9 @@ def test_block_touching_the_pipe_does_not_fit(envelope_with_pipe):
 def test_block_straddling_the_pipe_with_every_vertex_inside_does_not_fit(envelope_with_pipe):
     # x 40..120, y -40..40, z -30..30: every corner lies in the envelope's material, yet the pipe passes through
     block = box(80, 80, 60, at=(80, 0, 0))
-    classifier = BRepClass3d_SolidClassifier(envelope_with_pipe.wrapped)
+    classifier = BRepClass3d_SolidClassifier(envelope_with_pipe)
     states = []
-    for v in block.Vertices():
+    for v in cq.Shape.cast(block).Vertices():
         classifier.Perform(gp_Pnt(v.X, v.Y, v.Z), 1e-7)
         states.append(classifier.State() == TopAbs_IN)
     assert states == [True] * 8  # a vertex-inside test would call this a fit
@@ -311,7 +312,7 @@ def test_cli_bad_options(capsys):
 
 def test_model_with_a_mesh_part_and_a_step_slot(tmp_path):
     envelope = pipe_envelope()
-    envelope.exportStep(str(tmp_path / "tray.step"))
+    cq.Shape.cast(envelope).exportStep(str(tmp_path / "tray.step"))
     (tmp_path / "tank.obj").write_text((ROOT / "parts_demo/geometry/catch_tank.obj").read_text())
     model = loads_model(HEAD + """
 [[slot]]

@@ -24,7 +24,7 @@ Polyhedral pieces are integrated as tetrahedra: for a tetrahedron with vertices 
 ``∫ x dV = V (Σpᵢ)/4`` and ``∫ x xᵀ dV = V/20 (Σ pᵢpᵢᵀ + (Σpᵢ)(Σpᵢ)ᵀ)``.
 
 Conventions: SI (m, m³); ``inertia_per_density`` in kg·m² per kg/m³ about the centroid, block axes, tensor
-convention (off-diagonals −∫xy dV). ``to_solid()`` gives a cadquery solid in MILLIMETRES.
+convention (off-diagonals −∫xy dV). ``to_solid()`` gives an OpenCascade solid (OCP) in MILLIMETRES.
 
 References
 ----------
@@ -517,36 +517,62 @@ class BlockGeometry:
         out = about_origin - shift
         return 0.5 * (out + out.T)
 
+    def face_points(self) -> FloatArray:
+        """A point of the solid on each of the six box faces, (3, 2, 3) float, m, block frame.
+
+        ``[k, 0]`` lies on the face across axis ``k`` at −size/2, ``[k, 1]`` at +size/2: the face centre, or, on the two
+        faces the holes open into, the corner of the face's flat part (in from each edge by the chamfer leg when that
+        edge is chamfered). The holes keep at least the chamfer size from the face's edges (checked when the block is
+        made), so that corner is material. Used by the closed-form fit check (:mod:`massmodel.cad.boxfit`).
+        """
+        half = 0.5 * np.array(self.size)
+        edges = self.chamfer.edges if self.chamfer else ""
+        s = self.chamfer.size if self.chamfer else 0.0
+        pierced = AXES.index(self.holes.axis) if self.holes else None
+        out = np.zeros((3, 2, 3))
+        for k in range(3):
+            i, j = (k + 1) % 3, (k + 2) % 3
+            for side, sign in enumerate((-1.0, 1.0)):
+                out[k, side, k] = sign * half[k]
+                if k == pierced:  # the face's edges at ±half[i] run along j, those at ±half[j] along i
+                    out[k, side, i] = half[i] - (s if AXES[j] in edges else 0.0)
+                    out[k, side, j] = half[j] - (s if AXES[i] in edges else 0.0)
+        return out
+
     # --- CAD ----------------------------------------------------------------------------------------------
     def to_solid(self) -> Any:
-        """The block as a cadquery solid in MILLIMETRES, block frame (box, then chamfers, then holes cut)."""
-        import cadquery as cq
+        """The block as an OpenCascade solid (``OCP.TopoDS.TopoDS_Shape``) in MILLIMETRES, block frame: the box, then
+        the chamfers (OpenCascade's ``BRepFilletAPI_MakeChamfer``, equal legs), then the holes cut."""
+        from OCP.BRepPrimAPI import BRepPrimAPI_MakeBox, BRepPrimAPI_MakeCylinder
+        from OCP.gp import gp_Ax2, gp_Dir, gp_Pnt
+
+        from massmodel.cad.primitives import cut_shape
 
         a, b, c = (s * 1e3 for s in self.size)
-        wp = cq.Workplane("XY").box(a, b, c)
+        solid: Any = BRepPrimAPI_MakeBox(gp_Ax2(gp_Pnt(-a / 2.0, -b / 2.0, -c / 2.0), gp_Dir(0.0, 0.0, 1.0)),
+                                         a, b, c).Shape()
         if self.chamfer:
-            selector = " or ".join(f"|{e.upper()}" for e in self.chamfer.edges)
-            wp = wp.edges(selector).chamfer(self.chamfer.size * 1e3)
-        solid: Any = wp.val()
+            solid = _chamfered(solid, self.chamfer.size * 1e3, [AXES.index(e) for e in self.chamfer.edges])
         h = self.holes
         if h is None:
             return solid
         k = AXES.index(h.axis)
         i, j = face_axes(h.axis)
         half_k = 0.5 * self.size[k] * 1e3
-        direction = cq.Vector(*(1.0 if n == k else 0.0 for n in range(3)))
+        direction = gp_Dir(*(1.0 if n == k else 0.0 for n in range(3)))
+
+        def cylinder(radius_mm: float, length_mm: float, start: Sequence[float]) -> Any:
+            return BRepPrimAPI_MakeCylinder(gp_Ax2(gp_Pnt(*start), direction), radius_mm, length_mm).Shape()
+
         for p, q in h.centres((self.size[i], self.size[j])):
             start = [0.0, 0.0, 0.0]
             start[i], start[j], start[k] = p * 1e3, q * 1e3, -half_k - 1.0
-            tool = cq.Solid.makeCylinder(h.radius * 1e3, 2 * half_k + 2.0, cq.Vector(*start), direction)
-            solid = solid.cut(tool)
+            solid = cut_shape(solid, cylinder(h.radius * 1e3, 2 * half_k + 2.0, start))
             if h.counterbore:
                 depth = h.counterbore.depth * 1e3
                 cb_start = list(start)
                 cb_start[k] = h.counterbore_end * (half_k - depth) if h.counterbore_end > 0 else -half_k - 1.0
-                tool = cq.Solid.makeCylinder(0.5 * h.counterbore.diameter * 1e3, depth + 1.0, cq.Vector(*cb_start),
-                                             direction)
-                solid = solid.cut(tool)
+                solid = cut_shape(solid, cylinder(0.5 * h.counterbore.diameter * 1e3, depth + 1.0, cb_start))
         return solid
 
     def describe(self) -> str:
@@ -557,3 +583,28 @@ class BlockGeometry:
         if self.holes:
             text += f"; holes {self.holes.describe()}"
         return text
+
+
+def _chamfered(box: Any, size_mm: float, axes: Sequence[int]) -> Any:
+    """The box (mm) with a 45° chamfer of legs ``size_mm`` on every straight edge parallel to one of ``axes``."""
+    from OCP.BRep import BRep_Tool
+    from OCP.BRepFilletAPI import BRepFilletAPI_MakeChamfer
+    from OCP.TopAbs import TopAbs_EDGE, TopAbs_FACE
+    from OCP.TopExp import TopExp
+    from OCP.TopoDS import TopoDS
+    from OCP.TopTools import TopTools_IndexedDataMapOfShapeListOfShape
+
+    faces_of = TopTools_IndexedDataMapOfShapeListOfShape()
+    TopExp.MapShapesAndAncestors_s(box, TopAbs_EDGE, TopAbs_FACE, faces_of)
+    builder = BRepFilletAPI_MakeChamfer(box)
+    for n in range(1, faces_of.Extent() + 1):
+        edge = TopoDS.Edge_s(faces_of.FindKey(n))
+        ends = [BRep_Tool.Pnt_s(v) for v in (TopExp.FirstVertex_s(edge), TopExp.LastVertex_s(edge))]
+        d = np.array([ends[1].X() - ends[0].X(), ends[1].Y() - ends[0].Y(), ends[1].Z() - ends[0].Z()])
+        along = int(np.argmax(np.abs(d)))
+        if along in axes and np.all(np.abs(np.delete(d, along)) <= 1e-9 * abs(d[along])):
+            builder.Add(size_mm, size_mm, edge, TopoDS.Face_s(faces_of.FindFromIndex(n).First()))
+    builder.Build()
+    if not builder.IsDone():
+        raise RuntimeError("the OpenCascade chamfer of the block failed")
+    return builder.Shape()

@@ -155,29 +155,24 @@ def ballasted_model_text(
 
 
 def write_step(blocks: Sequence[Block], path: str | Path, name: str = "ballast") -> Path:
-    """STEP assembly (mm, model frame) of the blocks, one named, coloured solid each."""
-    import cadquery as cq
-
+    """STEP assembly (mm, model frame) of the blocks, one named, coloured solid each (OpenCascade, no cadquery)."""
+    from massmodel.cad.occ_files import write_step_solids
     from massmodel.cad.solids import place_solid
 
-    assy = cq.Assembly(name=name)
-    colour = cq.Color(*(int(BALLAST_COLOUR[i:i + 2], 16) / 255.0 for i in (1, 3, 5)))
-    for b in blocks:
-        solid = place_solid(b.piece.geometry.to_solid(), b.piece.pose)
-        assy.add(solid, name=b.path.replace("/", "."), color=colour)
-    return write_atomic(path, lambda p: assy.export(str(p)), suffix=".step")
+    red, green, blue = (int(BALLAST_COLOUR[i:i + 2], 16) / 255.0 for i in (1, 3, 5))  # sRGB
+    solids = [(b.path.replace("/", "."), place_solid(b.piece.geometry.to_solid(), b.piece.pose), (red, green, blue))
+              for b in blocks]
+    return write_atomic(path, lambda p: write_step_solids(p, solids, name), suffix=".step")
 
 
 def write_stl(blocks: Sequence[Block], path: str | Path, tolerance_mm: float = 0.01) -> Path:
-    """One STL (mm, model frame) of the blocks together; flat faces are exact, holes within ``tolerance_mm``."""
-    import cadquery as cq
-
+    """One STL (mm, model frame) of the blocks together; flat faces are exact, holes within ``tolerance_mm``
+    (absolute chord tolerance)."""
+    from massmodel.cad.occ_files import write_stl_solids
     from massmodel.cad.solids import place_solid
 
     solids = [place_solid(b.piece.geometry.to_solid(), b.piece.pose) for b in blocks]
-    shape = solids[0] if len(solids) == 1 else cq.Compound.makeCompound(solids)
-    return write_atomic(path, lambda p: cq.exporters.export(shape, str(p), exportType="STL", tolerance=tolerance_mm,
-                                                            angularTolerance=0.05), suffix=".stl")
+    return write_atomic(path, lambda p: write_stl_solids(p, solids, tolerance_mm, 0.05), suffix=".stl")
 
 
 def check_written_model(path: str | Path, expected: Model, text: str | None = None) -> float:

@@ -1,5 +1,6 @@
 """What a ballast block must reach and whether it fits: the mass the rules need from a new block, denser
-materials to suggest, and the OpenCascade packaging check of sized pieces (loaded only when called).
+materials to suggest, and the packaging check of sized pieces (closed form for a block square to its slot, the
+exact OpenCascade check otherwise, loaded only then).
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ from massmodel.core.model import Model, in_group
 
 from .sizing import BlockSizing, PlacedPiece, SizingError
 
-__all__ = ["denser_materials", "RuleNeed", "rules_target", "check_fit"]
+__all__ = ["denser_materials", "RuleNeed", "rules_target", "check_fit", "box_block"]
 
 
 def denser_materials(material: Material, library: Mapping[str, Material]) -> list[Material]:
@@ -77,19 +78,38 @@ def rules_target(model: Model, margin: float, part_path: str, remove: Sequence[s
 
 
 def check_fit(sizing: BlockSizing, pieces: Sequence[PlacedPiece] | None = None) -> list[Any]:
-    """Packaging check of every piece against the slot (OpenCascade; see :func:`massmodel.cad.packaging.fit_in_slot`).
+    """Packaging check of every piece against the slot, with the slot's clearance.
+
+    A block whose axes are the slot's axes (up to order and sign) is checked in closed form
+    (:func:`massmodel.cad.boxfit.box_fit`, numpy only) when it lies inside the slot; a plain box also when it does not.
+    Otherwise the exact OpenCascade check (:func:`massmodel.cad.contact.fit_in_slot`) runs, loading OCP. Both give the
+    same :class:`~massmodel.cad.contact.FitResult`.
 
     Returns
     -------
     list of FitResult
         One per piece, in order.
     """
-    from massmodel.cad.packaging import fit_in_slot
-    from massmodel.cad.solids import place_solid, slot_solid
+    from massmodel.cad.boxfit import box_fit
 
-    envelope = slot_solid(sizing.envelope.to_slot())
+    env = sizing.envelope
     out = []
+    envelope = None
     for piece in (sizing.pieces if pieces is None else pieces):
-        solid = place_solid(piece.geometry.to_solid(), piece.pose)
-        out.append(fit_in_slot(solid, envelope, sizing.envelope.clearance))
+        fit = box_fit(box_block(piece), env.size, env.pose, env.clearance)
+        if fit is None:
+            from massmodel.cad.contact import fit_in_slot
+            from massmodel.cad.solids import place_solid, slot_solid
+
+            envelope = slot_solid(env.to_slot()) if envelope is None else envelope
+            fit = fit_in_slot(place_solid(piece.geometry.to_solid(), piece.pose), envelope, env.clearance)
+        out.append(fit)
     return out
+
+
+def box_block(piece: PlacedPiece) -> Any:
+    """The piece as a :class:`massmodel.cad.boxfit.BoxBlock`: its box, pose, and a point of material on each face."""
+    from massmodel.cad.boxfit import BoxBlock
+
+    g = piece.geometry
+    return BoxBlock(g.size, piece.pose, whole=g.holes is None and g.chamfer is None, face_points=g.face_points())

@@ -12,9 +12,10 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["SLIVER_MM3", "FitResult", "candidate_pairs", "distance_between", "fit_in_slot", "overlap_volume"]
+__all__ = ["FIT_TOL", "SLIVER_MM3", "FitResult", "candidate_pairs", "distance_between", "fit_in_slot", "overlap_volume"]
 
 SLIVER_MM3 = 1e-3  # volumes below 0.001 mm³ are round-off of the boolean, not material
+FIT_TOL = 1e-9  # m: a clearance this much short of the requirement still passes (round-off of the distance)
 
 
 @dataclass(frozen=True, slots=True)
@@ -32,7 +33,10 @@ class FitResult:
     required_clearance : float
         m.
     closest_block, closest_envelope : (3,) float
-        The closest pair of points, m, model frame.
+        The closest pair of points, m, model frame (one point where they meet, when the clearance is 0).
+    method : str
+        How it was found: "OpenCascade" (the exact check on the B-rep solids) or "closed form" (a box block square
+        to a box slot, :mod:`massmodel.cad.boxfit`).
     """
 
     fits: bool
@@ -41,13 +45,14 @@ class FitResult:
     required_clearance: float
     closest_block: np.ndarray
     closest_envelope: np.ndarray
+    method: str = "OpenCascade"
 
     @property
     def reason(self) -> str:
         """A sentence saying why the block does not fit ('' when it fits)."""
         if self.outside_volume > 0.0:
             return f"{self.outside_volume * 1e9:.1f} mm^3 of the block lies outside the slot"
-        if self.clearance < self.required_clearance:
+        if self.clearance < self.required_clearance - FIT_TOL:
             return (f"clearance {self.clearance * 1e3:.3f} mm to the slot walls is less than the required "
                     f"{self.required_clearance * 1e3:.3f} mm")
         return ""
@@ -58,7 +63,7 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
 
     Parameters
     ----------
-    block, envelope : cadquery Shape
+    block, envelope : OCP.TopoDS.TopoDS_Shape
         Solids in mm, same frame (see :mod:`massmodel.cad.solids`).
     clearance : float
         Required gap to the envelope walls, m.
@@ -79,22 +84,22 @@ def fit_in_slot(block: Any, envelope: Any, clearance: float) -> FitResult:
 
     from .solids import volume_props
 
-    cut = BRepAlgoAPI_Cut(block.wrapped, envelope.wrapped)
+    cut = BRepAlgoAPI_Cut(block, envelope)
     if not cut.IsDone():  # a failed boolean has an empty result: it must not read as "nothing outside"
         raise RuntimeError("the OpenCascade boolean (block minus slot envelope) failed")
     outside_mm3 = max(float(volume_props(cut.Shape()).Mass()), 0.0)
     outside = 0.0 if outside_mm3 < SLIVER_MM3 else outside_mm3 * 1e-9
 
     best = (np.inf, np.zeros(3), np.zeros(3))
-    explorer = TopExp_Explorer(envelope.wrapped, TopAbs_SHELL)
+    explorer = TopExp_Explorer(envelope, TopAbs_SHELL)
     while explorer.More():
-        dist = BRepExtrema_DistShapeShape(block.wrapped, explorer.Current())
+        dist = BRepExtrema_DistShapeShape(block, explorer.Current())
         if dist.IsDone() and dist.NbSolution() > 0 and dist.Value() < best[0]:
             p1, p2 = dist.PointOnShape1(1), dist.PointOnShape2(1)
             best = (dist.Value(), np.array([p1.X(), p1.Y(), p1.Z()]) * 1e-3, np.array([p2.X(), p2.Y(), p2.Z()]) * 1e-3)
         explorer.Next()
     gap = float(best[0]) * 1e-3
-    fits = outside == 0.0 and gap >= clearance - 1e-9
+    fits = outside == 0.0 and gap >= clearance - FIT_TOL
     return FitResult(fits, outside, gap, clearance, best[1], best[2])
 
 
@@ -155,7 +160,7 @@ def overlap_volume(a: Any, b: Any) -> tuple[float, np.ndarray]:
 
     from .solids import volume_props
 
-    op = BRepAlgoAPI_Common(a.wrapped, b.wrapped)
+    op = BRepAlgoAPI_Common(a, b)
     if not op.IsDone():
         raise RuntimeError("the OpenCascade boolean (common) failed")
     props = volume_props(op.Shape())
@@ -178,7 +183,7 @@ def distance_between(a: Any, b: Any) -> tuple[float, np.ndarray, np.ndarray]:
     """
     from OCP.BRepExtrema import BRepExtrema_DistShapeShape
 
-    dist = BRepExtrema_DistShapeShape(a.wrapped, b.wrapped)
+    dist = BRepExtrema_DistShapeShape(a, b)
     if not dist.IsDone() or dist.NbSolution() == 0:
         raise RuntimeError("the OpenCascade distance computation failed")
     p1, p2 = dist.PointOnShape1(1), dist.PointOnShape2(1)

@@ -351,11 +351,14 @@ def export_model(
     parts: list[ExportPart] = []
     cache: dict[Any, Any] = {}
     used: set[int] = set()
+    import cadquery as cq  # MERGE ADAPTER: solids are OCP shapes now; this module and formats.py still take cadquery's
+
     for k, c in enumerate(with_solid):
-        solid, location = component_local_solid(c, cache)
-        if id(solid) in used:  # a patterned copy: its own solid, so that STEP names it by its own path
+        shape, location = component_local_solid(c, cache)
+        solid = cq.Shape.cast(shape)  # MERGE ADAPTER (see above)
+        if id(shape) in used:  # a patterned copy: its own solid, so that STEP names it by its own path
             solid = _copy_shape(solid)
-        used.add(id(solid))
+        used.add(id(shape))
         parts.append(ExportPart(c, solid, location))
         tick("solids", k + 1, len(with_solid))
     if Format.STL in opts.formats or Format.GLB in opts.formats:

@@ -19,7 +19,7 @@ STL, OBJ, GLB (:class:`MeshShape`, in :mod:`massmodel.cad.mesh_shape`)
     may only be shown, with measured mass properties (the model-file loader refuses it with a density, a material
     or a mass).
 
-Importing this module needs numpy only; cadquery/OCP and trimesh load when a file is read.
+Importing this module needs numpy only; OCP and trimesh load when a file is read.
 """
 
 from __future__ import annotations

@@ -95,7 +95,6 @@ def _mesh_to_solid_mm(mesh: Any, name: str, volume_m3: float) -> Any:
     triangles in opposite directions, one planar face per triangle wound as in the mesh (outward for a closed mesh).
     About 0.3 ms a triangle.
     """
-    import cadquery as cq
     from OCP.BRep import BRep_Builder
     from OCP.BRepBuilderAPI import (
         BRepBuilderAPI_MakeEdge,
@@ -136,7 +135,7 @@ def _mesh_to_solid_mm(mesh: Any, name: str, volume_m3: float) -> Any:
     if not BRepCheck_Analyzer(solid).IsValid() or not math.isclose(got, volume_m3, rel_tol=1e-6):
         raise ShapeError(f"mesh '{name}': could not rebuild a valid closed solid from its triangles "
                          f"(solid volume {got:.6g} m^3, mesh {volume_m3:.6g} m^3)", "file", "mesh")
-    return cq.Shape.cast(solid)
+    return solid
 
 
 def _boundary_edges(mesh: Any) -> int:

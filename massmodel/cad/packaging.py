@@ -344,12 +344,11 @@ def placed_solids(
     -------
     components : list of Component
         Parts with a solid, in model order.
-    solids : list of cadquery Shape
+    solids : list of OCP.TopoDS.TopoDS_Shape
         Their solids, mm, placed by a location (the geometry is shared, not copied, between copies of a part).
     left_out : tuple of (str, str)
         Parts without a solid and why.
     """
-    import cadquery as cq
     from OCP.TopLoc import TopLoc_Location
 
     from .solids import component_local_solid, has_solid, pose_trsf
@@ -361,7 +360,7 @@ def placed_solids(
     cache: dict[Any, Any] = {}
     for k, c in enumerate(comps):
         local, location = component_local_solid(c, cache)
-        solids.append(cq.Shape.cast(local.wrapped.Moved(TopLoc_Location(pose_trsf(location)))))
+        solids.append(local.Moved(TopLoc_Location(pose_trsf(location))))
         if progress is not None:
             progress("solids", k + 1, len(comps))
     return comps, solids, left_out

@@ -1,20 +1,22 @@
 """CAD solids and trimesh meshes of the shapes: `to_solid(shape)` and `to_mesh(shape, chord_tolerance)`.
 
 The shapes themselves (`massmodel.core.shapes`) are numpy only; this module realises them with the CAD kernel
-(cadquery/OCP) and trimesh, both imported inside the functions that need them. Both functions dispatch on the
-shape's type (`functools.singledispatch`): the builder of each primitive class is registered here, and other
-shape types (the STEP and mesh shapes of `massmodel.cad.imported`) register theirs where they are defined.
+(OpenCascade through OCP, without cadquery) and trimesh, both imported inside the functions that need them. Both
+functions dispatch on the shape's type (`functools.singledispatch`): the builder of each primitive class is registered
+here, and other shape types (the STEP and mesh shapes of `massmodel.cad.imported`) register theirs where they are
+defined.
 
 Conventions
 -----------
-- `to_solid` gives a cadquery solid in MILLIMETRES (coordinates = metres × 1000), shape frame (the CAD
-  kernel's unit here; STEP files are written in mm).
+- `to_solid` gives an OpenCascade shape (``OCP.TopoDS.TopoDS_Shape``) in MILLIMETRES (coordinates = metres × 1000),
+  shape frame (the CAD kernel's unit here; STEP files are written in mm).
 - `to_mesh` gives a `trimesh.Trimesh` in METRES, shape frame, watertight with outward normals.
 """
 
 from __future__ import annotations
 
 import functools
+import math
 from typing import Any
 
 import numpy as np
@@ -35,7 +37,7 @@ from massmodel.core.shapes import (
     Tube,
 )
 
-__all__ = ["MM_PER_M", "make_trimesh", "to_mesh", "to_solid"]
+__all__ = ["MM_PER_M", "cut_shape", "make_trimesh", "solids_of", "to_mesh", "to_solid"]
 
 #: CAD solids are built in millimetres.
 MM_PER_M = 1000.0
@@ -43,7 +45,7 @@ MM_PER_M = 1000.0
 
 @functools.singledispatch
 def to_solid(shape: Any) -> Any:
-    """CAD solid (cadquery) of a shape in MILLIMETRES (coordinates = metres × 1000), shape frame.
+    """CAD solid (OpenCascade) of a shape in MILLIMETRES (coordinates = metres × 1000), shape frame.
 
     Exact B-rep primitives where the kernel has them (box, cylinder, cone, sphere, torus), an extruded
     outline for prisms, a boolean difference for the spherical shell, and an affinely mapped sphere (NURBS)
@@ -55,7 +57,7 @@ def to_solid(shape: Any) -> Any:
 
     Returns
     -------
-    cadquery.Solid
+    OCP.TopoDS.TopoDS_Shape
         mm, shape frame.
 
     Raises
@@ -95,39 +97,104 @@ def make_trimesh(vertices: np.ndarray, faces: np.ndarray) -> Any:
     return trimesh.Trimesh(vertices=vertices, faces=faces, process=False)
 
 
+def _ax2(z0_mm: float = 0.0, direction: tuple[float, float, float] = (0.0, 0.0, 1.0)) -> Any:
+    """Placement at (0, 0, z0_mm) with the given main direction (OpenCascade picks the x direction, as cadquery did)."""
+    from OCP.gp import gp_Ax2, gp_Dir, gp_Pnt
+
+    return gp_Ax2(gp_Pnt(0.0, 0.0, z0_mm), gp_Dir(*direction))
+
+
+def cut_shape(shape: Any, tool: Any) -> Any:
+    """Boolean difference ``shape − tool`` of two OpenCascade shapes (mm).
+
+    Raises
+    ------
+    RuntimeError
+        The boolean failed (its empty result must not pass for a solid).
+    """
+    from OCP.BRepAlgoAPI import BRepAlgoAPI_Cut
+
+    op = BRepAlgoAPI_Cut(shape, tool)
+    if not op.IsDone():
+        raise RuntimeError("the OpenCascade boolean (cut) failed")
+    return op.Shape()
+
+
+def solids_of(shape: Any) -> list[Any]:
+    """The solids of an OpenCascade shape (a compound's members, or the shape itself), as ``TopoDS_Solid``."""
+    from OCP.TopAbs import TopAbs_SOLID
+    from OCP.TopExp import TopExp_Explorer
+    from OCP.TopoDS import TopoDS
+
+    out = []
+    explorer = TopExp_Explorer(shape, TopAbs_SOLID)
+    while explorer.More():
+        out.append(TopoDS.Solid_s(explorer.Current()))
+        explorer.Next()
+    return out
+
+
+def _prism_mm(outer: Any, inner: Any, z0_mm: float, height_mm: float) -> Any:
+    """Straight prism (mm) of a planar face bounded by the wire ``outer`` (and a hole ``inner``), along +z."""
+    from OCP.BRepBuilderAPI import BRepBuilderAPI_MakeFace
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakePrism
+    from OCP.gp import gp_Vec
+    from OCP.ShapeFix import ShapeFix_Face
+    from OCP.TopoDS import TopoDS
+
+    face = BRepBuilderAPI_MakeFace(outer, True)
+    if inner is not None:
+        face.Add(inner)
+    if not face.IsDone():
+        raise RuntimeError(f"could not build the planar face of a prism ({face.Error()})")
+    fix = ShapeFix_Face(face.Face())
+    fix.FixOrientation()  # the hole's wire runs the other way round (as cadquery's faces from wires)
+    fix.Perform()
+    base = TopoDS.Face_s(fix.Result())
+    return BRepPrimAPI_MakePrism(base, gp_Vec(0.0, 0.0, height_mm), True).Shape()
+
+
 @to_solid.register
 def _box(s: Box) -> Any:
-    import cadquery as cq
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeBox
+    from OCP.gp import gp_Ax2, gp_Dir, gp_Pnt
 
     a, b, c = MM_PER_M * s.size_x, MM_PER_M * s.size_y, MM_PER_M * s.size_z
-    return cq.Solid.makeBox(a, b, c, pnt=cq.Vector(-a / 2.0, -b / 2.0, -c / 2.0))
+    return BRepPrimAPI_MakeBox(gp_Ax2(gp_Pnt(-a / 2.0, -b / 2.0, -c / 2.0), gp_Dir(0.0, 0.0, 1.0)), a, b, c).Shape()
 
 
 @to_solid.register
 def _prism(s: PrismShape) -> Any:
-    import cadquery as cq
+    from OCP.BRepBuilderAPI import BRepBuilderAPI_MakePolygon
+    from OCP.gp import gp_Pnt
 
     xy, z0, z1 = s.prism_outline()
-    pts = [(MM_PER_M * float(x), MM_PER_M * float(y)) for x, y in xy]
-    wp = cq.Workplane("XY", origin=(0.0, 0.0, MM_PER_M * z0))
-    return wp.polyline(pts).close().extrude(MM_PER_M * (z1 - z0)).val()
+    z = MM_PER_M * z0
+    polygon = BRepBuilderAPI_MakePolygon()
+    for x, y in xy:
+        polygon.Add(gp_Pnt(MM_PER_M * float(x), MM_PER_M * float(y), z))
+    polygon.Close()
+    return _prism_mm(polygon.Wire(), None, z, MM_PER_M * (z1 - z0))
 
 
 @to_solid.register
 def _cylinder(s: Cylinder) -> Any:
-    import cadquery as cq
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeCylinder
 
-    return cq.Solid.makeCylinder(
-        MM_PER_M * s.radius, MM_PER_M * s.length, pnt=cq.Vector(0.0, 0.0, -MM_PER_M * s.length / 2.0)
-    )
+    return BRepPrimAPI_MakeCylinder(_ax2(-MM_PER_M * s.length / 2.0), MM_PER_M * s.radius, MM_PER_M * s.length).Shape()
 
 
 @to_solid.register
 def _tube(s: Tube) -> Any:
-    import cadquery as cq
+    from OCP.BRepBuilderAPI import BRepBuilderAPI_MakeEdge, BRepBuilderAPI_MakeWire
+    from OCP.gp import gp_Circ
 
-    wp = cq.Workplane("XY", origin=(0.0, 0.0, -MM_PER_M * s.length / 2.0))
-    return wp.circle(MM_PER_M * s.outer_radius).circle(MM_PER_M * s.inner_radius).extrude(MM_PER_M * s.length).val()
+    z0 = -MM_PER_M * s.length / 2.0
+
+    def circle(radius_m: float) -> Any:
+        return BRepBuilderAPI_MakeWire(BRepBuilderAPI_MakeEdge(gp_Circ(_ax2(z0), MM_PER_M * radius_m)).Edge()).Wire()
+
+    return _prism_mm(circle(s.outer_radius), circle(s.inner_radius), z0, MM_PER_M * s.length)
 
 
 @to_solid.register
@@ -137,7 +204,7 @@ def _sphere(s: Sphere) -> Any:
 
 @to_solid.register
 def _spherical_shell(s: SphericalShell) -> Any:
-    solids = _cad_sphere_mm(s.outer_radius).cut(_cad_sphere_mm(s.inner_radius)).Solids()
+    solids = solids_of(cut_shape(_cad_sphere_mm(s.outer_radius), _cad_sphere_mm(s.inner_radius)))
     if len(solids) != 1:
         raise RuntimeError(f"boolean cut gave {len(solids)} solids instead of one")
     return solids[0]
@@ -145,33 +212,33 @@ def _spherical_shell(s: SphericalShell) -> Any:
 
 @to_solid.register
 def _hemisphere(s: Hemisphere) -> Any:
-    import cadquery as cq
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeSphere
 
     # latitude 0..90 degrees: the upper half, z >= 0
-    return cq.Solid.makeSphere(MM_PER_M * s.radius, angleDegrees1=0.0, angleDegrees2=90.0, angleDegrees3=360.0)
+    return BRepPrimAPI_MakeSphere(_ax2(), MM_PER_M * s.radius, 0.0, math.pi / 2.0, 2.0 * math.pi).Shape()
 
 
 @to_solid.register
 def _cone(s: Cone) -> Any:
-    import cadquery as cq
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeCone
 
-    return cq.Solid.makeCone(MM_PER_M * s.radius, 0.0, MM_PER_M * s.height)
+    return BRepPrimAPI_MakeCone(_ax2(), MM_PER_M * s.radius, 0.0, MM_PER_M * s.height).Shape()
 
 
 @to_solid.register
 def _frustum(s: Frustum) -> Any:
-    import cadquery as cq
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeCone, BRepPrimAPI_MakeCylinder
 
     if s.base_radius == s.top_radius:  # the kernel refuses a cone with two equal radii: it is a cylinder
-        return cq.Solid.makeCylinder(MM_PER_M * s.base_radius, MM_PER_M * s.height)
-    return cq.Solid.makeCone(MM_PER_M * s.base_radius, MM_PER_M * s.top_radius, MM_PER_M * s.height)
+        return BRepPrimAPI_MakeCylinder(_ax2(), MM_PER_M * s.base_radius, MM_PER_M * s.height).Shape()
+    return BRepPrimAPI_MakeCone(_ax2(), MM_PER_M * s.base_radius, MM_PER_M * s.top_radius, MM_PER_M * s.height).Shape()
 
 
 @to_solid.register
 def _torus(s: Torus) -> Any:
-    import cadquery as cq
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeTorus
 
-    return cq.Solid.makeTorus(MM_PER_M * s.ring_radius, MM_PER_M * s.tube_radius)
+    return BRepPrimAPI_MakeTorus(_ax2(), MM_PER_M * s.ring_radius, MM_PER_M * s.tube_radius).Shape()
 
 
 @to_solid.register
@@ -181,15 +248,13 @@ def _ellipsoid(s: Ellipsoid) -> Any:
     The kernel has no ellipsoid primitive, so the result is a NURBS solid; its mass properties need the
     adaptive integrator (`BRepGProp.VolumeProperties_s(shape, props, eps)`, eps ~1e-14) for ~1e-10 accuracy.
     """
-    import cadquery as cq
     from OCP.BRepBuilderAPI import BRepBuilderAPI_GTransform
     from OCP.gp import gp_GTrsf, gp_Mat
 
     a, b, c = (MM_PER_M * float(v) for v in s.semi_axes())
     transform = gp_GTrsf()
     transform.SetVectorialPart(gp_Mat(a, 0.0, 0.0, 0.0, b, 0.0, 0.0, 0.0, c))
-    shape = BRepBuilderAPI_GTransform(_cad_sphere_mm(1e-3).wrapped, transform, True).Shape()
-    return cq.Shape.cast(shape)
+    return BRepBuilderAPI_GTransform(_cad_sphere_mm(1e-3), transform, True).Shape()
 
 
 @to_solid.register
@@ -199,9 +264,7 @@ def _point(s: PointMass, marker_radius: float = 0.01) -> Any:
 
 
 def _cad_sphere_mm(radius_m: float) -> Any:
-    """Full CAD sphere (mm) centred on the origin (cadquery's default latitude range is a half sphere)."""
-    import cadquery as cq
+    """Full CAD sphere (mm) centred on the origin, latitudes −90°..90°."""
+    from OCP.BRepPrimAPI import BRepPrimAPI_MakeSphere
 
-    return cq.Solid.makeSphere(
-        MM_PER_M * radius_m, angleDegrees1=-90.0, angleDegrees2=90.0, angleDegrees3=360.0
-    )
+    return BRepPrimAPI_MakeSphere(_ax2(), MM_PER_M * radius_m, -math.pi / 2.0, math.pi / 2.0, 2.0 * math.pi).Shape()

@@ -1,7 +1,8 @@
-"""B-rep solids of components and slots through cadquery/OpenCascade (millimetres: the CAD edge).
+"""B-rep solids of components and slots through OpenCascade (OCP; millimetres: the CAD edge).
 
 Model coordinates are metres; CAD solids are millimetres (OpenCascade and STEP readers assume mm unless told),
-so every solid built here is in mm. Import this module only where CAD is needed: it imports cadquery.
+so every solid built here is in mm and is an ``OCP.TopoDS.TopoDS_Shape``. Import this module only where CAD is
+needed: it imports OCP (not cadquery, which would bring VTK and more along).
 
 Mirrored poses
 --------------
@@ -15,10 +16,9 @@ from __future__ import annotations
 
 from typing import Any
 
-import cadquery as cq
 import numpy as np
 from OCP.Bnd import Bnd_Box
-from OCP.BRep import BRep_Tool
+from OCP.BRep import BRep_Builder, BRep_Tool
 from OCP.BRepAdaptor import BRepAdaptor_Surface
 from OCP.BRepBndLib import BRepBndLib
 from OCP.BRepBuilderAPI import BRepBuilderAPI_Transform
@@ -30,9 +30,9 @@ from OCP.GProp import GProp_GProps
 from OCP.TopAbs import TopAbs_FACE, TopAbs_REVERSED
 from OCP.TopExp import TopExp_Explorer
 from OCP.TopLoc import TopLoc_Location
-from OCP.TopoDS import TopoDS
+from OCP.TopoDS import TopoDS, TopoDS_Compound, TopoDS_Shape
 
-from massmodel.cad.primitives import to_mesh, to_solid
+from massmodel.cad.primitives import cut_shape, to_mesh, to_solid
 from massmodel.core.frames import Pose
 from massmodel.core.model import Component, Slot
 from massmodel.core.shapes import PointMass
@@ -51,6 +51,7 @@ __all__ = [
     "tessellate",
     "component_local_mesh",
     "pose_trsf",
+    "make_compound",
 ]
 
 MM_PER_M = 1000.0
@@ -120,17 +121,27 @@ def pose_trsf(pose: Pose) -> gp_Trsf:
     return trsf
 
 
-def place_solid(solid: Any, pose: Pose) -> Any:
+def place_solid(solid: TopoDS_Shape, pose: Pose) -> TopoDS_Shape:
     """A copy of ``solid`` (mm) moved by ``pose`` (translation in m); handles mirrored poses (det = −1).
 
     OpenCascade's ``gp_Trsf`` holds a rotation or a mirror, not both in one matrix, so an improper pose is applied
     as a mirror across the plane with normal ``n`` followed by the proper rotation ``R (E − 2nnᵀ)``.
     """
     mirror, proper = split_pose(pose)
-    shape = solid.wrapped
+    shape = solid
     if mirror is not None:
         shape = _apply_trsf(shape, _mirror_trsf(mirror))
-    return cq.Shape.cast(_apply_trsf(shape, pose_trsf(proper)))
+    return _apply_trsf(shape, pose_trsf(proper))
+
+
+def make_compound(shapes: Any) -> TopoDS_Compound:
+    """One OpenCascade compound holding the given shapes (mm), unchanged."""
+    compound = TopoDS_Compound()
+    builder = BRep_Builder()
+    builder.MakeCompound(compound)
+    for shape in shapes:
+        builder.Add(compound, shape)
+    return compound
 
 
 def has_solid(component: Component) -> bool:
@@ -138,7 +149,7 @@ def has_solid(component: Component) -> bool:
     return component.shape.volume() > 0.0
 
 
-def component_local_solid(component: Component, cache: dict[Any, Any] | None = None) -> tuple[Any, Pose]:
+def component_local_solid(component: Component, cache: dict[Any, Any] | None = None) -> tuple[TopoDS_Shape, Pose]:
     """The component's solid in its part frame, with the mirror of an improper pose baked in, and the proper pose.
 
     Parameters
@@ -150,7 +161,7 @@ def component_local_solid(component: Component, cache: dict[Any, Any] | None = N
 
     Returns
     -------
-    solid : cadquery Shape
+    solid : OCP.TopoDS.TopoDS_Shape
         Shape minus cut-outs, mm, part frame (mirrored when the component's pose is).
     location : Pose
         Proper pose placing ``solid`` in the model frame.
@@ -165,7 +176,7 @@ def component_local_solid(component: Component, cache: dict[Any, Any] | None = N
     solid = _part_frame_solid(component, cache)
     mirror, proper = split_pose(component.pose)
     if mirror is not None:
-        solid = cq.Shape.cast(_apply_trsf(solid.wrapped, _mirror_trsf(mirror)))
+        solid = _apply_trsf(solid, _mirror_trsf(mirror))
     return solid, proper
 
 
@@ -176,7 +187,7 @@ def _part_frame_solid(component: Component, cache: dict[Any, Any] | None) -> Any
     if solid is None:
         solid = to_solid(component.shape)
         for cut in component.cutouts:
-            solid = solid.cut(place_solid(to_solid(cut.shape), cut.pose))
+            solid = cut_shape(solid, place_solid(to_solid(cut.shape), cut.pose))
         if cache is not None:
             cache[key] = solid
             cache[("keep",) + key] = (component.shape, component.cutouts)  # keeps the ids valid while cached
@@ -189,16 +200,16 @@ def _no_solid_reason(component: Component) -> str:
     return "an open mesh, for display only"
 
 
-def component_solid(component: Component) -> Any:
+def component_solid(component: Component) -> TopoDS_Shape:
     """The component's solid (shape minus its cut-outs) in mm, placed in the model frame.
 
     A point mass or an open display mesh has no solid: ``ValueError``.
     """
     solid, proper = component_local_solid(component)
-    return cq.Shape.cast(_apply_trsf(solid.wrapped, pose_trsf(proper)))
+    return _apply_trsf(solid, pose_trsf(proper))
 
 
-def slot_solid(slot: Slot) -> Any:
+def slot_solid(slot: Slot) -> TopoDS_Shape:
     """The slot's envelope solid in mm, model frame."""
     return place_solid(to_solid(slot.shape), slot.pose)
 
@@ -228,7 +239,7 @@ def solid_volume_properties(solid: Any, density: float = 1.0) -> tuple[float, np
 
     Parameters
     ----------
-    solid : cadquery Shape
+    solid : OCP.TopoDS.TopoDS_Shape
         In mm.
     density : float
         kg/m³.
@@ -243,7 +254,7 @@ def solid_volume_properties(solid: Any, density: float = 1.0) -> tuple[float, np
         kg·m² about the centre of mass, axes parallel to the global axes (OpenCascade's MatrixOfInertia: the tensor
         convention, off-diagonals −∫xy dm).
     """
-    props = volume_props(solid.wrapped)
+    props = volume_props(solid)
     vol_m3 = props.Mass() * 1e-9
     c = props.CentreOfMass()
     m = props.MatrixOfInertia()
@@ -254,7 +265,7 @@ def solid_volume_properties(solid: Any, density: float = 1.0) -> tuple[float, np
 def solid_bounds(solid: Any) -> np.ndarray:
     """Tight axis-aligned bounding box of a solid in mm, returned as (2, 3) float [min, max], m."""
     box = Bnd_Box()
-    BRepBndLib.AddOptimal_s(solid.wrapped, box, False, False)
+    BRepBndLib.AddOptimal_s(solid, box, False, False)
     return np.array(box.Get()).reshape(2, 3) * 1e-3
 
 
@@ -263,7 +274,7 @@ def tessellate(solid: Any, chord_mm: float) -> tuple[np.ndarray, np.ndarray]:
 
     Parameters
     ----------
-    solid : cadquery Shape
+    solid : OCP.TopoDS.TopoDS_Shape
         In mm.
     chord_mm : float
         Largest distance between the triangles and the exact surface, mm (OpenCascade's linear deflection, absolute).
@@ -275,7 +286,7 @@ def tessellate(solid: Any, chord_mm: float) -> tuple[np.ndarray, np.ndarray]:
     faces : (F, 3) int
         Wound counter-clockwise seen from outside.
     """
-    shape = solid.wrapped
+    shape = solid
     BRepMesh_IncrementalMesh(shape, float(chord_mm), False, ANGULAR_DEFLECTION_RAD, False)
     verts: list[np.ndarray] = []
     faces: list[np.ndarray] = []

@@ -68,7 +68,7 @@ class StepShape(_StoredProperties):
 
         p = _check_points(points, tol, self.kind) * 1e3
         out = np.zeros(len(p), dtype=bool)
-        explorer = TopExp_Explorer(self._solid_mm.wrapped, TopAbs_SOLID)
+        explorer = TopExp_Explorer(self._solid_mm, TopAbs_SOLID)
         while explorer.More():
             classifier = BRepClass3d_SolidClassifier(explorer.Current())
             for i in np.flatnonzero(~out):
@@ -78,7 +78,7 @@ class StepShape(_StoredProperties):
         if tol > 0.0:
             for i in np.flatnonzero(~out):
                 vertex = BRepBuilderAPI_MakeVertex(gp_Pnt(*(float(c) for c in p[i]))).Vertex()
-                dist = BRepExtrema_DistShapeShape(vertex, self._solid_mm.wrapped)
+                dist = BRepExtrema_DistShapeShape(vertex, self._solid_mm)
                 out[i] = bool(dist.IsDone() and dist.Value() <= tol * 1e3)
         return out
 
@@ -86,7 +86,6 @@ class StepShape(_StoredProperties):
         """About ``n`` deterministic points on the surface, (M, 3) float, m: nodes of a triangulation refined until
         there are at least ``n`` (nodes lie on the exact surface), thinned evenly; fewer only for solids with so few
         curved faces that the refinement cannot add nodes."""
-        import cadquery as cq
         from OCP.BRepBuilderAPI import BRepBuilderAPI_Copy
 
         from .solids import tessellate
@@ -95,7 +94,7 @@ class StepShape(_StoredProperties):
         size_mm = float(np.max(self._bounds[1] - self._bounds[0])) * 1e3
         chord = max(size_mm * 2e-3, 1e-3)
         for _ in range(5):  # refine until there are enough nodes (flat faces only have their outline's)
-            copy = cq.Shape.cast(BRepBuilderAPI_Copy(self._solid_mm.wrapped, True, False).Shape())
+            copy = BRepBuilderAPI_Copy(self._solid_mm, True, False).Shape()
             v, _faces = tessellate(copy, chord)
             nodes = np.unique(np.round(v, 9), axis=0)
             if len(nodes) >= n:
@@ -142,7 +141,6 @@ def load_step(path: Path, unit: str, metres_per_unit: float) -> StepShape:
         Missing or unreadable file, no solid, an invalid, inside-out or overlapping solid, or a declared unit that
         disagrees with the file's.
     """
-    import cadquery as cq
     from OCP.BRepAlgoAPI import BRepAlgoAPI_Common
     from OCP.BRepCheck import BRepCheck_Analyzer
     from OCP.gp import gp_Trsf
@@ -152,7 +150,7 @@ def load_step(path: Path, unit: str, metres_per_unit: float) -> StepShape:
     from OCP.TopAbs import TopAbs_SOLID
     from OCP.TopExp import TopExp_Explorer
 
-    from .solids import _apply_trsf, solid_bounds, volume_props
+    from .solids import _apply_trsf, make_compound, solid_bounds, volume_props
 
     name = str(path)
     if not path.is_file():
@@ -203,8 +201,8 @@ def load_step(path: Path, unit: str, metres_per_unit: float) -> StepShape:
                 "file", "step")
         volumes.append(props.Mass())
         total.Add(props, 1.0)
-    compound = solids[0] if len(solids) == 1 else cq.Compound.makeCompound([cq.Shape.cast(s) for s in solids]).wrapped
-    boxes = [solid_bounds(cq.Shape.cast(s)) for s in solids]
+    solid_mm = solids[0] if len(solids) == 1 else make_compound(solids)
+    boxes = [solid_bounds(s) for s in solids]
     for i in range(len(solids)):
         for j in range(i + 1, len(solids)):
             if np.any(boxes[i][0] > boxes[j][1]) or np.any(boxes[j][0] > boxes[i][1]):
@@ -222,7 +220,6 @@ def load_step(path: Path, unit: str, metres_per_unit: float) -> StepShape:
     c = total.CentreOfMass()
     m = total.MatrixOfInertia()
     inertia = np.array([[m.Value(i, j) for j in (1, 2, 3)] for i in (1, 2, 3)]) * 1e-15
-    solid_mm = cq.Shape.cast(compound)
     return StepShape(
         file=name, unit=unit, solid_count=len(solids), _solid_mm=solid_mm, _volume=float(total.Mass()) * 1e-9,
         _centroid=_readonly([c.X() * 1e-3, c.Y() * 1e-3, c.Z() * 1e-3]),
@@ -239,7 +236,7 @@ def _origin() -> Any:
 
 @to_solid.register
 def _step_solid(shape: StepShape) -> Any:
-    """The solid(s) as a cadquery shape in MILLIMETRES (a compound when the file holds several solids)."""
+    """The solid(s) as an OpenCascade shape in MILLIMETRES (a compound when the file holds several solids)."""
     return shape._solid_mm
 
 

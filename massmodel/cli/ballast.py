@@ -82,7 +82,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     out.add_argument("--step", type=output_file, help="write the block's STEP (mm, model frame)")
     out.add_argument("--stl", type=output_file, help="write the block's STL (mm, model frame)")
     out.add_argument("--json", type=output_file, help="write the result as JSON (SI)")
-    out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check")
+    out.add_argument("--no-fit", action="store_true", help="skip the packaging check (closed form, or OpenCascade)")
     p.set_defaults(run=_size_block)
 
     p = sub.add_parser("place-ballast", help="place ballast across candidate slots to meet the rules, lowest CG",
@@ -126,7 +126,7 @@ def register(sub: argparse._SubParsersAction) -> None:
                      help="write a bar chart of what each rule costs in ballast (PNG)")
     out.add_argument("--trade-off", type=output_file, metavar="PNG",
                      help="compute and plot the CG height / yaw inertia trade-off at the least ballast (PNG)")
-    out.add_argument("--no-fit", action="store_true", help="skip the OpenCascade packaging check of the blocks")
+    out.add_argument("--no-fit", action="store_true", help="skip the packaging check of the blocks (closed form, or OpenCascade)")
     p.set_defaults(run=_place)
 
     p = sub.add_parser("seat-ballast", help="ballast a group-mass rule needs and the CG height it costs",
@@ -424,14 +424,14 @@ def _place(args: argparse.Namespace) -> int:
     fit_ok = True
     written_ok = True
     if not args.no_fit:
-        print("\nPACKAGING (OpenCascade: block inside its slot with the slot's clearance)")
+        print("\nPACKAGING (block inside its slot with the slot's clearance)")
         for al in result.allocations:
             if al.sizing is None:
                 continue
             for path, f in zip(al.paths, check_fit(al.sizing), strict=True):
                 fit_ok &= f.fits
                 print(f"  {path}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance {f.clearance * 1e3:.3f} mm "
-                      f"(required {f.required_clearance * 1e3:.3f} mm)" + (f": {f.reason}" if f.reason else ""))
+                      f"(required {f.required_clearance * 1e3:.3f} mm; {f.method})" + (f": {f.reason}" if f.reason else ""))
     if args.out_model:
         written_ok = _write_model(args, model, plan, result, blocks)
     if args.step and blocks:

@@ -37,14 +37,14 @@ def _cad_part_mesh(component: Component, chord_tolerance: float) -> tuple[FloatA
     """Fallback: the B-rep solid minus its cut-outs (OpenCascade), tessellated, in the part frame."""
     import trimesh
 
-    from massmodel.cad.primitives import to_solid
-    from massmodel.cad.solids import place_solid
+    from massmodel.cad.primitives import cut_shape, to_solid
+    from massmodel.cad.solids import place_solid, tessellate
 
     solid = to_solid(component.shape)
     for cut in component.cutouts:
-        solid = solid.cut(place_solid(to_solid(cut.shape), cut.pose))
-    verts, tris = solid.tessellate(chord_tolerance * 1e3, 0.3)
-    mesh = trimesh.Trimesh(np.array([v.toTuple() for v in verts]) * 1e-3, np.array(tris))
+        solid = cut_shape(solid, place_solid(to_solid(cut.shape), cut.pose))
+    verts, tris = tessellate(solid, chord_tolerance * 1e3)
+    mesh = trimesh.Trimesh(verts * 1e-3, tris)
     return np.asarray(mesh.vertices, float), np.asarray(mesh.faces, np.int64)
 
 

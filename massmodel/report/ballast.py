@@ -157,7 +157,7 @@ def format_sizing(sizing: BlockSizing, fits: Sequence[Any] = (), advice: Sequenc
                f"{sum(p.geometry.size[sizing.spec.fill.axis] for p in full) * 1e3:.1f} mm along {sizing.spec.fill.letter}"
                + (f" in {len(full)} plates" if len(full) > 1 else ""))
     for i, f in enumerate(fits):
-        out.append(f"  fit (OpenCascade) piece {i + 1}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance "
+        out.append(f"  fit ({f.method}) piece {i + 1}: {'fits' if f.fits else 'DOES NOT FIT'}, clearance "
                    f"{f.clearance * 1e3:.3f} mm (required {f.required_clearance * 1e3:.3f} mm)"
                    + (f": {f.reason}" if f.reason else ""))
     out.append("")

@@ -1,0 +1,119 @@
+"""Small STEP and STL writers on OpenCascade (OCP) alone, for a handful of named solids (the ballast blocks).
+
+A flat STEP AP214 assembly: one component per solid, named (the product and the instance carry the same name) and
+coloured (sRGB, as STEP stores colours), lengths in millimetres (OpenCascade writes the unit into the file). The STL
+is binary, in mm (STL carries no unit), triangulated by OpenCascade with an absolute chord tolerance.
+
+cadquery is not needed (it would bring VTK and more along); the model export (:mod:`massmodel.cad.export`) keeps its
+own writers. OCP is imported inside the functions.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+__all__ = ["NamedSolid", "write_step_solids", "write_stl_solids"]
+
+#: (name, OpenCascade shape in mm, sRGB colour with components in [0, 1])
+NamedSolid = tuple[str, Any, tuple[float, float, float]]
+
+
+def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_name: str) -> None:
+    """Write solids (mm, model frame) as a flat STEP AP214 assembly named ``assembly_name``.
+
+    Parameters
+    ----------
+    path : path
+        The file (written directly: callers go through :func:`massmodel.core.atomic.write_atomic`).
+    solids : sequence of (str, TopoDS_Shape, (3,) float)
+        Name, shape in mm and sRGB colour of each component.
+    assembly_name : str
+
+    Raises
+    ------
+    RuntimeError
+        The STEP writer failed.
+
+    References
+    ----------
+    ISO 10303-214 (STEP AP214); OpenCascade XCAF documentation (XCAFDoc_ShapeTool, STEPCAFControl_Writer).
+    """
+    from OCP.IFSelect import IFSelect_ReturnStatus
+    from OCP.Interface import Interface_Static
+    from OCP.Quantity import Quantity_Color, Quantity_ColorRGBA, Quantity_TypeOfColor
+    from OCP.STEPCAFControl import STEPCAFControl_Writer
+    from OCP.STEPControl import STEPControl_StepModelType
+    from OCP.TCollection import TCollection_ExtendedString
+    from OCP.TDataStd import TDataStd_Name
+    from OCP.TDocStd import TDocStd_Document
+    from OCP.TopLoc import TopLoc_Location
+    from OCP.XCAFApp import XCAFApp_Application
+    from OCP.XCAFDoc import XCAFDoc_ColorType, XCAFDoc_DocumentTool
+    from OCP.XSControl import XSControl_WorkSession
+
+    app = XCAFApp_Application.GetApplication_s()
+    doc = TDocStd_Document(TCollection_ExtendedString("XmlXCAF"))
+    app.InitDocument(doc)
+    shapes = XCAFDoc_DocumentTool.ShapeTool_s(doc.Main())
+    shapes.SetAutoNaming_s(False)
+    colours = XCAFDoc_DocumentTool.ColorTool_s(doc.Main())
+
+    def name(label: Any, text: str) -> None:
+        TDataStd_Name.Set_s(label, TCollection_ExtendedString(text))
+
+    top = shapes.NewShape()
+    name(top, assembly_name)
+    for text, shape, rgb in solids:
+        part = shapes.NewShape()
+        shapes.SetShape(part, shape)
+        name(part, text)
+        colour = Quantity_ColorRGBA(Quantity_Color(*rgb, Quantity_TypeOfColor.Quantity_TOC_sRGB), 1.0)
+        colours.SetColor(part, colour, XCAFDoc_ColorType.XCAFDoc_ColorSurf)
+        name(shapes.AddComponent(top, part, TopLoc_Location()), text)
+    shapes.UpdateAssemblies()
+
+    writer = STEPCAFControl_Writer(XSControl_WorkSession(), False)
+    writer.SetColorMode(True)
+    writer.SetNameMode(True)
+    Interface_Static.SetCVal_s("write.step.schema", "AP214IS")
+    Interface_Static.SetCVal_s("xstep.cascade.unit", "MM")
+    Interface_Static.SetCVal_s("write.step.unit", "MM")
+    Interface_Static.SetIVal_s("write.surfacecurve.mode", 1)
+    Interface_Static.SetIVal_s("write.precision.mode", 0)
+    writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
+    if writer.Write(str(path)) != IFSelect_ReturnStatus.IFSelect_RetDone:
+        raise RuntimeError(f"the OpenCascade STEP writer failed for '{path}'")
+
+
+def write_stl_solids(path: str | Path, shapes: Sequence[Any], chord_mm: float, angle_rad: float) -> None:
+    """Write shapes (mm) as one binary STL, triangulated with an absolute chord tolerance.
+
+    Parameters
+    ----------
+    path : path
+        The file (written directly: callers go through :func:`massmodel.core.atomic.write_atomic`).
+    shapes : sequence of TopoDS_Shape
+        In mm.
+    chord_mm : float
+        Largest distance between the triangles and the exact surface, mm (OpenCascade's linear deflection).
+    angle_rad : float
+        Largest angle between neighbouring triangles along a curved edge, rad (angular deflection).
+
+    Raises
+    ------
+    RuntimeError
+        The STL writer failed.
+    """
+    from OCP.BRepMesh import BRepMesh_IncrementalMesh
+    from OCP.StlAPI import StlAPI_Writer
+
+    from .solids import make_compound
+
+    shape = shapes[0] if len(shapes) == 1 else make_compound(shapes)
+    BRepMesh_IncrementalMesh(shape, float(chord_mm), False, float(angle_rad), True)
+    writer = StlAPI_Writer()
+    writer.ASCIIMode = False
+    if not writer.Write(shape, str(path)):
+        raise RuntimeError(f"the OpenCascade STL writer failed for '{path}'")
