@@ -101,23 +101,23 @@ class StepStream:
         Name of the root assembly.
     file_name : str
         Name recorded in the file's header (the final name).
-    batch : int
-        Parts written through one OpenCascade writer (the writer's fixed cost is about 1 ms; a batch's entities,
+    batch : int, optional
+        Parts written through one OpenCascade writer (default :data:`BATCH`) (the writer's fixed cost is about 1 ms; a batch's entities,
         about 100 KB a part, are in memory together).
     """
 
-    def __init__(self, path: Path, scratch: Path, model_name: str, file_name: str, batch: int = BATCH) -> None:
+    def __init__(self, path: Path, scratch: Path, model_name: str, file_name: str, batch: int | None = None) -> None:
         self.path = path
         self.scratch = scratch
         self.model_name = model_name
         self.file_name = file_name
-        self.batch = batch
+        self.batch = batch or BATCH
         self._queue: list[tuple[str, str, Any, np.ndarray]] = []
         self._queued: set[Any] = set()  # TShape handles of the queued solids
         self._parts: list[_Written] = []
         self._last = 0  # highest entity number written
         try:
-            self._file: IO[str] = open(path, "w", encoding="ascii", newline="\n")
+            self._file: IO[str] = open(path, "w", encoding="utf-8", errors="surrogateescape", newline="\n")
         except OSError as exc:
             raise ExportError(f"cannot write '{path}': {exc.strerror or exc}") from None
 
@@ -275,7 +275,7 @@ def _batch_step(batch: list[tuple[str, str, Any]], scratch: Path, file_name: str
     if status != IFSelect_ReturnStatus.IFSelect_RetDone:
         raise ExportError(f"the STEP writer failed for '{scratch}' ({said[0] if said else status.name})")
     try:
-        return scratch.read_text(encoding="ascii")
+        return scratch.read_text(encoding="utf-8", errors="surrogateescape")  # bytes kept as OpenCascade wrote them
     except OSError as exc:
         raise ExportError(f"cannot read back '{scratch}': {exc.strerror or exc}") from None
 
@@ -319,18 +319,29 @@ def _assembly_text(model_name: str, parts: list[_Written], first: int) -> str:
         "'confusion accuracy');",
     ]
     identity = np.hstack([np.eye(3), np.zeros((3, 1))])
-    usage = 0
+    # usage occurrence ids numbered as OpenCascade's writer numbers them (a reader shows the id of an unnamed one,
+    # a group's, as its instance name): a group's parts in order, then each sub-group's contents followed by it
+    ids: dict[str, int] = {}
+
+    def number(group: str) -> None:
+        for i in members[group]:
+            ids[parts[i].path] = len(ids) + 1
+        for child in groups[group]:
+            number(child)
+            ids[child] = len(ids) + 1
+
+    number("")
 
     def assembly(group: str) -> tuple[int, int, int]:
         """Write the group's assembly (children first); (product definition, representation, origin)."""
-        nonlocal n, usage
-        children: list[tuple[str, int, int, int, np.ndarray]] = []
+        nonlocal n
+        children: list[tuple[str, str, int, int, int, np.ndarray]] = []  # (key, instance name, pd, rep, origin, at)
         for i in members[group]:
             p = parts[i]
-            children.append((p.path, p.product_definition, p.representation, p.origin, p.matrix))
+            children.append((p.path, p.path, p.product_definition, p.representation, p.origin, p.matrix))
         for child in groups[group]:
             child_pd, child_rep, child_origin = assembly(child)
-            children.append(("", child_pd, child_rep, child_origin, identity))
+            children.append((child, "", child_pd, child_rep, child_origin, identity))
         name = _string(group or model_name)
         sdr, pds, pd, pdf, prod, rep, cat = range(n, n + 7)
         n += 7
@@ -350,9 +361,8 @@ def _assembly_text(model_name: str, parts: list[_Written], first: int) -> str:
             f"#{cat} = PRODUCT_RELATED_PRODUCT_CATEGORY('part',$,(#{prod}));",
             f"#{rep} = SHAPE_REPRESENTATION('',({','.join(f'#{k}' for k in [origin, *placements])}),#{ctx});",
         ])
-        for (path, child_pd, child_rep, child_origin, matrix), at in zip(children, placements, strict=True):
+        for (key, instance, child_pd, child_rep, child_origin, matrix), at in zip(children, placements, strict=True):
             lines.extend(_placement(at, matrix))
-            usage += 1
             cdsr, rr, idt, shape, nauo = range(n, n + 5)
             n += 5
             lines.extend([
@@ -361,7 +371,7 @@ def _assembly_text(model_name: str, parts: list[_Written], first: int) -> str:
                 f"REPRESENTATION_RELATIONSHIP_WITH_TRANSFORMATION(#{idt}) SHAPE_REPRESENTATION_RELATIONSHIP() );",
                 f"#{idt} = ITEM_DEFINED_TRANSFORMATION('','',#{child_origin},#{at});",
                 f"#{shape} = PRODUCT_DEFINITION_SHAPE('Placement','Placement of an item',#{nauo});",
-                f"#{nauo} = NEXT_ASSEMBLY_USAGE_OCCURRENCE('{usage}',{_string(path)},'',#{pd},#{child_pd},$);",
+                f"#{nauo} = NEXT_ASSEMBLY_USAGE_OCCURRENCE('{ids[key]}',{_string(instance)},'',#{pd},#{child_pd},$);",
             ])
         return pd, rep, origin
 
