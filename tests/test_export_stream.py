@@ -16,9 +16,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from export_reference import glb_nodes, reference_glb, reference_step, reference_stl, step_tree
 
 from conftest import assert_close
-from export_reference import glb_nodes, reference_glb, reference_step, reference_stl, step_tree
 from massmodel.cad.export import ExportOptions, Format, StlLayout, export_model
 from massmodel.modelfile.loader import load_model, loads_model
 

@@ -44,7 +44,7 @@ from .formats import ExportError, group_tree, rgb
 __all__ = ["StepStream", "pose_matrix_mm"]
 
 _MM_PER_M = 1000.0
-_REFERENCE = re.compile(r"'(?:[^']|'')*'|#(\d+)")  # a string literal (left alone) or an entity reference
+_SPLIT = re.compile(r"('(?:[^']|'')*')|#(\d+)")  # a string literal (left alone) or an entity reference
 _ENTITY = re.compile(r"^#(\d+) = ", re.MULTILINE)
 _TEMP_NAME = "massmodel-part-"  # products are written under this name + a number and renamed as they are copied
 #: The product-structure entities of a batch (the start of their text is enough to follow the references).
@@ -153,17 +153,8 @@ class StepStream:
         found = _products(data)
         if not last or sorted(found) != list(range(len(self._queue))):
             raise RuntimeError("the STEP text of a batch of parts does not hold one product per part")
-        names = {k: _string(path) for k, (path, _, _, _) in enumerate(self._queue)}
-
-        def renumber(m: re.Match[str]) -> str:
-            if m.group(1) is not None:
-                return f"#{int(m.group(1)) + offset}"
-            text = m.group(0)
-            if text.startswith("'" + _TEMP_NAME):
-                return names[int(text[len(_TEMP_NAME) + 1 : -1])]
-            return text
-
-        self._write(_REFERENCE.sub(renumber, data) + "\n")
+        names = {f"'{_TEMP_NAME}{k}'": _string(path) for k, (path, _, _, _) in enumerate(self._queue)}
+        self._write(_renumbered(data, offset, names) + "\n")
         self._last = offset + last
         for k, (path, _, _, matrix) in enumerate(self._queue):
             pd, rep, origin = found[k]
@@ -188,6 +179,18 @@ class StepStream:
         """Close without finishing (the caller removes the staged file)."""
         self._file.close()
         self.scratch.unlink(missing_ok=True)
+
+
+def _renumbered(data: str, offset: int, names: dict[str, str]) -> str:
+    """``data`` with every entity number (outside string literals) raised by ``offset`` and the string literals found
+    in ``names`` replaced."""
+    pieces = _SPLIT.split(data)  # text, then (string literal or None, entity number or None, text) repeated
+    strings = pieces[1::3]
+    numbers = pieces[2::3]
+    refs = [f"#{int(n) + offset}" if n is not None else names.get(t, t) for t, n in zip(strings, numbers, strict=True)]
+    pieces[1::3] = refs
+    pieces[2::3] = [""] * len(numbers)
+    return "".join(pieces)
 
 
 def _products(data: str) -> dict[int, tuple[int, int, int]]:
