@@ -10,6 +10,7 @@ specification, byte comparison for STL; IEC 61966-2-1 for the sRGB transfer func
 from __future__ import annotations
 
 import os
+import struct
 import subprocess
 import sys
 from pathlib import Path
@@ -76,7 +77,13 @@ def _compare_trees(after: dict, before: dict) -> None:
     assert sorted(after) == sorted(before)
     for key, node in after.items():
         old = before[key]
-        assert node["instance"] == old["instance"], key
+        if old["instance"] is not None and old["instance"].isdigit():
+            # an unnamed occurrence (a group's): the reader shows the occurrence's id, which OpenCascade's writer
+            # numbers differently in different processes (37 alone, 53 after the rest of the suite); only that it is
+            # unnamed in both is compared
+            assert node["instance"] is not None and node["instance"].isdigit(), key
+        else:
+            assert node["instance"] == old["instance"], key
         assert node["colour"] == old["colour"] or np.allclose(node["colour"], old["colour"], atol=1e-9), key
         assert_close(node["local"], old["local"], 1e-12, f"{key} placement")
         assert_close(node["placed"], old["placed"], 1e-12, f"{key} accumulated placement")
@@ -180,3 +187,31 @@ def test_export_does_not_import_cadquery(tmp_path):
                           env={**os.environ, "PYTHONPATH": str(ROOT)})
     assert (tmp_path / "out" / "tiny.step").is_file()
     assert done.stdout.strip().splitlines()[-1] == "False"
+
+
+def test_glb_stream_shares_identical_buffers_and_keeps_a_node_without_triangles(tmp_path):
+    # glTF 2.0 (Khronos) §5.25: a node's mesh is optional; §3.6.2: accessors may share a buffer view
+    import trimesh
+
+    from massmodel.cad.mesh_writers import GlbStream
+
+    box = trimesh.creation.box(extents=(0.1, 0.2, 0.3))
+    moved = np.eye(4)
+    moved[:3, 3] = (1.0, 0.0, 0.0)
+    glb = GlbStream(tmp_path / "x.glb", tmp_path / "x.bin", "root", np.eye(4))
+    glb.add("g/a", "#ff0000", np.eye(4), box.vertices, box.faces)
+    glb.add("g/b", "#ff0000", moved, box.vertices, box.faces)  # a patterned copy: same bytes
+    glb.add("g/c", "#00ff00", np.eye(4), np.zeros((0, 3)), np.zeros((0, 3), dtype=int))
+    glb.close()
+    assert not (tmp_path / "x.bin").exists()
+    raw = (tmp_path / "x.glb").read_bytes()
+    nodes = glb_nodes(raw)
+    assert {k: v["parent"] for k, v in nodes.items()} == {"root": None, "g": "root", "g/a": "g", "g/b": "g", "g/c": "g"}
+    assert "positions" not in nodes["g/c"] and "positions" not in nodes["g"]
+    assert np.array_equal(nodes["g/b"]["positions"], box.vertices.astype(np.float32))
+    assert np.array_equal(nodes["g/b"]["triangles"], box.faces)
+    assert_close(nodes["g/b"]["matrix"], moved, 0.0)
+    # 12 triangles x 3 uint32 + 8 vertices x 3 float32, stored once for both parts
+    assert struct.unpack_from("<I", raw, 28 + struct.unpack_from("<I", raw, 12)[0] - 8)[0] == 12 * 3 * 4 + 8 * 3 * 4
+    scene = trimesh.load(tmp_path / "x.glb")  # trimesh's reader as a second oracle
+    assert abs(sum(g.volume for g in scene.dump()) - 2 * 0.1 * 0.2 * 0.3) < 1e-9

@@ -122,7 +122,7 @@ class GlbStream:
         self._materials: list[dict[str, Any]] = []
         self._material_of: dict[str, int] = {}
         self._meshes: list[dict[str, Any]] = []
-        self._parts: list[tuple[str, int, np.ndarray]] = []  # (path, mesh, matrix)
+        self._parts: list[tuple[str, int | None, np.ndarray]] = []  # (path, mesh, matrix)
 
     def _view(self, data: bytes) -> int:
         digest = hashlib.blake2b(data, digest_size=20).digest()
@@ -167,8 +167,9 @@ class GlbStream:
 
     def add(self, path: str, colour: str, matrix: np.ndarray, vertices: np.ndarray, faces: np.ndarray) -> None:
         """Append one part: its mesh (m, part frame), its node's transform (4, 4) and its colour (``#rrggbb``)."""
-        if len(faces) == 0:
-            raise ExportError(f"part '{path}': its mesh has no triangles")
+        if len(faces) == 0:  # nothing to draw: the node alone, as glTF allows (§5.25: a node's mesh is optional)
+            self._parts.append((path, None, np.asarray(matrix, dtype=float)))
+            return
         indices = self._accessor(np.ascontiguousarray(faces, dtype=np.uint32).ravel(), "SCALAR")
         positions = self._accessor(np.ascontiguousarray(vertices, dtype=np.float32), "VEC3")
         self._meshes.append({"name": path, "primitives": [{"attributes": {"POSITION": positions}, "indices": indices,
@@ -183,7 +184,7 @@ class GlbStream:
             for i in members[group]:
                 path, mesh, matrix = self._parts[i]
                 parent.setdefault("children", []).append(len(nodes))
-                nodes.append({**_node(path, matrix), "mesh": mesh})
+                nodes.append(_node(path, matrix) if mesh is None else {**_node(path, matrix), "mesh": mesh})
             for child in groups[group]:
                 parent.setdefault("children", []).append(len(nodes))
                 node = _node(child, None)

@@ -322,8 +322,9 @@ def _assembly_text(model_name: str, parts: list[_Written], first: int) -> str:
         "'confusion accuracy');",
     ]
     identity = np.hstack([np.eye(3), np.zeros((3, 1))])
-    # usage occurrence ids numbered as OpenCascade's writer numbers them (a reader shows the id of an unnamed one,
-    # a group's, as its instance name): a group's parts in order, then each sub-group's contents followed by it
+    # usage occurrence ids in the order OpenCascade's writer gives them in a fresh process (a reader shows the id of
+    # an unnamed occurrence, a group's, as its instance name): a group's parts, then each sub-group's contents
+    # followed by the sub-group
     ids: dict[str, int] = {}
 
     def number(group: str) -> None:
