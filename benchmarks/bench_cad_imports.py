@@ -10,8 +10,8 @@ same run; the script exits 1 when a target is missed:
 * for each CAD command (size-block without and with STEP/STL, elbowroom, place-ballast with STEP/STL, seat-ballast,
   export), one run: wall time, peak resident memory (VmHWM of the child) and whether it imported cadquery or OCP
   (info rows);
-* the number of CAD commands that import cadquery, target 0. ``export`` is left out of that count for now (a note is
-  printed): its STEP writer still builds a cadquery assembly.
+* the number of CAD commands that import cadquery, target 0 (export included: its STEP writer builds the XCAF
+  document with OCP).
 
 The children run without PYTHONDONTWRITEBYTECODE (the workplace sets it; with it, modules without a cached .pyc
 would be compiled again in every run, which is not what a user's installation does).
@@ -37,7 +37,6 @@ RATIO = 0.5  # size-block / import cadquery, cold wall
 REPEATS = 3
 CAR = "parts_demo/brindlecombe_bl3.toml"
 PLAN = "parts_demo/bl3_ballast_plan.toml"
-NOT_COUNTED = {"export"}  # until its STEP writer is on OCP alone
 
 # Runs ``python -m massmodel ARGS`` in this interpreter and writes, to stderr, its peak resident memory (VmHWM of
 # /proc/self/status, KiB) and which CAD libraries it loaded.
@@ -108,10 +107,8 @@ def main() -> int:
             out.info(f"{name}: wall", seconds, " s")
             out.info(f"{name}: peak memory (VmHWM)", report["kib"] / 1024.0, " MiB")
             out.info(f"{name}: loads cadquery / OCP / neither", libs)
-            if report["cadquery"] and name not in NOT_COUNTED:
+            if report["cadquery"]:
                 importing.append(name)
-        print(f"note: {', '.join(sorted(NOT_COUNTED))} is not counted below: its STEP writer still builds a cadquery "
-              "assembly (massmodel/cad/export.py, formats.py) until that moves to OCP")
         out.at_most("CAD commands importing cadquery", float(len(importing)), 0.0, "")
         if importing:
             print(f"importing cadquery: {', '.join(importing)}")

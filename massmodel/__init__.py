@@ -1,7 +1,7 @@
 """massmodel: parametric 3-D mass models of vehicles.
 
 The core (units, expressions, shapes, mass properties, model files, vehicle balance, report) needs numpy alone.
-CAD export and packaging (cadquery/OCP), meshes (trimesh) and rendering (pyvista) load only when used.
+CAD export and packaging (OpenCascade through OCP), meshes (trimesh) and rendering (pyvista) load only when used.
 
 Quick use::
 

@@ -13,8 +13,6 @@ import subprocess
 import sys
 from pathlib import Path
 
-import pytest
-
 ROOT = Path(__file__).parents[1]
 CAR = str(ROOT / "parts_demo/brindlecombe_bl3.toml")
 PLAN = str(ROOT / "parts_demo/bl3_ballast_plan.toml")
@@ -62,8 +60,6 @@ def test_cad_commands_do_not_import_cadquery(tmp_path):
     assert rows[4]["code"] == 0 and "cadquery" not in rows[4]["loaded"]
 
 
-@pytest.mark.xfail(strict=True, reason="export's STEP writer still uses cadquery's assembly; remove this mark when "
-                                       "massmodel/cad/export.py and formats.py write STEP with OCP alone")
 def test_export_does_not_import_cadquery(tmp_path):
     rows = _run([["export", CAR, "--out", str(tmp_path), "--formats", "step"]])
     assert rows[0]["code"] == 0

@@ -373,11 +373,28 @@ def test_a_failure_midway_keeps_the_earlier_export(exported, tmp_path, monkeypat
     def broken(*args, **kwargs):
         raise ExportError("simulated failure of the GLB writer")
 
-    monkeypatch.setattr(ex, "glb_bytes", broken)
+    # at the end (writing the GLB from its streamed parts) and part-way (the fourth part's mesh going out)
+    monkeypatch.setattr(ex.GlbStream, "close", broken)
     with pytest.raises(ExportError, match="simulated"):
         export_model(model, tmp_path, ExportOptions(chord_tolerance=2e-4, stl_layout=StlLayout.BOTH))
     after = {p: p.read_bytes() for p in tmp_path.rglob("*") if p.is_file()}
     assert after == before  # same files, same bytes: no temp file, no half-written export, no parts folder
+    assert not (tmp_path / "round-trip-1_parts").exists()
+    monkeypatch.undo()
+    real_add = ex.GlbStream.add
+    calls = []
+
+    def fails_on_the_fourth(self, *args):
+        calls.append(args[0])
+        if len(calls) == 4:
+            raise ExportError("simulated failure of the GLB writer")
+        real_add(self, *args)
+
+    monkeypatch.setattr(ex.GlbStream, "add", fails_on_the_fourth)
+    with pytest.raises(ExportError, match="simulated"):
+        export_model(model, tmp_path, ExportOptions(chord_tolerance=2e-4, stl_layout=StlLayout.BOTH))
+    assert len(calls) == 4
+    assert {p: p.read_bytes() for p in tmp_path.rglob("*") if p.is_file()} == before
     assert not (tmp_path / "round-trip-1_parts").exists()
 
 

@@ -2,16 +2,14 @@
 
 What each file holds
 --------------------
-The contents of each format are made in :mod:`massmodel.cad.formats`.
-
-STEP (AP214, length unit mm stated in the file)
+STEP (AP214, length unit mm stated in the file; :mod:`massmodel.cad.step_writer`)
     An assembly named after the model, nested by group (one sub-assembly per group path), with one solid per
     component named by its path, coloured with its colour (sRGB), cut-outs applied and placed by its own location
     (the component's pose; a mirrored part has its mirror built into its geometry, see :mod:`massmodel.cad.solids`).
-STL (binary, mm, model axes)
+STL (binary, mm, model axes; :mod:`massmodel.cad.mesh_writers`)
     The whole selection in one file and/or one file per component (``<stem>_parts/<path>.stl``); triangles within
     the chord tolerance of the exact surfaces (flat faces exact).
-GLB (binary glTF 2.0, metres)
+GLB (binary glTF 2.0, metres; :mod:`massmodel.cad.mesh_writers`)
     One node per component named by its path, under group nodes, with its colour as the material's base colour;
     a root node rotates model axes into glTF axes (+Y up, +Z forward, +X left).
 Sidecar (JSON, SI)
@@ -20,8 +18,20 @@ Sidecar (JSON, SI)
     user should assign to reproduce the model's mass from the solid; and OpenCascade's mass properties recomputed
     from the exported solids, so the file can be checked against the model.
 
-All files are staged as temporary files in their own folders and renamed into place only when every one of them
-has been written (``os.replace``): a failure leaves any earlier export untouched. The sidecar lists the SHA-256 of
+Streaming
+---------
+The parts are exported one after the other: each component's solid is made, its volume integrals taken (for the
+sidecar), the solid handed to the STEP writer (written out a batch of 64 parts at a time), its mesh made and its
+triangles appended to the open STL file(s) and to the GLB's binary data (a scratch file), and all of it released
+before the next component. Components sharing a shape (mirrored and patterned copies) share a cache of the solid and
+mesh, dropped after the last of them. What stays in memory is a few numbers a part (volume integrals, placements,
+the GLB's JSON entries), so the peak memory is about flat in the number of parts.
+
+The export imports OpenCascade (OCP) and trimesh, not cadquery: :mod:`massmodel.cad.solids` returns
+``OCP.TopoDS.TopoDS_Shape`` objects and every step after it uses OCP.
+
+All files are written (streamed) into temporary files in their own folders and renamed into place only when every
+one of them has been written (``os.replace``): a failure leaves any earlier export untouched. The sidecar lists the SHA-256 of
 every other file and is renamed in last, so a process killed during the renames leaves new files beside the old
 sidecar, which :func:`verify_export` detects; the temporary files of a killed export are named
 ``.massmodel-partial-<pid>.*`` and removed by the next export into that folder (:func:`clean_partial_files`).
@@ -32,31 +42,23 @@ from __future__ import annotations
 import enum
 import json
 import os
-import tempfile
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from massmodel.core.atomic import check_not_input, current_umask
 from massmodel.core.errors import NotFoundError, UsageError
 from massmodel.core.massprops import MassProperties, combine_arrays
 from massmodel.core.model import Component, MassSource, Model, in_group
 from massmodel.core.shapes import PointMass
 
-from .formats import (
-    ExportError,
-    ExportPart,
-    glb_bytes,
-    gltf_axes,
-    placed_mesh_arrays,
-    slug,
-    srgb_to_linear,
-    stl_bytes,
-    write_step,
-)
+from .formats import ExportError, ExportPart, gltf_axes, slug, srgb_to_linear, stl_bytes
+from .mesh_writers import GlbStream, StlStream
+from .staging import PARTIAL_PREFIX, clean_partial_files, verify_export
+from .staging import Stage as _Stage
+from .step_writer import StepStream, pose_matrix_mm
 
 __all__ = [
     "EXPORT_FORMAT",
@@ -155,137 +157,6 @@ def select_components(model: Model, selection: Iterable[str]) -> list[Component]
 
 
 # --------------------------------------------------------------------------------------------------
-# staging: every file is written beside its target and renamed in at the end
-# --------------------------------------------------------------------------------------------------
-
-
-PARTIAL_PREFIX = ".massmodel-partial-"  # temporary files of an export: PARTIAL_PREFIX + "<pid>." + name + ...
-
-
-def clean_partial_files(folder: Path) -> list[Path]:
-    """Remove the temporary files an export killed part-way left in ``folder`` (and its sub-folders).
-
-    They are named ``.massmodel-partial-<pid>.<name>.<random>.tmp<suffix>``; those of a process still running (an
-    export under way) are kept.
-    """
-    removed: list[Path] = []
-    if not folder.is_dir():
-        return removed
-    for path in folder.rglob(PARTIAL_PREFIX + "*"):
-        pid_text = path.name[len(PARTIAL_PREFIX):].split(".", 1)[0]
-        if not pid_text.isdigit() or (int(pid_text) != os.getpid() and _running(int(pid_text))):
-            continue
-        try:
-            path.unlink()
-            removed.append(path)
-        except OSError:
-            pass
-    return removed
-
-
-def _running(pid: int) -> bool:
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except OSError:  # exists, owned by someone else
-        return True
-    return True
-
-
-def _sha256(path: Path) -> str:
-    import hashlib
-
-    h = hashlib.sha256()
-    with open(path, "rb") as f:
-        for block in iter(lambda: f.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
-
-
-def verify_export(sidecar_path: str | Path) -> list[str]:
-    """Check that the files of an export are the ones its sidecar describes (SHA-256 in ``files.sha256``).
-
-    The sidecar is renamed into place last, so a set interrupted part-way (killed during the renames) shows as new
-    files beside an old sidecar; a reader that relies on the sidecar matching the STEP calls this first.
-
-    Returns
-    -------
-    list of str
-        One line per missing or different file (empty: the set is consistent).
-    """
-    sidecar = Path(sidecar_path)
-    data = json.loads(sidecar.read_text(encoding="utf-8"))
-    hashes = data.get("files", {}).get("sha256", {})
-    problems = []
-    if not hashes:
-        problems.append(f"{sidecar}: lists no file hashes (written before sidecars carried them)")
-    for name, digest in hashes.items():
-        path = sidecar.parent / name
-        if not path.is_file():
-            problems.append(f"{path}: missing")
-        elif _sha256(path) != digest:
-            problems.append(f"{path}: not the file the sidecar describes (another export's, or changed since)")
-    return problems
-
-
-class _Stage:
-    def __init__(self) -> None:
-        self.pending: list[tuple[Path, Path]] = []
-        self.made_dirs: list[Path] = []
-
-    def temp_for(self, target: Path) -> Path:
-        check_not_input(target)
-        folder = target.parent
-        missing = []
-        probe = folder
-        while not probe.exists():
-            missing.append(probe)
-            probe = probe.parent
-        try:
-            folder.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=f"{PARTIAL_PREFIX}{os.getpid()}.{target.stem}.",
-                                       suffix=f".tmp{target.suffix}", dir=folder)
-        except OSError as exc:
-            raise ExportError(f"cannot write to the folder '{folder}': {exc.strerror or exc}") from None
-        os.close(fd)
-        os.chmod(tmp, 0o666 & ~current_umask())  # mkstemp makes 0600 files; give the export the user's usual mode
-        self.made_dirs.extend(reversed(missing))
-        path = Path(tmp)
-        self.pending.append((path, target))
-        return path
-
-    def write_bytes(self, target: Path, data: bytes) -> None:
-        tmp = self.temp_for(target)
-        try:
-            tmp.write_bytes(data)
-        except OSError as exc:
-            raise ExportError(f"cannot write '{target}': {exc.strerror or exc}") from None
-
-    def hashes(self, root: Path) -> dict[str, str]:
-        """SHA-256 of every staged file, by its path relative to ``root`` (the sidecar's manifest)."""
-        return {target.relative_to(root).as_posix(): _sha256(tmp) for tmp, target in self.pending}
-
-    def commit(self) -> list[Path]:
-        """Rename the staged files into place in the order staged (the sidecar, staged last, goes in last)."""
-        for tmp, target in self.pending:
-            os.replace(tmp, target)
-        done = [t for _, t in self.pending]
-        self.pending = []
-        return done
-
-    def abort(self) -> None:
-        for tmp, _ in self.pending:
-            tmp.unlink(missing_ok=True)
-        self.pending = []
-        for d in reversed(self.made_dirs):
-            try:
-                d.rmdir()
-            except OSError:
-                pass
-
-
-# --------------------------------------------------------------------------------------------------
 # the export
 # --------------------------------------------------------------------------------------------------
 
@@ -341,76 +212,141 @@ def export_model(
         raise UsageError(f"file name stem (--name) {stem!r}: expected a plain file name, without folders "
                          "(use --out for the folder)")
     tick = progress or (lambda stage, done, total: None)
-    from .solids import component_local_mesh, component_local_solid, has_solid
+    from .solids import has_solid
 
     with_solid = [c for c in selected if has_solid(c)]
     left_out = tuple((c.path, _no_solid_reason(c)) for c in selected if not has_solid(c))
     if not with_solid:
         raise UsageError(f"selection of model '{model.name}' holds no solid to export "
                          f"({len(left_out)} point masses or open meshes)")
-    parts: list[ExportPart] = []
-    cache: dict[Any, Any] = {}
-    used: set[int] = set()
-    import cadquery as cq  # MERGE ADAPTER: solids are OCP shapes now; this module and formats.py still take cadquery's
-
-    for k, c in enumerate(with_solid):
-        shape, location = component_local_solid(c, cache)
-        solid = cq.Shape.cast(shape)  # MERGE ADAPTER (see above)
-        if id(shape) in used:  # a patterned copy: its own solid, so that STEP names it by its own path
-            solid = _copy_shape(solid)
-        used.add(id(shape))
-        parts.append(ExportPart(c, solid, location))
-        tick("solids", k + 1, len(with_solid))
-    if Format.STL in opts.formats or Format.GLB in opts.formats:
-        for k, p in enumerate(parts):
-            p.mesh = component_local_mesh(p.component, opts.chord_tolerance, cache)
-            tick("meshes", k + 1, len(parts))
 
     clean_partial_files(out)  # what an export killed part-way left here
     stage = _Stage()
     files: dict[str, Any] = {}
+    writers = _Writers()
     try:
         if Format.STEP in opts.formats:
             target = out / f"{stem}.step"
-            write_step(model, parts, stage.temp_for(target), target.name)
+            writers.step = StepStream(stage.temp_for(target), stage.scratch_for(target, "part"), model.name,
+                                      target.name)
             files["step"] = target.name
-            tick("STEP", 1, 1)
-        if Format.STL in opts.formats:
-            header = f"massmodel | {model.name} | mm | model axes"
-            if opts.stl_layout in (StlLayout.MODEL, StlLayout.BOTH):
-                v, f = placed_mesh_arrays(parts)
-                target = out / f"{stem}.stl"
-                stage.write_bytes(target, stl_bytes(v * 1e3, f, header))
-                files["stl"] = target.name
-            if opts.stl_layout in (StlLayout.PARTS, StlLayout.BOTH):
-                files["stl_parts"] = {}
-                for p in parts:
-                    v, f = placed_mesh_arrays([p])
-                    target = out / f"{stem}_parts" / f"{p.component.path}.stl"
-                    stage.write_bytes(target, stl_bytes(v * 1e3, f, f"massmodel | {p.component.path} | mm"))
-                    files["stl_parts"][p.component.path] = str(target.relative_to(out))
-            tick("STL", 1, 1)
+        if Format.STL in opts.formats and opts.stl_layout in (StlLayout.MODEL, StlLayout.BOTH):
+            target = out / f"{stem}.stl"
+            writers.stl = StlStream(stage.temp_for(target), f"massmodel | {model.name} | mm | model axes")
+            files["stl"] = target.name
         if Format.GLB in opts.formats:
             target = out / f"{stem}.glb"
-            stage.write_bytes(target, glb_bytes(model, parts))
+            axes = np.eye(4)
+            axes[:3, :3] = gltf_axes(model)
+            writers.glb = GlbStream(stage.temp_for(target), stage.scratch_for(target, "bin"), slug(model.name), axes)
             files["glb"] = target.name
+        part_files = Format.STL in opts.formats and opts.stl_layout in (StlLayout.PARTS, StlLayout.BOTH)
+        if part_files:
+            files["stl_parts"] = {}
+        meshes = Format.STL in opts.formats or Format.GLB in opts.formats
+        parts = []
+        for k, (c, cache) in enumerate(_with_caches(with_solid)):
+            part = _export_part(c, cache, writers.step)
+            parts.append(part)
+            tick("solids", k + 1, len(with_solid))
+            if meshes:
+                vertices, faces = _part_mesh(c, opts.chord_tolerance, cache)
+                if writers.stl is not None or part_files:
+                    placed_mm = part.location.apply(vertices) * 1e3
+                    if writers.stl is not None:
+                        writers.stl.add(placed_mm, faces)
+                    if part_files:
+                        target = out / f"{stem}_parts" / f"{c.path}.stl"
+                        stage.write_bytes(target, stl_bytes(placed_mm, faces, f"massmodel | {c.path} | mm"))
+                        files["stl_parts"][c.path] = str(target.relative_to(out))
+                if writers.glb is not None:
+                    writers.glb.add(c.path, c.colour, part.location.matrix4(), vertices, faces)
+                del vertices, faces
+                tick("meshes", k + 1, len(with_solid))
+        if writers.step is not None:
+            writers.step.close()
+            writers.step = None
+            tick("STEP", 1, 1)
+        if writers.stl is not None:
+            writers.stl.close()
+            writers.stl = None
+        if Format.STL in opts.formats:
+            tick("STL", 1, 1)
+        if writers.glb is not None:
+            writers.glb.close()
+            writers.glb = None
             tick("GLB", 1, 1)
         files["sha256"] = stage.hashes(out)  # the manifest: the sidecar, renamed in last, vouches for these
-        sidecar = _sidecar(model, selected, parts, left_out, opts, files)
+        sidecar = _sidecar(model, selected, parts, left_out, opts, _ordered(files))
         target = out / f"{stem}.massprops.json"
         stage.write_bytes(target, (json.dumps(sidecar, indent=2, allow_nan=False) + "\n").encode("utf-8"))
         written = stage.commit()
     except BaseException:
+        writers.discard()
         stage.abort()
         raise
     return ExportResult(tuple(written), sidecar, tuple(p.component.path for p in parts), left_out)
 
 
-def _copy_shape(solid: Any) -> Any:
-    import cadquery as cq
-    from OCP.BRepBuilderAPI import BRepBuilderAPI_Copy
+_FILE_KEYS = ("step", "stl", "stl_parts", "glb", "sha256")
 
-    return cq.Shape.cast(BRepBuilderAPI_Copy(solid.wrapped, True, False).Shape())
+
+def _ordered(files: dict[str, Any]) -> dict[str, Any]:
+    """The sidecar's ``files`` in a fixed key order (step, stl, stl_parts, glb, sha256), whatever the writing order."""
+    return {key: files[key] for key in _FILE_KEYS if key in files}
+
+
+class _Writers:
+    """The open streamed files of one export."""
+
+    def __init__(self) -> None:
+        self.step: StepStream | None = None
+        self.stl: StlStream | None = None
+        self.glb: GlbStream | None = None
+
+    def discard(self) -> None:
+        for writer in (self.step, self.stl, self.glb):
+            if writer is not None:
+                writer.discard()
+
+
+def _with_caches(components: Sequence[Component]) -> Iterator[tuple[Component, dict[Any, Any]]]:
+    """Each component with the solid/mesh cache of its shape: components sharing a shape and cut-outs (mirrored and
+    patterned copies) share one cache, dropped after the last of them, so only the meshes of shapes still to come
+    stay in memory."""
+    def key(c: Component) -> tuple[int, int]:
+        return id(c.shape), id(c.cutouts)
+
+    last = {key(c): k for k, c in enumerate(components)}
+    caches: dict[tuple[int, int], dict[Any, Any]] = {}
+    for k, c in enumerate(components):
+        cache = caches.setdefault(key(c), {})
+        yield c, cache
+        if last[key(c)] == k:
+            del caches[key(c)]
+
+
+def _export_part(c: Component, cache: dict[Any, Any], step: StepStream | None) -> ExportPart:
+    """The component's placement and the volume integrals of its solid; the solid goes to the STEP file, if any,
+    and is not kept."""
+    from .solids import component_local_solid, volume_props
+
+    shape, location = component_local_solid(c, cache)
+    props = volume_props(shape)
+    centre = props.CentreOfMass()
+    matrix = props.MatrixOfInertia()
+    if step is not None:
+        step.add(c.path, c.colour, shape, pose_matrix_mm(location))
+    return ExportPart(c, location, props.Mass(), np.array([centre.X(), centre.Y(), centre.Z()]),
+                      np.array([[matrix.Value(i, j) for j in (1, 2, 3)] for i in (1, 2, 3)]))
+
+
+def _part_mesh(c: Component, chord_tolerance: float, cache: dict[Any, Any]) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices (m, part frame, float) and faces (int) of the component's display mesh; the mesh object is not kept."""
+    from .solids import component_local_mesh
+
+    mesh = component_local_mesh(c, chord_tolerance, cache)
+    return np.asarray(mesh.vertices, dtype=float), np.asarray(mesh.faces, dtype=np.int64)
 
 
 def _props_dict(mp: MassProperties) -> dict[str, Any]:
@@ -434,15 +370,14 @@ def _sidecar(
     opts: ExportOptions,
     files: dict[str, Any],
 ) -> dict[str, Any]:
-    from .solids import MM_PER_M, volume_props
+    from .solids import MM_PER_M
 
     rows = []
     geometry_props = []
     model_props_of_geometry = []
     for p in parts:
         c = p.component
-        props = volume_props(p.solid.wrapped)
-        vol_m3 = props.Mass() * 1e-9
+        vol_m3 = p.volume_mm3 * 1e-9
         density = c.implied_density
         carries = c.source is not MassSource.MEASURED
         row: dict[str, Any] = {
@@ -460,10 +395,8 @@ def _sidecar(
         rows.append(row)
         if carries and density:
             r = p.location.linear
-            cm = props.CentreOfMass()
-            m = props.MatrixOfInertia()
-            local_c = np.array([cm.X(), cm.Y(), cm.Z()]) / MM_PER_M
-            local_i = np.array([[m.Value(i, j) for j in (1, 2, 3)] for i in (1, 2, 3)]) * 1e-15 * density
+            local_c = p.centre_mm / MM_PER_M
+            local_i = p.inertia_mm5 * 1e-15 * density
             geometry_props.append(MassProperties(vol_m3 * density, p.location.apply(local_c), r @ local_i @ r.T))
             model_props_of_geometry.append(c.props)
     exported = _combine([p.component.props for p in parts])
