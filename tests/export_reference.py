@@ -67,7 +67,7 @@ def reference_step(model: Model, path: Path) -> None:
     used: set[int] = set()
     for c, solid, location, _ in _local_parts(model, None):
         if id(solid) in used:
-            solid = cq.Shape.cast(BRepBuilderAPI_Copy(solid, True, False).Shape())
+            solid = BRepBuilderAPI_Copy(solid, True, False).Shape()
         used.add(id(solid))
         parts.append((c, cq.Shape.cast(solid), location))
     groups, members = group_tree([c.path for c, _, _ in parts])
