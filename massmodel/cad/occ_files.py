@@ -4,8 +4,8 @@ A flat STEP AP214 assembly: one component per solid, named (the product and the 
 coloured (sRGB, as STEP stores colours), lengths in millimetres (OpenCascade writes the unit into the file). The STL
 is binary, in mm (STL carries no unit), triangulated by OpenCascade with an absolute chord tolerance.
 
-cadquery is not needed (it would bring VTK and more along); the model export (:mod:`massmodel.cad.export`) keeps its
-own writers. OCP is imported inside the functions.
+cadquery is not needed (it would bring VTK and more along). The model export (:mod:`massmodel.cad.step_writer`) uses
+the same document and writer set-up (:func:`xcaf_document`, :func:`step_writer`). OCP is imported inside the functions.
 """
 
 from __future__ import annotations
@@ -14,10 +14,43 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-__all__ = ["NamedSolid", "write_step_solids", "write_stl_solids"]
+__all__ = ["NamedSolid", "step_writer", "write_step_solids", "write_stl_solids", "xcaf_document"]
 
 #: (name, OpenCascade shape in mm, sRGB colour with components in [0, 1])
 NamedSolid = tuple[str, Any, tuple[float, float, float]]
+
+
+def xcaf_document() -> tuple[Any, Any, Any]:
+    """A new XCAF document for a STEP writer: the document, its shape tool (auto-naming off) and its colour tool."""
+    from OCP.TCollection import TCollection_ExtendedString
+    from OCP.TDocStd import TDocStd_Document
+    from OCP.XCAFApp import XCAFApp_Application
+    from OCP.XCAFDoc import XCAFDoc_DocumentTool
+
+    doc = TDocStd_Document(TCollection_ExtendedString("BinXCAF"))
+    XCAFApp_Application.GetApplication_s().InitDocument(doc)
+    shapes = XCAFDoc_DocumentTool.ShapeTool_s(doc.Main())
+    shapes.SetAutoNaming_s(False)
+    return doc, shapes, XCAFDoc_DocumentTool.ColorTool_s(doc.Main())
+
+
+def step_writer() -> Any:
+    """OpenCascade's XCAF STEP writer set up as every massmodel STEP file is written: AP214, names and colours (no
+    layers), lengths in mm, surface curves kept, the precision of the shapes' own tolerances."""
+    from OCP.Interface import Interface_Static
+    from OCP.STEPCAFControl import STEPCAFControl_Writer
+    from OCP.XSControl import XSControl_WorkSession
+
+    writer = STEPCAFControl_Writer(XSControl_WorkSession(), False)
+    writer.SetColorMode(True)
+    writer.SetNameMode(True)
+    writer.SetLayerMode(False)
+    Interface_Static.SetCVal_s("write.step.schema", "AP214IS")
+    Interface_Static.SetCVal_s("xstep.cascade.unit", "MM")
+    Interface_Static.SetCVal_s("write.step.unit", "MM")
+    Interface_Static.SetIVal_s("write.surfacecurve.mode", 1)
+    Interface_Static.SetIVal_s("write.precision.mode", 0)
+    return writer
 
 
 def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_name: str) -> None:
@@ -41,24 +74,14 @@ def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_n
     ISO 10303-214 (STEP AP214); OpenCascade XCAF documentation (XCAFDoc_ShapeTool, STEPCAFControl_Writer).
     """
     from OCP.IFSelect import IFSelect_ReturnStatus
-    from OCP.Interface import Interface_Static
     from OCP.Quantity import Quantity_Color, Quantity_ColorRGBA, Quantity_TypeOfColor
-    from OCP.STEPCAFControl import STEPCAFControl_Writer
     from OCP.STEPControl import STEPControl_StepModelType
     from OCP.TCollection import TCollection_ExtendedString
     from OCP.TDataStd import TDataStd_Name
-    from OCP.TDocStd import TDocStd_Document
     from OCP.TopLoc import TopLoc_Location
-    from OCP.XCAFApp import XCAFApp_Application
-    from OCP.XCAFDoc import XCAFDoc_ColorType, XCAFDoc_DocumentTool
-    from OCP.XSControl import XSControl_WorkSession
+    from OCP.XCAFDoc import XCAFDoc_ColorType
 
-    app = XCAFApp_Application.GetApplication_s()
-    doc = TDocStd_Document(TCollection_ExtendedString("XmlXCAF"))
-    app.InitDocument(doc)
-    shapes = XCAFDoc_DocumentTool.ShapeTool_s(doc.Main())
-    shapes.SetAutoNaming_s(False)
-    colours = XCAFDoc_DocumentTool.ColorTool_s(doc.Main())
+    doc, shapes, colours = xcaf_document()
 
     def name(label: Any, text: str) -> None:
         TDataStd_Name.Set_s(label, TCollection_ExtendedString(text))
@@ -74,14 +97,7 @@ def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_n
         name(shapes.AddComponent(top, part, TopLoc_Location()), text)
     shapes.UpdateAssemblies()
 
-    writer = STEPCAFControl_Writer(XSControl_WorkSession(), False)
-    writer.SetColorMode(True)
-    writer.SetNameMode(True)
-    Interface_Static.SetCVal_s("write.step.schema", "AP214IS")
-    Interface_Static.SetCVal_s("xstep.cascade.unit", "MM")
-    Interface_Static.SetCVal_s("write.step.unit", "MM")
-    Interface_Static.SetIVal_s("write.surfacecurve.mode", 1)
-    Interface_Static.SetIVal_s("write.precision.mode", 0)
+    writer = step_writer()
     writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
     if writer.Write(str(path)) != IFSelect_ReturnStatus.IFSelect_RetDone:
         raise RuntimeError(f"the OpenCascade STEP writer failed for '{path}'")

@@ -224,25 +224,17 @@ def _batch_step(batch: list[tuple[str, str, Any]], scratch: Path, file_name: str
     from OCP.APIHeaderSection import APIHeaderSection_MakeHeader
     from OCP.BRep import BRep_Builder
     from OCP.IFSelect import IFSelect_ReturnStatus
-    from OCP.Interface import Interface_Static
     from OCP.Quantity import Quantity_Color, Quantity_ColorRGBA, Quantity_TOC_sRGB
-    from OCP.STEPCAFControl import STEPCAFControl_Writer
     from OCP.STEPControl import STEPControl_StepModelType
     from OCP.TCollection import TCollection_ExtendedString, TCollection_HAsciiString
     from OCP.TDataStd import TDataStd_Name
-    from OCP.TDocStd import TDocStd_Document
     from OCP.TopoDS import TopoDS_Compound
-    from OCP.XCAFApp import XCAFApp_Application
-    from OCP.XCAFDoc import XCAFDoc_ColorType, XCAFDoc_DocumentTool
-    from OCP.XSControl import XSControl_WorkSession
+    from OCP.XCAFDoc import XCAFDoc_ColorType
 
     from .fileshape import _native_output
+    from .occ_files import step_writer, xcaf_document
 
-    doc = TDocStd_Document(TCollection_ExtendedString("BinXCAF"))
-    XCAFApp_Application.GetApplication_s().InitDocument(doc)
-    shapes = XCAFDoc_DocumentTool.ShapeTool_s(doc.Main())
-    shapes.SetAutoNaming_s(False)
-    colours = XCAFDoc_DocumentTool.ColorTool_s(doc.Main())
+    doc, shapes, colours = xcaf_document()
     builder = BRep_Builder()
     for name, colour, solid in batch:
         compound = TopoDS_Compound()  # one solid in a compound: the part's shape, as the assembly writer made it
@@ -253,15 +245,7 @@ def _batch_step(batch: list[tuple[str, str, Any]], scratch: Path, file_name: str
         r, g, b = rgb(colour)
         colours.SetColor(label, Quantity_ColorRGBA(Quantity_Color(r, g, b, Quantity_TOC_sRGB), 1.0),
                          XCAFDoc_ColorType.XCAFDoc_ColorSurf)
-    writer = STEPCAFControl_Writer(XSControl_WorkSession(), False)
-    writer.SetColorMode(True)
-    writer.SetNameMode(True)
-    writer.SetLayerMode(False)
-    Interface_Static.SetCVal_s("write.step.schema", "AP214IS")
-    Interface_Static.SetCVal_s("xstep.cascade.unit", "MM")
-    Interface_Static.SetCVal_s("write.step.unit", "MM")
-    Interface_Static.SetIVal_s("write.surfacecurve.mode", 1)
-    Interface_Static.SetIVal_s("write.precision.mode", 0)
+    writer = step_writer()
     with _native_output() as said:
         writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
         step_model = writer.ChangeWriter().Model()
