@@ -192,13 +192,16 @@ def kernel_for(elements: int, kernel: str = "auto") -> str:
 @functools.cache
 def _sampler() -> ModuleType | None:
     """:mod:`massmodel.uncertainty.sampler`, imported on first use; None when numba is not installed or does not
-    import."""
+    import. An import error inside massmodel itself is a bug of this package and is raised, not taken for a missing
+    numba (which would tell the user to install what is installed)."""
     if importlib.util.find_spec("numba") is None:
         return None
     try:
         from . import sampler
-    except ImportError:  # pragma: no cover - a broken numba/llvmlite install: the numpy path still works
-        return None
+    except ImportError as exc:
+        if (exc.name or "").split(".")[0] == "massmodel":
+            raise
+        return None  # a broken numba/llvmlite install: the numpy path still works
     return sampler
 
 
