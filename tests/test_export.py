@@ -488,6 +488,22 @@ def test_leftovers_of_a_running_export_are_kept(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted([mine.name, other.name])
 
 
+def test_only_the_exports_own_folders_are_cleaned(tmp_path):
+    # An output folder may hold a whole tree of other files (--out ~): the clean-up looks in the folder itself and in
+    # the export's own <stem>_parts tree, and does not walk (nor touch) anything else below the folder.
+    from massmodel.cad.export import PARTIAL_PREFIX, clean_partial_files
+
+    name = f"{PARTIAL_PREFIX}999999999.car.abc.tmp.stl"  # a dead process's (pid above any the kernel hands out)
+    top, part = tmp_path / name, tmp_path / "car_parts" / "body" / name
+    unrelated = tmp_path / "photos" / "2026" / name
+    for p in (top, part, unrelated):
+        p.parent.mkdir(parents=True, exist_ok=True)
+        p.write_text("x")
+    assert sorted(clean_partial_files(tmp_path, [tmp_path / "car_parts"])) == sorted([top, part])
+    assert unrelated.exists()
+    assert clean_partial_files(tmp_path / "missing", [tmp_path / "missing_parts"]) == []
+
+
 def test_an_exported_ellipsoid_keeps_its_volume(tmp_path):
     # closed form: V = 4/3 π a b c. The kernel has no ellipsoid surface: the solid is the rational B-spline of a unit
     # sphere under diag(a, b, c), which an affine map keeps exact; a non-rational approximation was 4.4e-4 short.
