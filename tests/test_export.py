@@ -350,6 +350,18 @@ def test_unwritable_output_leaves_nothing_behind(exported, tmp_path):
     assert blocker.read_text() == "keep me" and sorted(tmp_path.iterdir()) == [blocker]
 
 
+def test_a_folder_in_the_way_of_an_output_is_named_before_anything_is_replaced(exported, tmp_path):
+    # the STL's name is taken by a folder: the export stops before writing (naming that file, not a temporary one),
+    # so the STEP of the same set is not replaced alone and no temporary file is left
+    model, _, _ = exported
+    (tmp_path / "car.stl").mkdir()
+    (tmp_path / "car.step").write_text("the previous export")
+    with pytest.raises(ExportError, match=r"car\.stl': a folder of that name is in the way"):
+        export_model(model, tmp_path, ExportOptions(), stem="car")
+    assert (tmp_path / "car.step").read_text() == "the previous export"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["car.step", "car.stl"]
+
+
 @pytest.mark.skipif(os.geteuid() == 0, reason="root writes into read-only folders")
 def test_read_only_folder(exported, tmp_path):
     model, _, _ = exported

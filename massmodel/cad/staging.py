@@ -104,6 +104,8 @@ class Stage:
 
     def temp_for(self, target: Path) -> Path:
         check_not_input(target)
+        if target.is_dir():  # found now, before anything is written or renamed (the rename would fail at the end)
+            raise ExportError(f"cannot write '{target}': a folder of that name is in the way")
         folder = target.parent
         missing = []
         probe = folder
@@ -126,8 +128,11 @@ class Stage:
     def scratch_for(self, target: Path, what: str) -> Path:
         """A scratch file beside ``target`` (named like the staged files, so a killed export's is cleaned up too),
         removed by :meth:`abort` and :meth:`commit` if still there."""
-        fd, tmp = tempfile.mkstemp(prefix=f"{PARTIAL_PREFIX}{os.getpid()}.{target.stem}.{what}.", suffix=".tmp",
-                                   dir=target.parent)
+        try:
+            fd, tmp = tempfile.mkstemp(prefix=f"{PARTIAL_PREFIX}{os.getpid()}.{target.stem}.{what}.", suffix=".tmp",
+                                       dir=target.parent)
+        except OSError as exc:
+            raise ExportError(f"cannot write to the folder '{target.parent}': {exc.strerror or exc}") from None
         os.close(fd)
         self.scratch.append(Path(tmp))
         return Path(tmp)
