@@ -500,6 +500,21 @@ def test_leftovers_of_a_running_export_are_kept(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted([mine.name, other.name])
 
 
+@pytest.mark.parametrize("fmt, words", [(Format.STL, "triangles, which a binary STL cannot count"),
+                                         (Format.GLB, "more than a GLB file can hold")])
+def test_an_export_too_large_for_its_format_stops_with_one_line(exported, tmp_path, monkeypatch, fmt, words):
+    # A binary STL states its triangle count and a GLB its length in uint32 fields (3D Systems' STL specification;
+    # Khronos glTF 2.0 §4.4): past 2^32 - 1 the export stops with an ExportError (one line, exit 2) instead of a
+    # struct.error traceback at the end. The limit is lowered here so that a small model reaches it.
+    import massmodel.cad.mesh_writers as mw
+
+    model, _, _ = exported
+    monkeypatch.setattr(mw, "UINT32_MAX", 100)
+    with pytest.raises(ExportError, match=words):
+        export_model(model, tmp_path, ExportOptions(formats=frozenset({fmt})))
+    assert list(tmp_path.iterdir()) == []  # nothing written, no temporary file left
+
+
 def test_only_the_exports_own_folders_are_cleaned(tmp_path):
     # An output folder may hold a whole tree of other files (--out ~): the clean-up looks in the folder itself and in
     # the export's own <stem>_parts tree, and does not walk (nor touch) anything else below the folder.
