@@ -43,14 +43,16 @@ PLAN = "parts_demo/bl3_ballast_plan.toml"
 CHILD = """
 import json, runpy, sys
 sys.argv = ["massmodel", *sys.argv[1:]]
+code = 0
 try:
     runpy.run_module("massmodel", run_name="__main__")
-except SystemExit:
-    pass
+except SystemExit as done:
+    code = done.code if isinstance(done.code, int) else (0 if done.code is None else 2)
 with open("/proc/self/status") as status:
     kib = next(int(line.split()[1]) for line in status if line.startswith("VmHWM:"))
 tops = {m.split(".")[0] for m in sys.modules}
-sys.stderr.write(json.dumps({"kib": kib, "cadquery": "cadquery" in tops, "OCP": "OCP" in tops}) + "\\n")
+sys.stderr.write(json.dumps({"code": code, "kib": kib, "cadquery": "cadquery" in tops, "OCP": "OCP" in tops})
+                 + "\\n")
 """
 
 
@@ -69,9 +71,16 @@ def wall(argv: list[str]) -> tuple[float, str]:
 
 
 def command(args: list[str]) -> tuple[float, dict]:
-    """Wall time (s) and the child's report (peak KiB, cadquery, OCP) of ``python -m massmodel ARGS``."""
+    """Wall time (s) and the child's report (exit code, peak KiB, cadquery, OCP) of ``python -m massmodel ARGS``.
+
+    A command that stops on bad input (exit 2) did not do the work being timed: that ends the benchmark (0 and 1,
+    a failed check, are normal ends).
+    """
     seconds, err = wall(["-c", CHILD, *args])
-    return seconds, json.loads(err.strip().splitlines()[-1])
+    report = json.loads(err.strip().splitlines()[-1])
+    if report["code"] not in (0, 1):
+        raise RuntimeError(f"massmodel {' '.join(args)} exited {report['code']}: {err.strip()[-2000:]}")
+    return seconds, report
 
 
 def main() -> int:

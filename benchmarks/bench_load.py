@@ -136,16 +136,17 @@ def cli_wall(args: list[str], repeats: int = 3) -> float:
 PEAK_SCRIPT = """
 import resource, runpy, sys
 sys.argv = ["massmodel", *sys.argv[1:]]
+code = 0
 try:
     runpy.run_module("massmodel", run_name="__main__")
-except SystemExit:
-    pass
+except SystemExit as done:
+    code = done.code if isinstance(done.code, int) else (0 if done.code is None else 2)
 try:
     with open("/proc/self/status") as status:
         kib = next(int(line.split()[1]) for line in status if line.startswith("VmHWM:"))
 except OSError:
     kib = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-sys.stderr.write(f"{kib} {'numba' in sys.modules}\\n")
+sys.stderr.write(f"{kib} {'numba' in sys.modules} {code}\\n")
 """
 
 
@@ -194,7 +195,9 @@ def child_peak(args: list[str]) -> tuple[float, bool]:
     env = {**os.environ, "PYTHONPATH": str(REPO)}
     done = subprocess.run([sys.executable, "-c", PEAK_SCRIPT, *args], cwd=REPO, env=env, check=True,
                           stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
-    kib, numba = done.stderr.strip().splitlines()[-1].split()
+    kib, numba, code = done.stderr.strip().splitlines()[-1].split()
+    if code != "0":  # a report that stopped early would show a small peak: not the peak of the work measured
+        raise RuntimeError(f"massmodel {' '.join(args)} exited {code}: {done.stderr.strip()[-2000:]}")
     return int(kib) / 1024.0, numba == "True"
 
 

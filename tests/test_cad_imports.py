@@ -2,7 +2,7 @@
 
 `size-block` without STEP/STL outputs checks the fit in closed form (massmodel.cad.boxfit) and needs neither cadquery
 nor OCP; the commands that build or check solids use OCP directly and never import cadquery (which brings VTK and
-more along). `export` is the exception for now: its STEP writer still goes through cadquery's assembly.
+more along), `export` included (its STEP writer builds the XCAF document with OCP).
 """
 
 from __future__ import annotations

@@ -103,6 +103,19 @@ def test_size_block_in_a_model_slot(tmp_path, capsys):
     assert data["pieces"][0]["size_m"][:2] == pytest.approx([0.198, 0.238], abs=1e-12)
 
 
+def test_size_block_json_says_how_the_fit_was_checked(tmp_path, capsys):
+    # a drilled, chamfered block square to its box slot is checked in closed form (massmodel.cad.boxfit); the JSON
+    # names the method as the text does
+    code = main(["size-block", str(CAR), "--slot", "floor_front", "--material", "tungsten_b777_class1", "--fill", "+z",
+                 "--increment", "0.5mm", "--target", "10kg", "--holes", "2", "--hole-diameter", "8.5mm",
+                 "--hole-pitch", "120mm", "--chamfer", "0.5mm", "--json", str(tmp_path / "b.json")])
+    assert code == 0
+    text = capsys.readouterr().out
+    fits = json.loads((tmp_path / "b.json").read_text())["fit"]
+    assert [f["method"] for f in fits] == ["closed form"] * len(fits) and fits
+    assert "fit (closed form) piece 1: fits" in text
+
+
 @pytest.mark.parametrize(
     ("extra", "words"),
     [

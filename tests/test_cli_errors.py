@@ -180,3 +180,27 @@ def test_outside_the_command_line_files_read_may_be_written(tmp_path) -> None:
     load_model(path)
     write_text_atomic(path, path.read_text().replace('"m"', '"m2"'))
     assert load_model(path).name == "m2"
+
+
+def test_an_export_never_replaces_a_step_file_the_model_reads(capsys, tmp_path) -> None:
+    # a part's shape read from geometry/tank.step, and an export whose STEP would be that very file: refused before
+    # anything is written, the STEP untouched (its bytes and its modification time)
+    pytest.importorskip("OCP")
+    from massmodel.cad.occ_files import write_step_solids
+    from massmodel.cad.primitives import to_solid
+    from massmodel.core.shapes import Box
+
+    geometry = tmp_path / "geometry"
+    geometry.mkdir()
+    step = geometry / "tank.step"
+    write_step_solids(step, [("tank", to_solid(Box(0.1, 0.05, 0.02)), (0.5, 0.5, 0.5))], "tank")
+    model = tmp_path / "car.toml"
+    model.write_text('[model]\nname = "car"\n[units]\nlength = "mm"\n[[part]]\npath = "body/tank"\nshape = "step"\n'
+                     'file = "geometry/tank.step"\nunit = "mm"\ndensity = "1000 kg/m^3"\nmaturity = "estimated"\n'
+                     'at = [0, 0, 0]\n', encoding="utf-8")
+    before, mtime = step.read_bytes(), step.stat().st_mtime_ns
+    code, _, err = run(capsys, "export", model, "--out", geometry, "--name", "tank", "--formats", "step")
+    assert code == EXIT_USAGE
+    assert "that is an input of this command" in err and "tank.step" in err and len(err.splitlines()) == 1
+    assert step.read_bytes() == before and step.stat().st_mtime_ns == mtime
+    assert sorted(p.name for p in geometry.iterdir()) == ["tank.step"]

@@ -350,6 +350,18 @@ def test_unwritable_output_leaves_nothing_behind(exported, tmp_path):
     assert blocker.read_text() == "keep me" and sorted(tmp_path.iterdir()) == [blocker]
 
 
+def test_a_folder_in_the_way_of_an_output_is_named_before_anything_is_replaced(exported, tmp_path):
+    # the STL's name is taken by a folder: the export stops before writing (naming that file, not a temporary one),
+    # so the STEP of the same set is not replaced alone and no temporary file is left
+    model, _, _ = exported
+    (tmp_path / "car.stl").mkdir()
+    (tmp_path / "car.step").write_text("the previous export")
+    with pytest.raises(ExportError, match=r"car\.stl': a folder of that name is in the way"):
+        export_model(model, tmp_path, ExportOptions(), stem="car")
+    assert (tmp_path / "car.step").read_text() == "the previous export"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["car.step", "car.stl"]
+
+
 @pytest.mark.skipif(os.geteuid() == 0, reason="root writes into read-only folders")
 def test_read_only_folder(exported, tmp_path):
     model, _, _ = exported
@@ -486,6 +498,37 @@ def test_leftovers_of_a_running_export_are_kept(tmp_path):
         p.write_text("x")
     assert clean_partial_files(tmp_path) == [dead]
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted([mine.name, other.name])
+
+
+@pytest.mark.parametrize("fmt, words", [(Format.STL, "triangles, which a binary STL cannot count"),
+                                         (Format.GLB, "more than a GLB file can hold")])
+def test_an_export_too_large_for_its_format_stops_with_one_line(exported, tmp_path, monkeypatch, fmt, words):
+    # A binary STL states its triangle count and a GLB its length in uint32 fields (3D Systems' STL specification;
+    # Khronos glTF 2.0 §4.4): past 2^32 - 1 the export stops with an ExportError (one line, exit 2) instead of a
+    # struct.error traceback at the end. The limit is lowered here so that a small model reaches it.
+    import massmodel.cad.mesh_writers as mw
+
+    model, _, _ = exported
+    monkeypatch.setattr(mw, "UINT32_MAX", 100)
+    with pytest.raises(ExportError, match=words):
+        export_model(model, tmp_path, ExportOptions(formats=frozenset({fmt})))
+    assert list(tmp_path.iterdir()) == []  # nothing written, no temporary file left
+
+
+def test_only_the_exports_own_folders_are_cleaned(tmp_path):
+    # An output folder may hold a whole tree of other files (--out ~): the clean-up looks in the folder itself and in
+    # the export's own <stem>_parts tree, and does not walk (nor touch) anything else below the folder.
+    from massmodel.cad.export import PARTIAL_PREFIX, clean_partial_files
+
+    name = f"{PARTIAL_PREFIX}999999999.car.abc.tmp.stl"  # a dead process's (pid above any the kernel hands out)
+    top, part = tmp_path / name, tmp_path / "car_parts" / "body" / name
+    unrelated = tmp_path / "photos" / "2026" / name
+    for p in (top, part, unrelated):
+        p.parent.mkdir(parents=True, exist_ok=True)
+        p.write_text("x")
+    assert sorted(clean_partial_files(tmp_path, [tmp_path / "car_parts"])) == sorted([top, part])
+    assert unrelated.exists()
+    assert clean_partial_files(tmp_path / "missing", [tmp_path / "missing_parts"]) == []
 
 
 def test_an_exported_ellipsoid_keeps_its_volume(tmp_path):

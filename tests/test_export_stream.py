@@ -172,6 +172,20 @@ def test_step_reals_and_strings():
     assert _string("Zürich") == "'Z\\X2\\00FC\\X0\\rich'"
 
 
+def test_the_step_file_is_ascii_with_names_beyond_it_encoded(tmp_path):
+    # ISO 10303-21 §6.4.3.3: characters beyond ASCII in any string, the header's included (the file name, the
+    # description naming the model), are written as \X2\ hex; a quote is doubled. The file's bytes are all ASCII.
+    model = loads_model('[model]\nname = "Crew\'s Zürich car"\n[[part]]\npath = "a/b"\nshape = "box"\n'
+                        'size = ["1 cm", "2 cm", "3 cm"]\nmaterial = "lead"\nmaturity = "measured"\n', label="z.toml")
+    export_model(model, tmp_path, ExportOptions(formats=frozenset({Format.STEP})), stem="zürich")
+    data = (tmp_path / "zürich.step").read_bytes()
+    assert data.isascii()
+    text = data.decode("ascii")
+    assert "FILE_NAME('z\\X2\\00FC\\X0\\rich.step'" in text
+    assert "massmodel export of ''Crew''s Z\\X2\\00FC\\X0\\rich car''" in text.replace("\n", "")
+    assert next(iter(step_tree(tmp_path / "zürich.step")))[0] == "Crew's Zürich car"
+
+
 def test_export_does_not_import_cadquery(tmp_path):
     # the export itself uses OCP and trimesh only; what it imports in a fresh interpreter shows it
     car = tmp_path / "car.toml"

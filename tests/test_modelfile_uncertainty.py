@@ -159,6 +159,23 @@ def test_how_sure_prints_writes_json_and_plot(capsys, car: Path, tmp_path: Path)
     assert im.size[0] > 800 and arr.std() > 5  # an image, not a blank page
 
 
+def test_how_sure_records_the_sampler_so_a_seed_reproduces_its_numbers(capsys, car: Path, tmp_path: Path) -> None:
+    # The same seed gives other samples from the other sampler ("auto" picks one by size and by what the process has
+    # loaded): the JSON and the text name the sampler of each case, and that sampler with that seed gives the
+    # reported Monte Carlo mean again, exactly (the samples depend on the seed, the sampler and the sample index only).
+    from massmodel.modelfile.loader import load_model
+    from massmodel.uncertainty import monte_carlo
+
+    js = tmp_path / "h.json"
+    code, out, _ = _run(capsys, "how-sure", car, "--samples", "3000", "--seed", "7", "--json", js)
+    assert code == 0
+    case = json.loads(js.read_text())["cases"]["base"]
+    assert case["mc_sampler"] in ("numpy", "numba")
+    assert f"Monte Carlo sampler {case['mc_sampler']}" in out
+    again = monte_carlo(load_model(car), 3000, seed=7, kernel=case["mc_sampler"])
+    assert again.mean("mass") == case["quantities"]["mass"]["mc_mean"]
+
+
 def test_how_sure_strict_fails_when_a_rule_is_not_sure(capsys, tmp_path: Path) -> None:
     p = tmp_path / "tight.toml"
     # min mass at 165.5 kg: the nominal 166 kg passes, but u ≈ 2 kg leaves it far from 95 % sure

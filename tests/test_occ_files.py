@@ -59,3 +59,24 @@ def test_stl_of_several_solids_is_watertight_in_mm(tmp_path):
     box_mm3, rod_mm3 = 100 * 50 * 20, math.pi * 10**2 * 80
     assert mesh.volume == pytest.approx(box_mm3 + rod_mm3, rel=1e-4)  # flat faces exact, the rod within 0.01 mm
     assert np.allclose(mesh.bounds, [[-10.0, -25.0, -40.0], [250.0, 110.0, 40.0]], atol=1e-6)
+
+
+def test_the_step_writer_prints_nothing(tmp_path):
+    # OpenCascade's writer prints a statistics banner (with the temporary file's name) on the process's stdout unless
+    # something silenced its messenger (importing cadquery does: hence a fresh interpreter without it); the commands
+    # that write a block's STEP show their own lines only
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    code = ("import sys; from massmodel.cad.occ_files import write_step_solids; "
+            "from massmodel.cad.primitives import to_solid; from massmodel.core.shapes import Box; "
+            "write_step_solids(sys.argv[1], [('b', to_solid(Box(0.1, 0.05, 0.02)), (0.5, 0.5, 0.5))], 'ballast'); "
+            "print('cadquery' in sys.modules)")
+    out = tmp_path / "blocks.step"
+    env = {**os.environ, "PYTHONPATH": str(Path(__file__).resolve().parents[1])}
+    run = subprocess.run([sys.executable, "-c", code, str(out)], capture_output=True, text=True, env=env, timeout=300)
+    assert run.returncode == 0, run.stderr[-2000:]
+    assert (run.stdout, run.stderr) == ("False\n", "")
+    assert out.stat().st_size > 0

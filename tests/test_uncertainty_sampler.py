@@ -232,3 +232,20 @@ def test_auto_keeps_numpy_for_the_demo_size_in_a_fresh_process() -> None:
     run = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, timeout=120)
     assert run.returncode == 0, run.stderr
     assert run.stdout.split() == ["numpy", "False", "numba"]
+
+
+def test_a_broken_sampler_module_is_not_taken_for_a_missing_numba(monkeypatch: pytest.MonkeyPatch) -> None:
+    # numba is installed here (the module is skipped otherwise): an ImportError raised by massmodel's own sampler
+    # module is a bug of the package and must surface as such, not as the user-facing "numba is not importable"
+    import massmodel.uncertainty as package
+
+    monkeypatch.delattr(package, "sampler", raising=False)
+    monkeypatch.setitem(sys.modules, "massmodel.uncertainty.sampler", None)  # importing it now raises ImportError
+    montecarlo._sampler.cache_clear()
+    try:
+        with pytest.raises(ImportError) as raised:
+            montecarlo.kernel_for(10, "numba")
+        assert not isinstance(raised.value, UsageError)
+        assert raised.value.name == "massmodel.uncertainty.sampler"
+    finally:
+        montecarlo._sampler.cache_clear()

@@ -546,13 +546,13 @@ class BlockGeometry:
         from OCP.BRepPrimAPI import BRepPrimAPI_MakeBox, BRepPrimAPI_MakeCylinder
         from OCP.gp import gp_Ax2, gp_Dir, gp_Pnt
 
-        from massmodel.cad.primitives import cut_shape
+        from massmodel.cad.primitives import chamfer_edges, cut_shape
 
         a, b, c = (s * 1e3 for s in self.size)
         solid: Any = BRepPrimAPI_MakeBox(gp_Ax2(gp_Pnt(-a / 2.0, -b / 2.0, -c / 2.0), gp_Dir(0.0, 0.0, 1.0)),
                                          a, b, c).Shape()
         if self.chamfer:
-            solid = _chamfered(solid, self.chamfer.size * 1e3, [AXES.index(e) for e in self.chamfer.edges])
+            solid = chamfer_edges(solid, self.chamfer.size * 1e3, [AXES.index(e) for e in self.chamfer.edges])
         h = self.holes
         if h is None:
             return solid
@@ -583,28 +583,3 @@ class BlockGeometry:
         if self.holes:
             text += f"; holes {self.holes.describe()}"
         return text
-
-
-def _chamfered(box: Any, size_mm: float, axes: Sequence[int]) -> Any:
-    """The box (mm) with a 45° chamfer of legs ``size_mm`` on every straight edge parallel to one of ``axes``."""
-    from OCP.BRep import BRep_Tool
-    from OCP.BRepFilletAPI import BRepFilletAPI_MakeChamfer
-    from OCP.TopAbs import TopAbs_EDGE, TopAbs_FACE
-    from OCP.TopExp import TopExp
-    from OCP.TopoDS import TopoDS
-    from OCP.TopTools import TopTools_IndexedDataMapOfShapeListOfShape
-
-    faces_of = TopTools_IndexedDataMapOfShapeListOfShape()
-    TopExp.MapShapesAndAncestors_s(box, TopAbs_EDGE, TopAbs_FACE, faces_of)
-    builder = BRepFilletAPI_MakeChamfer(box)
-    for n in range(1, faces_of.Extent() + 1):
-        edge = TopoDS.Edge_s(faces_of.FindKey(n))
-        ends = [BRep_Tool.Pnt_s(v) for v in (TopExp.FirstVertex_s(edge), TopExp.LastVertex_s(edge))]
-        d = np.array([ends[1].X() - ends[0].X(), ends[1].Y() - ends[0].Y(), ends[1].Z() - ends[0].Z()])
-        along = int(np.argmax(np.abs(d)))
-        if along in axes and np.all(np.abs(np.delete(d, along)) <= 1e-9 * abs(d[along])):
-            builder.Add(size_mm, size_mm, edge, TopoDS.Face_s(faces_of.FindFromIndex(n).First()))
-    builder.Build()
-    if not builder.IsDone():
-        raise RuntimeError("the OpenCascade chamfer of the block failed")
-    return builder.Shape()

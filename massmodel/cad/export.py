@@ -220,7 +220,7 @@ def export_model(
         raise UsageError(f"selection of model '{model.name}' holds no solid to export "
                          f"({len(left_out)} point masses or open meshes)")
 
-    clean_partial_files(out)  # what an export killed part-way left here
+    clean_partial_files(out, [out / f"{stem}_parts"])  # what an export killed part-way left here
     stage = _Stage()
     files: dict[str, Any] = {}
     writers = _Writers()

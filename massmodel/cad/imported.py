@@ -31,6 +31,7 @@ from typing import Any
 from massmodel.cad.fileshape import MESH_SUFFIXES, STEP_SUFFIXES, GeometryFileError
 from massmodel.cad.mesh_shape import MeshShape, load_mesh
 from massmodel.cad.step_shape import StepShape, load_step
+from massmodel.core.atomic import note_input
 
 __all__ = [
     "GeometryFileError",
@@ -49,9 +50,14 @@ _cache: dict[tuple[Any, ...], Any] = {}
 
 
 def load_geometry(kind: str, path: Path, unit: str, metres_per_unit: float) -> StepShape | MeshShape:
-    """Read a geometry file of ``kind`` ('step' or 'mesh'), reusing an earlier read of the same unchanged file."""
+    """Read a geometry file of ``kind`` ('step' or 'mesh'), reusing an earlier read of the same unchanged file.
+
+    The file is noted as an input of the running command (:func:`massmodel.core.atomic.note_input`), also when the
+    earlier read is reused, so that no output of the command (an export, a ballast block's STEP) replaces it.
+    """
     if kind == "step" and path.suffix.lower() not in STEP_SUFFIXES:
         raise GeometryFileError(f"'{path}': a STEP file must end in {' or '.join(STEP_SUFFIXES)}", "file", kind)
+    note_input(path)
     try:
         st = path.stat()
         key: tuple[Any, ...] = (kind, str(path.resolve()), st.st_mtime_ns, st.st_size, unit, metres_per_unit)

@@ -29,6 +29,9 @@ _BIN_CHUNK = 0x004E4942  # "BIN\0"
 _UINT32 = 5125  # glTF componentType codes (Khronos glTF 2.0 §5.1.2)
 _FLOAT = 5126
 _TRIANGLES = 4
+#: Largest count a binary STL (triangles) or a GLB (bytes of the file) can state: both are uint32 fields (the STL
+#: header's triangle count; the GLB header's length, Khronos glTF 2.0 §4.4).
+UINT32_MAX = 2**32 - 1
 
 
 def _open(path: Path) -> IO[bytes]:
@@ -65,6 +68,9 @@ class StlStream:
 
     def add(self, vertices: np.ndarray, faces: np.ndarray) -> None:
         """Append the triangles ``vertices[faces]``."""
+        if self.count + len(faces) > UINT32_MAX:
+            raise ExportError(f"'{self.path}': more than {UINT32_MAX} triangles, which a binary STL cannot count; "
+                              "export fewer parts or a coarser chord tolerance")
         _write(self._file, stl_records(vertices, faces), self.path)
         self.count += len(faces)
 
@@ -128,6 +134,9 @@ class GlbStream:
         digest = hashlib.blake2b(data, digest_size=20).digest()
         index = self._view_of.get(digest)
         if index is None:
+            if self._size + len(data) > UINT32_MAX - (1 << 26):  # the JSON chunk (tens of MB at most) comes on top
+                raise ExportError(f"'{self.path}': the mesh data passes 4 GiB, more than a GLB file can hold (glTF 2.0 "
+                                  "§4.4); export fewer parts or a coarser chord tolerance")
             index = len(self._views)
             self._views.append({"buffer": 0, "byteOffset": self._size, "byteLength": len(data)})
             _write(self._spool, data, self.path)
@@ -211,6 +220,9 @@ class GlbStream:
         text = json.dumps(doc, separators=(",", ":")).encode("utf-8")
         text += b" " * (-len(text) % 4)
         total = 12 + 8 + len(text) + 8 + self._size
+        if total > UINT32_MAX:
+            raise ExportError(f"'{self.path}': {total} bytes, more than a GLB file can hold (glTF 2.0 §4.4); export "
+                              "fewer parts or a coarser chord tolerance")
         with _open(self.path) as out:
             _write(out, struct.pack("<4sII", b"glTF", 2, total) + struct.pack("<II", len(text), _JSON_CHUNK) + text
                    + struct.pack("<II", self._size, _BIN_CHUNK), self.path)

@@ -97,10 +97,14 @@ def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_n
         name(shapes.AddComponent(top, part, TopLoc_Location()), text)
     shapes.UpdateAssemblies()
 
+    from .fileshape import _native_output
+
     writer = step_writer()
-    writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
-    if writer.Write(str(path)) != IFSelect_ReturnStatus.IFSelect_RetDone:
-        raise RuntimeError(f"the OpenCascade STEP writer failed for '{path}'")
+    with _native_output() as said:  # the writer's statistics banner (and the temporary file's name) stay off the terminal
+        writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
+        status = writer.Write(str(path))
+    if status != IFSelect_ReturnStatus.IFSelect_RetDone:
+        raise RuntimeError(f"the OpenCascade STEP writer failed for '{path}' ({said[0] if said else status.name})")
 
 
 def write_stl_solids(path: str | Path, shapes: Sequence[Any], chord_mm: float, angle_rad: float) -> None:

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import functools
 import math
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -37,7 +38,7 @@ from massmodel.core.shapes import (
     Tube,
 )
 
-__all__ = ["MM_PER_M", "cut_shape", "make_trimesh", "solids_of", "to_mesh", "to_solid"]
+__all__ = ["MM_PER_M", "chamfer_edges", "cut_shape", "make_trimesh", "solids_of", "to_mesh", "to_solid"]
 
 #: CAD solids are built in millimetres.
 MM_PER_M = 1000.0
@@ -118,6 +119,38 @@ def cut_shape(shape: Any, tool: Any) -> Any:
     if not op.IsDone():
         raise RuntimeError("the OpenCascade boolean (cut) failed")
     return op.Shape()
+
+
+def chamfer_edges(shape: Any, size_mm: float, axes: Sequence[int]) -> Any:
+    """The shape (mm; a box, or any solid with straight edges) with a 45° chamfer of legs ``size_mm`` on every
+    straight edge parallel to one of the coordinate ``axes`` (0, 1, 2), OpenCascade's ``BRepFilletAPI_MakeChamfer``.
+
+    Raises
+    ------
+    RuntimeError
+        The chamfer failed (its result must not pass for the solid).
+    """
+    from OCP.BRep import BRep_Tool
+    from OCP.BRepFilletAPI import BRepFilletAPI_MakeChamfer
+    from OCP.TopAbs import TopAbs_EDGE, TopAbs_FACE
+    from OCP.TopExp import TopExp
+    from OCP.TopoDS import TopoDS
+    from OCP.TopTools import TopTools_IndexedDataMapOfShapeListOfShape
+
+    faces_of = TopTools_IndexedDataMapOfShapeListOfShape()
+    TopExp.MapShapesAndAncestors_s(shape, TopAbs_EDGE, TopAbs_FACE, faces_of)
+    builder = BRepFilletAPI_MakeChamfer(shape)
+    for n in range(1, faces_of.Extent() + 1):
+        edge = TopoDS.Edge_s(faces_of.FindKey(n))
+        ends = [BRep_Tool.Pnt_s(v) for v in (TopExp.FirstVertex_s(edge), TopExp.LastVertex_s(edge))]
+        d = np.array([ends[1].X() - ends[0].X(), ends[1].Y() - ends[0].Y(), ends[1].Z() - ends[0].Z()])
+        along = int(np.argmax(np.abs(d)))
+        if along in axes and np.all(np.abs(np.delete(d, along)) <= 1e-9 * abs(d[along])):
+            builder.Add(size_mm, size_mm, edge, TopoDS.Face_s(faces_of.FindFromIndex(n).First()))
+    builder.Build()
+    if not builder.IsDone():
+        raise RuntimeError("the OpenCascade chamfer failed")
+    return builder.Shape()
 
 
 def solids_of(shape: Any) -> list[Any]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import os
 import tempfile
+from collections.abc import Sequence
 from pathlib import Path
 
 from massmodel.core.atomic import check_not_input, current_umask
@@ -22,16 +23,20 @@ __all__ = ["PARTIAL_PREFIX", "Stage", "clean_partial_files", "verify_export"]
 PARTIAL_PREFIX = ".massmodel-partial-"  # temporary files of an export: PARTIAL_PREFIX + "<pid>." + name + ...
 
 
-def clean_partial_files(folder: Path) -> list[Path]:
-    """Remove the temporary files an export killed part-way left in ``folder`` (and its sub-folders).
+def clean_partial_files(folder: Path, trees: Sequence[Path] = ()) -> list[Path]:
+    """Remove the temporary files an export killed part-way left in ``folder`` and anywhere under ``trees``.
 
     They are named ``.massmodel-partial-<pid>.<name>.<random>.tmp<suffix>``; those of a process still running (an
-    export under way) are kept.
+    export under way) are kept. Only ``folder`` itself is searched, not its sub-folders: an export's files go into its
+    folder and into folders of its own (the per-part STL files' ``<stem>_parts``, given as ``trees``), and an output
+    folder may hold a whole tree of other files (``--out ~``), which must not be walked.
     """
     removed: list[Path] = []
-    if not folder.is_dir():
-        return removed
-    for path in folder.rglob(PARTIAL_PREFIX + "*"):
+    found = [p for p in folder.glob(PARTIAL_PREFIX + "*") if p.is_file()] if folder.is_dir() else []
+    for tree in trees:
+        if tree.is_dir():
+            found.extend(tree.rglob(PARTIAL_PREFIX + "*"))
+    for path in found:
         pid_text = path.name[len(PARTIAL_PREFIX):].split(".", 1)[0]
         if not pid_text.isdigit() or (int(pid_text) != os.getpid() and _running(int(pid_text))):
             continue
@@ -99,6 +104,8 @@ class Stage:
 
     def temp_for(self, target: Path) -> Path:
         check_not_input(target)
+        if target.is_dir():  # found now, before anything is written or renamed (the rename would fail at the end)
+            raise ExportError(f"cannot write '{target}': a folder of that name is in the way")
         folder = target.parent
         missing = []
         probe = folder
@@ -121,8 +128,11 @@ class Stage:
     def scratch_for(self, target: Path, what: str) -> Path:
         """A scratch file beside ``target`` (named like the staged files, so a killed export's is cleaned up too),
         removed by :meth:`abort` and :meth:`commit` if still there."""
-        fd, tmp = tempfile.mkstemp(prefix=f"{PARTIAL_PREFIX}{os.getpid()}.{target.stem}.{what}.", suffix=".tmp",
-                                   dir=target.parent)
+        try:
+            fd, tmp = tempfile.mkstemp(prefix=f"{PARTIAL_PREFIX}{os.getpid()}.{target.stem}.{what}.", suffix=".tmp",
+                                       dir=target.parent)
+        except OSError as exc:
+            raise ExportError(f"cannot write to the folder '{target.parent}': {exc.strerror or exc}") from None
         os.close(fd)
         self.scratch.append(Path(tmp))
         return Path(tmp)

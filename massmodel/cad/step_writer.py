@@ -68,13 +68,19 @@ def _real(x: float) -> str:
     return mantissa + (f"E{exponent}" if exponent else "")
 
 
-def _string(text: str) -> str:
-    """A STEP string: quotes doubled; characters beyond ASCII as \\X2\\ hex (ISO 10303-21 §6.4.3.3)."""
+def _encoded(text: str) -> str:
+    """The inside of a STEP string but for its quotes: backslashes doubled, characters beyond ASCII as \\X2\\ (or
+    \\X4\\) hex (ISO 10303-21 §6.4.3.3). OpenCascade writes header strings as given, doubling only the quotes."""
     out = []
-    for ch in text.replace("'", "''").replace("\\", "\\\\"):
+    for ch in text.replace("\\", "\\\\"):
         out.append(ch if 32 <= ord(ch) < 127 else f"\\X2\\{ord(ch):04X}\\X0\\" if ord(ch) < 0x10000
                    else f"\\X4\\{ord(ch):08X}\\X0\\")
-    return "'" + "".join(out) + "'"
+    return "".join(out)
+
+
+def _string(text: str) -> str:
+    """A STEP string: :func:`_encoded`, quotes doubled, in quotes (ISO 10303-21 §6.4.3)."""
+    return "'" + _encoded(text).replace("'", "''") + "'"
 
 
 @dataclass(frozen=True)
@@ -250,9 +256,9 @@ def _batch_step(batch: list[tuple[str, str, Any]], scratch: Path, file_name: str
         writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
         step_model = writer.ChangeWriter().Model()
         header = APIHeaderSection_MakeHeader(step_model)
-        header.SetName(TCollection_HAsciiString(file_name))
-        header.SetDescriptionValue(1, TCollection_HAsciiString(
-            f"massmodel export of '{model_name}': one solid per component, lengths in mm, model axes"))
+        header.SetName(TCollection_HAsciiString(_encoded(file_name)))  # the file stays ASCII (names beyond it encoded)
+        header.SetDescriptionValue(1, TCollection_HAsciiString(_encoded(
+            f"massmodel export of '{model_name}': one solid per component, lengths in mm, model axes")))
         header.SetOriginatingSystem(TCollection_HAsciiString("massmodel"))
         header.SetAuthorValue(1, TCollection_HAsciiString(""))
         header.SetOrganizationValue(1, TCollection_HAsciiString(""))

@@ -2,7 +2,8 @@
 target (``os.replace``), so a failure never leaves half a file and never destroys an earlier good one.
 
 Inside :func:`inputs_protected` (the command line runs every command in it) the files the readers have read
-(:func:`note_input`: a model, the file it extends, its rulebook, a session's model) cannot be written over: an output
+(:func:`note_input`: a model, the file it extends, its rulebook, the STEP and mesh files of its
+shapes, a session's model) cannot be written over: an output
 named like one of them is refused with a :class:`~massmodel.core.errors.UsageError`.
 """
 

@@ -29,8 +29,6 @@ References
 from __future__ import annotations
 
 import functools
-import importlib.util
-import sys
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 
@@ -38,6 +36,7 @@ import numpy as np
 import numpy.typing as npt
 
 from .closed_forms import FORMS, KIND_IDS, sums_to_properties
+from .compiled import auto_kernel, import_compiled
 from .errors import UserError
 from .massprops import MassProperties, combine_arrays
 from .shapes import SHAPE_KINDS
@@ -374,9 +373,8 @@ def kernel_for(n: int, kernel: str = "auto") -> str:
     if kernel not in KERNELS:
         raise BatchError(f"kernel must be one of {', '.join(KERNELS)}, got {kernel!r}")
     if kernel == "auto":
-        loaded = "massmodel.core.kernels" in sys.modules
-        wanted = n >= NUMBA_MIN_PARTS if loaded else n >= NUMBA_LOAD_PARTS
-        return "numba" if wanted and _numba_kernel() is not None else "numpy"
+        return auto_kernel(n, "massmodel.core.kernels", NUMBA_LOAD_PARTS, NUMBA_MIN_PARTS,
+                           lambda: _numba_kernel() is not None)
     if kernel == "numba" and _numba_kernel() is None:
         raise BatchError("kernel 'numba' asked for, but numba is not importable here; use kernel='numpy'")
     return kernel
@@ -386,14 +384,9 @@ def kernel_for(n: int, kernel: str = "auto") -> str:
 def _numba_kernel() -> Callable[..., tuple[FloatArray, int]] | None:
     """The compiled :func:`massmodel.core.closed_forms.placed_sums_loop` (:data:`massmodel.core.kernels.placed_sums`),
     imported on first use;
-    None when numba is not installed or does not import."""
-    if importlib.util.find_spec("numba") is None:
-        return None
-    try:
-        from . import kernels
-    except ImportError:  # pragma: no cover - a broken numba/llvmlite install: the numpy path still works
-        return None
-    return kernels.placed_sums  # type: ignore[no-any-return]
+    None when numba is not installed or does not import (:func:`massmodel.core.compiled.import_compiled`)."""
+    kernels = import_compiled("massmodel.core.kernels")
+    return None if kernels is None else kernels.placed_sums  # type: ignore[no-any-return]
 
 
 def _compiled_block(fn: Callable[..., tuple[FloatArray, int]], kind_id: int, start: int, dims: FloatArray,

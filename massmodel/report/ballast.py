@@ -104,7 +104,7 @@ def sizing_dict(sizing: BlockSizing, fits: Sequence[Any] = (), extra: Mapping[st
         "heaviest_block_kg": {"nominal": cap[0], "min": cap[1], "max": cap[2]},
         "needed_fill_length_m": sizing.needed_fill_length,
         "fit": [{"fits": bool(f.fits), "clearance_m": f.clearance, "required_clearance_m": f.required_clearance,
-                 "outside_volume_m3": f.outside_volume, "reason": f.reason} for f in fits],
+                 "outside_volume_m3": f.outside_volume, "reason": f.reason, "method": f.method} for f in fits],
         "cautions": cautions.for_report("ballast", "machining", "handling"),
     }
     if extra:

@@ -145,7 +145,9 @@ def how_sure_data(models: Mapping[str, Model], samples: int = 20000, seed: int |
     ----------
     models : mapping of case name to Model
         The base and the load cases (:func:`massmodel.modelfile.loader.load_case_models`).
-    samples, seed : Monte Carlo size and seed (numpy Generator).
+    samples, seed : Monte Carlo size and seed (``numpy.random.SeedSequence``). The samples a seed gives depend on
+        the sampler that drew them (:func:`massmodel.uncertainty.montecarlo.kernel_for`), recorded per case as
+        ``mc_sampler``.
     confidence : one-sided confidence of the rule verdicts.
     """
     cases: dict[str, Any] = {}
@@ -166,7 +168,8 @@ def how_sure_data(models: Mapping[str, Model], samples: int = 20000, seed: int |
                 "mc_standard_error_of_mean": mc.standard_error(key),
                 "mc_interval_95": [mc.quantile(key, 0.025), mc.quantile(key, 0.975)],
             }
-        cases[name] = {"parts": len(model.components), "density_groups": list(inp.density_keys),
+        cases[name] = {"parts": len(model.components), "mc_sampler": mc.kernel,
+                       "density_groups": list(inp.density_keys),
                        "declared_in_model": declares_uncertainty(model), "quantities": quantities,
                        "growth": growth_summary(model, inp)}
         rules.extend(_rule_dict(r) for r in rule_confidence(model, confidence, mc, inp))
@@ -189,8 +192,8 @@ def format_how_sure(data: Mapping[str, Any], units: DisplayUnits = DisplayUnits.
            f"RSS: {data['rss_method']}",
            f"MC:  {data['mc_method']}; {data['samples']} samples, seed {data['seed']}"]
     for case, c in data["cases"].items():
-        out += ["", f"CASE {case} · {c['parts']} parts · shared density errors: "
-                    f"{', '.join(c['density_groups']) or 'none'}"
+        out += ["", f"CASE {case} · {c['parts']} parts · Monte Carlo sampler {c['mc_sampler']} · shared density "
+                    f"errors: {', '.join(c['density_groups']) or 'none'}"
                     f"{'' if c['declared_in_model'] else ' · no [uncertainty] in the file: defaults by maturity'}"]
         rows = []
         for q in c["quantities"].values():

@@ -24,8 +24,6 @@ its middle moves the mean.
 from __future__ import annotations
 
 import functools
-import importlib.util
-import sys
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType, ModuleType
@@ -33,6 +31,7 @@ from types import MappingProxyType, ModuleType
 import numpy as np
 import numpy.typing as npt
 
+from massmodel.core.compiled import auto_kernel, import_compiled
 from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 
@@ -181,9 +180,8 @@ def kernel_for(elements: int, kernel: str = "auto") -> str:
     if kernel not in KERNELS:
         raise UsageError(f"Monte Carlo kernel must be one of {', '.join(KERNELS)}, got {kernel!r}")
     if kernel == "auto":
-        loaded = "massmodel.uncertainty.sampler" in sys.modules
-        wanted = elements >= NUMBA_MIN_ELEMENTS if loaded else elements >= NUMBA_LOAD_ELEMENTS
-        return "numba" if wanted and _sampler() is not None else "numpy"
+        return auto_kernel(elements, "massmodel.uncertainty.sampler", NUMBA_LOAD_ELEMENTS, NUMBA_MIN_ELEMENTS,
+                           lambda: _sampler() is not None)
     if kernel == "numba" and _sampler() is None:
         raise UsageError("Monte Carlo kernel 'numba' asked for, but numba is not importable here; use 'numpy'")
     return kernel
@@ -192,14 +190,8 @@ def kernel_for(elements: int, kernel: str = "auto") -> str:
 @functools.cache
 def _sampler() -> ModuleType | None:
     """:mod:`massmodel.uncertainty.sampler`, imported on first use; None when numba is not installed or does not
-    import."""
-    if importlib.util.find_spec("numba") is None:
-        return None
-    try:
-        from . import sampler
-    except ImportError:  # pragma: no cover - a broken numba/llvmlite install: the numpy path still works
-        return None
-    return sampler
+    import (:func:`massmodel.core.compiled.import_compiled`: an import error inside massmodel itself is raised)."""
+    return import_compiled("massmodel.uncertainty.sampler")
 
 
 def _compiled_sums(inp: UncertaintyInputs, r: FloatArray, masks: FloatArray, samples: int,
