@@ -31,7 +31,7 @@ from types import MappingProxyType, ModuleType
 import numpy as np
 import numpy.typing as npt
 
-from massmodel.core.compiled import auto_kernel, import_compiled
+from massmodel.core.compiled import import_compiled
 from massmodel.core.errors import UsageError
 from massmodel.core.model import Model
 
@@ -51,9 +51,9 @@ KERNELS = ("auto", "numpy", "numba")
 #: "auto" loads the compiled sampler for at least this many samples × parts: importing numba and loading the cached
 #: machine code costs about 0.5–1 s once per process (compiling it, the first time on a machine, about 7 s); numpy
 #: takes 50–75 ns per sample and part, the compiled sampler under 4 ns (benchmarks/bench_uncertainty.py).
+#: The choice depends on the size alone, never on what the process has loaded before: the two samplers draw
+#: different (equally valid) numbers from one seed, and a seed must give the same numbers in every run of a command.
 NUMBA_LOAD_ELEMENTS = 20_000_000
-#: Once the compiled sampler is loaded in the process, "auto" uses it from this many samples × parts.
-NUMBA_MIN_ELEMENTS = 100_000
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -174,14 +174,15 @@ def monte_carlo(
 
 def kernel_for(elements: int, kernel: str = "auto") -> str:
     """The sampler used for ``elements`` = samples × parts: ``kernel`` itself, or for "auto" "numba" when numba is
-    importable and either the compiled sampler is already loaded in this process and ``elements`` ≥
-    :data:`NUMBA_MIN_ELEMENTS`, or ``elements`` ≥ :data:`NUMBA_LOAD_ELEMENTS` (enough to repay loading it); else
-    "numpy"."""
+    importable and ``elements`` ≥ :data:`NUMBA_LOAD_ELEMENTS` (enough to repay loading it), else "numpy".
+
+    The rule looks at the size only (unlike the roll-up kernel's, whose two paths agree to 1e-12): the samplers
+    draw different numbers from one seed, so a choice by process history would make a seed's result depend on what
+    ran before it in the same process (``how-sure --all-cases`` beside ``--case``)."""
     if kernel not in KERNELS:
         raise UsageError(f"Monte Carlo kernel must be one of {', '.join(KERNELS)}, got {kernel!r}")
     if kernel == "auto":
-        return auto_kernel(elements, "massmodel.uncertainty.sampler", NUMBA_LOAD_ELEMENTS, NUMBA_MIN_ELEMENTS,
-                           lambda: _sampler() is not None)
+        return "numba" if elements >= NUMBA_LOAD_ELEMENTS and _sampler() is not None else "numpy"
     if kernel == "numba" and _sampler() is None:
         raise UsageError("Monte Carlo kernel 'numba' asked for, but numba is not importable here; use 'numpy'")
     return kernel
