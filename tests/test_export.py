@@ -225,13 +225,13 @@ def test_sidecar_states_what_it_covers(exported):
     sc = json.loads((out / "round-trip-1.massprops.json").read_text())
     assert sc == result.sidecar
     report = build_report(model)
-    assert sc["format"] == "massmodel-export/1" and sc["left_out"] == []
+    assert sc["format"] == "massmodel-export/2" and sc["left_out"] == []
     assert sc["covers"]["components"] == len(model.components) == len(sc["components"])
     assert_close(sc["mass_kg"], report["mass_kg"], 1e-12)
     assert_close(sc["cg_m"], report["cg_m"], 1e-12)
     assert_close(sc["inertia_cg_kg_m2"], report["inertia_cg_kg_m2"], 1e-12)
     diff = sc["geometry_check"]["relative_difference"]
-    assert diff["mass"] < 1e-9 and diff["cg_m"] < 1e-9 and diff["inertia"] < 1e-9
+    assert diff["mass"] < 1e-9 and sc["geometry_check"]["cg_difference_m"] < 1e-9 and diff["inertia"] < 1e-9
     assert "negative" in sc["conventions"]["inertia"] and "mm" in sc["conventions"]["units"]
     row = {r["path"]: r for r in sc["components"]}["body/pod"]
     assert_close(row["density_kg_m3"], 1.3 / model.component("body/pod").volume, 1e-12)

@@ -78,7 +78,9 @@ __all__ = [
     "gltf_axes",
 ]
 
-EXPORT_FORMAT = "massmodel-export/1"
+#: The sidecar's format; /2: the CG difference of ``geometry_check`` is ``cg_difference_m`` (metres), no longer
+#: filed among the relative differences.
+EXPORT_FORMAT = "massmodel-export/2"
 ProgressFn = Callable[[str, int, int], None]  # (stage, done, total)
 
 
@@ -411,9 +413,9 @@ def _sidecar(
         "model": _props_dict(ref),
         "relative_difference": {
             "mass": abs(geo.mass - ref.mass) / ref.mass if ref.mass else 0.0,
-            "cg_m": float(np.max(np.abs(geo.center - ref.center))),
             "inertia": float(np.max(np.abs(geo.inertia - ref.inertia))) / scale_i,
         },
+        "cg_difference_m": float(np.max(np.abs(geo.center - ref.center))),  # largest coordinate, model frame
         "method": "OpenCascade volume integrals of each exported solid (STEP geometry) times its density_kg_m3",
     }
     axes = gltf_axes(model)

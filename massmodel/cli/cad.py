@@ -112,10 +112,11 @@ def _export(args: argparse.Namespace) -> int:
         lost = sum(item["mass_kg"] for item in sc["left_out"])
         print(f"  left out of the geometry files (no solid): {len(result.left_out)} parts, {lost:.3f} kg: "
               + ", ".join(p for p, _ in result.left_out))
-    diff = sc["geometry_check"]["relative_difference"]
+    check = sc["geometry_check"]
+    diff = check["relative_difference"]
     print(f"  check: mass properties recomputed from the exported solids differ from the model by "
-          f"{diff['mass']:.1e} (mass, relative), {diff['cg_m'] * 1e3:.1e} mm (CG), {diff['inertia']:.1e} (inertia, "
-          "relative)")
+          f"{diff['mass']:.1e} (mass, relative), {check['cg_difference_m'] * 1e3:.1e} mm (CG, largest coordinate), "
+          f"{diff['inertia']:.1e} (inertia, relative)")
     return 0
 
 
