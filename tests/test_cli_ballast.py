@@ -75,6 +75,16 @@ def test_step_and_stl_of_the_blocks_round_trip(placed):
     assert img.shape[0] > 800 and img.std() > 10  # a picture, not a blank page
 
 
+def test_the_blocks_step_header_names_the_file_and_massmodel(placed):
+    # ISO 10303-21 §8.2: FILE_NAME carries the file's name and the originating system; the bytes were written to a
+    # temporary file first, whose name must not be what the header records (nor OpenCascade's default header)
+    out, _ = placed
+    header = (out / "blocks.step").read_text(encoding="ascii").split("ENDSEC;")[0]
+    assert "FILE_NAME('blocks.step'" in header
+    assert "'massmodel'" in header and "massmodel ballast blocks" in header
+    assert "Open CASCADE Shape Model" not in header and ".tmp" not in header
+
+
 def test_size_block_explains_an_unreachable_target(tmp_path, capsys):
     code = main(["size-block", str(CAR), "--plan", str(PLAN), "--slot", "nose_box", "--target", "rules",
                  "--json", str(tmp_path / "nose.json"), "--step", str(tmp_path / "nose.step")])

@@ -162,7 +162,9 @@ def write_step(blocks: Sequence[Block], path: str | Path, name: str = "ballast")
     red, green, blue = (int(BALLAST_COLOUR[i:i + 2], 16) / 255.0 for i in (1, 3, 5))  # sRGB
     solids = [(b.path.replace("/", "."), place_solid(b.piece.geometry.to_solid(), b.piece.pose), (red, green, blue))
               for b in blocks]
-    return write_atomic(path, lambda p: write_step_solids(p, solids, name), suffix=".step")
+    description = f"massmodel ballast blocks '{name}': one solid per block, lengths in mm, model axes"
+    return write_atomic(path, lambda p: write_step_solids(p, solids, name, file_name=Path(path).name,
+                                                          description=description), suffix=".step")
 
 
 def write_stl(blocks: Sequence[Block], path: str | Path, tolerance_mm: float = 0.01) -> Path:

@@ -9,6 +9,7 @@ import contextlib
 import math
 import os
 import re
+import sys
 import tempfile
 from collections.abc import Iterator
 from typing import Any
@@ -42,6 +43,8 @@ def _native_output() -> Iterator[list[str]]:
     """Capture what native code writes to file descriptors 1 and 2 (OpenCascade prints parse errors there); the
     captured text (ANSI colours removed) is appended to the yielded list when the block ends."""
     lines: list[str] = []
+    for stream in (sys.stdout, sys.stderr):  # Python's own buffered text goes out first, not into the sink
+        stream.flush()
     saved = [os.dup(1), os.dup(2)]
     with tempfile.TemporaryFile(mode="w+b") as sink:
         try:

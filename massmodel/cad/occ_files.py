@@ -14,7 +14,8 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-__all__ = ["NamedSolid", "step_writer", "write_step_solids", "write_stl_solids", "xcaf_document"]
+__all__ = ["NamedSolid", "set_step_header", "step_encoded", "step_writer", "write_step_solids", "write_stl_solids",
+           "xcaf_document"]
 
 #: (name, OpenCascade shape in mm, sRGB colour with components in [0, 1])
 NamedSolid = tuple[str, Any, tuple[float, float, float]]
@@ -53,7 +54,37 @@ def step_writer() -> Any:
     return writer
 
 
-def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_name: str) -> None:
+def step_encoded(text: str) -> str:
+    """The inside of a STEP string but for its quotes: backslashes doubled, characters beyond ASCII as \\X2\\ (or
+    \\X4\\) hex (ISO 10303-21 §6.4.3.3). OpenCascade writes header strings as given, doubling only the quotes."""
+    out = []
+    for ch in text.replace("\\", "\\\\"):
+        out.append(ch if 32 <= ord(ch) < 127 else f"\\X2\\{ord(ch):04X}\\X0\\" if ord(ch) < 0x10000
+                   else f"\\X4\\{ord(ch):08X}\\X0\\")
+    return "".join(out)
+
+
+def set_step_header(writer: Any, file_name: str, description: str) -> None:
+    """Fill the header of the file ``writer`` (a :func:`step_writer`, after ``Transfer``) is about to write, as every
+    massmodel STEP file has it: FILE_NAME with the final file name (not the temporary one the bytes go to first),
+    FILE_DESCRIPTION ``description``, originating system "massmodel", author and organisation left empty (ISO
+    10303-21 §8.2: empty strings where unknown). Text beyond ASCII is encoded (:func:`step_encoded`)."""
+    from OCP.APIHeaderSection import APIHeaderSection_MakeHeader
+    from OCP.TCollection import TCollection_HAsciiString
+
+    step_model = writer.ChangeWriter().Model()
+    header = APIHeaderSection_MakeHeader(step_model)
+    header.SetName(TCollection_HAsciiString(step_encoded(file_name)))
+    header.SetDescriptionValue(1, TCollection_HAsciiString(step_encoded(description)))
+    header.SetOriginatingSystem(TCollection_HAsciiString("massmodel"))
+    header.SetAuthorValue(1, TCollection_HAsciiString(""))
+    header.SetOrganizationValue(1, TCollection_HAsciiString(""))
+    header.SetAuthorisation(TCollection_HAsciiString(""))
+    header.Apply(step_model)
+
+
+def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_name: str, *,
+                      file_name: str | None = None, description: str | None = None) -> None:
     """Write solids (mm, model frame) as a flat STEP AP214 assembly named ``assembly_name``.
 
     Parameters
@@ -63,6 +94,11 @@ def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_n
     solids : sequence of (str, TopoDS_Shape, (3,) float)
         Name, shape in mm and sRGB colour of each component.
     assembly_name : str
+    file_name : str, optional
+        The name the header records (default: ``path``'s name; callers writing to a temporary file pass the final
+        one).
+    description : str, optional
+        The header's FILE_DESCRIPTION (default: the assembly's name, solids in mm, model axes).
 
     Raises
     ------
@@ -102,6 +138,8 @@ def write_step_solids(path: str | Path, solids: Sequence[NamedSolid], assembly_n
     writer = step_writer()
     with _native_output() as said:  # the writer's statistics banner (and the temporary file's name) stay off the terminal
         writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
+        set_step_header(writer, file_name or Path(path).name,
+                        description or f"massmodel solids '{assembly_name}': lengths in mm, model axes")
         status = writer.Write(str(path))
     if status != IFSelect_ReturnStatus.IFSelect_RetDone:
         raise RuntimeError(f"the OpenCascade STEP writer failed for '{path}' ({said[0] if said else status.name})")

@@ -40,6 +40,7 @@ from typing import IO, Any
 import numpy as np
 
 from .formats import ExportError, group_tree, rgb
+from .occ_files import step_encoded
 
 __all__ = ["StepStream", "pose_matrix_mm"]
 
@@ -68,19 +69,10 @@ def _real(x: float) -> str:
     return mantissa + (f"E{exponent}" if exponent else "")
 
 
-def _encoded(text: str) -> str:
-    """The inside of a STEP string but for its quotes: backslashes doubled, characters beyond ASCII as \\X2\\ (or
-    \\X4\\) hex (ISO 10303-21 §6.4.3.3). OpenCascade writes header strings as given, doubling only the quotes."""
-    out = []
-    for ch in text.replace("\\", "\\\\"):
-        out.append(ch if 32 <= ord(ch) < 127 else f"\\X2\\{ord(ch):04X}\\X0\\" if ord(ch) < 0x10000
-                   else f"\\X4\\{ord(ch):08X}\\X0\\")
-    return "".join(out)
-
-
 def _string(text: str) -> str:
-    """A STEP string: :func:`_encoded`, quotes doubled, in quotes (ISO 10303-21 §6.4.3)."""
-    return "'" + _encoded(text).replace("'", "''") + "'"
+    """A STEP string: :func:`massmodel.cad.occ_files.step_encoded`, quotes doubled, in quotes (ISO 10303-21
+    §6.4.3)."""
+    return "'" + step_encoded(text).replace("'", "''") + "'"
 
 
 @dataclass(frozen=True)
@@ -227,18 +219,17 @@ def _products(data: str) -> dict[int, tuple[int, int, int]]:
 
 def _batch_step(batch: list[tuple[str, str, Any]], scratch: Path, file_name: str, model_name: str) -> str:
     """The STEP text of named, coloured solids as free parts, written by OpenCascade's XCAF writer."""
-    from OCP.APIHeaderSection import APIHeaderSection_MakeHeader
     from OCP.BRep import BRep_Builder
     from OCP.IFSelect import IFSelect_ReturnStatus
     from OCP.Quantity import Quantity_Color, Quantity_ColorRGBA, Quantity_TOC_sRGB
     from OCP.STEPControl import STEPControl_StepModelType
-    from OCP.TCollection import TCollection_ExtendedString, TCollection_HAsciiString
+    from OCP.TCollection import TCollection_ExtendedString
     from OCP.TDataStd import TDataStd_Name
     from OCP.TopoDS import TopoDS_Compound
     from OCP.XCAFDoc import XCAFDoc_ColorType
 
     from .fileshape import _native_output
-    from .occ_files import step_writer, xcaf_document
+    from .occ_files import set_step_header, step_writer, xcaf_document
 
     doc, shapes, colours = xcaf_document()
     builder = BRep_Builder()
@@ -254,16 +245,8 @@ def _batch_step(batch: list[tuple[str, str, Any]], scratch: Path, file_name: str
     writer = step_writer()
     with _native_output() as said:
         writer.Transfer(doc, STEPControl_StepModelType.STEPControl_AsIs)
-        step_model = writer.ChangeWriter().Model()
-        header = APIHeaderSection_MakeHeader(step_model)
-        header.SetName(TCollection_HAsciiString(_encoded(file_name)))  # the file stays ASCII (names beyond it encoded)
-        header.SetDescriptionValue(1, TCollection_HAsciiString(_encoded(
-            f"massmodel export of '{model_name}': one solid per component, lengths in mm, model axes")))
-        header.SetOriginatingSystem(TCollection_HAsciiString("massmodel"))
-        header.SetAuthorValue(1, TCollection_HAsciiString(""))
-        header.SetOrganizationValue(1, TCollection_HAsciiString(""))
-        header.SetAuthorisation(TCollection_HAsciiString(""))
-        header.Apply(step_model)
+        set_step_header(writer, file_name,
+                        f"massmodel export of '{model_name}': one solid per component, lengths in mm, model axes")
         status = writer.Write(str(scratch))
     if status != IFSelect_ReturnStatus.IFSelect_RetDone:
         raise ExportError(f"the STEP writer failed for '{scratch}' ({said[0] if said else status.name})")
