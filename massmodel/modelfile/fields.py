@@ -200,33 +200,32 @@ class FieldReader(TableReader):
         """``at`` and ``rotate`` of a table (field names in errors start with ``prefix``, e.g. ``cut[0].``)."""
         # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
         at = self.vector(table["at"], "length", item, prefix + "at") if "at" in table else np.zeros(3)
-        linear = np.eye(3)
-        if "rotate" in table:
-            rot = table["rotate"]
-            if not isinstance(rot, dict):
-                raise self.error(item, prefix + "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
-            kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
-            extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
-            if len(kinds) != 1 or extra or "angles" not in rot:
-                raise self.error(
-                    item, "rotate",
-                    "give exactly one of 'extrinsic' or 'intrinsic' (an axis sequence such as \"xyz\") and 'angles'",
-                )
-            axes = rot[kinds[0]]
-            if not isinstance(axes, str) or not AXES_RE.fullmatch(axes):
-                raise self.error(item, f"{prefix}rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
-            angles = rot["angles"]
-            if not isinstance(angles, list) or len(angles) != len(axes):
-                raise self.error(item, prefix + "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
-            values = tuple(self.scalar(a, "angle", item, prefix + "rotate.angles", i) for i, a in enumerate(angles))
-            key = (kinds[0], axes, values)
-            known = self.rotations.get(key)
-            if known is None:  # the same rotation recurs often (read-only, so poses may share it)
-                known = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
-                known.setflags(write=False)
-                self.rotations[key] = known
-            linear = known
-        return Pose._trusted(linear, at)
+        if "rotate" not in table:
+            return Pose._trusted(np.eye(3), at)
+        rot = table["rotate"]
+        if not isinstance(rot, dict):
+            raise self.error(item, prefix + "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
+        kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
+        extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
+        if len(kinds) != 1 or extra or "angles" not in rot:
+            raise self.error(
+                item, "rotate",
+                "give exactly one of 'extrinsic' or 'intrinsic' (an axis sequence such as \"xyz\") and 'angles'",
+            )
+        axes = rot[kinds[0]]
+        if not isinstance(axes, str) or not AXES_RE.fullmatch(axes):
+            raise self.error(item, f"{prefix}rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
+        angles = rot["angles"]
+        if not isinstance(angles, list) or len(angles) != len(axes):
+            raise self.error(item, prefix + "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
+        values = tuple(self.scalar(a, "angle", item, prefix + "rotate.angles", i) for i, a in enumerate(angles))
+        key = (kinds[0], axes, values)
+        known = self.rotations.get(key)
+        if known is None:  # the same rotation recurs often (read-only, so poses may share it)
+            known = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
+            known.setflags(write=False)
+            self.rotations[key] = known
+        return Pose._trusted(known, at)
 
     def shape_kind(self, table: Mapping[str, Any], item: str, prefix: str = "") -> str:
         kind = table.get("shape")
