@@ -63,3 +63,17 @@ def test_reflection_is_a_pose_with_negative_determinant():
 def test_non_orthogonal_matrix_is_refused():
     with pytest.raises(ValueError, match="orthogonal"):
         Pose(np.diag([1.0, 2.0, 1.0]), [0, 0, 0])
+
+
+def test_written_out_product_equals_the_summed_product():
+    # frames._matmul is written out for speed; every entry must be the same left-to-right sum of three products as
+    # the loop form (bit for bit, signed zeros included: a rotation by 0 has entries -0.0)
+    from massmodel.core.frames import _matmul
+
+    rng = np.random.default_rng(3)
+    for k in range(500):
+        a, b = (rng.normal(size=(3, 3)).tolist() for _ in range(2))
+        if k % 2:
+            a[1][2], b[0][1], b[2][0] = -0.0, 0.0, -0.0
+        want = [[a[i][0] * b[0][j] + a[i][1] * b[1][j] + a[i][2] * b[2][j] for j in range(3)] for i in range(3)]
+        assert np.array(_matmul(a, b)).tobytes() == np.array(want).tobytes()

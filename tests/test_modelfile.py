@@ -757,3 +757,30 @@ def test_a_source_read_once_builds_the_same_model_as_loading_the_file_again() ->
     assert source.data == before
     with_fuel = build_model(source, {"fuel_mass": "10 kg"}).mass_properties().mass
     assert with_fuel != build_model(source).mass_properties().mass
+
+
+def test_plain_numbers_read_as_the_expression_evaluator_reads_them():
+    # FieldReader.quantity converts a TOML number in the file's unit without the evaluator; the result (bit for bit)
+    # and every refusal must be what the evaluator path (FieldReader._evaluated, then the magnitude check) gives
+    from massmodel.modelfile.fields import FieldReader
+    from massmodel.modelfile.reader import magnitude_problem
+
+    defaults = {"length": 1e-3, "mass": 1.0, "angle": math.pi / 180.0, "density": 1.0}
+    values = [0, -0.0, 0.0, 1, -7, 12.5, 1e-9, 123456.789, 2**53 + 1, 10**40, 10**400, 1e300, -1e300]
+    for kind in ("length", "mass", "angle", "density", "inertia", "number"):
+        for value in values:
+            fast, slow = FieldReader("f.toml", defaults, {}), FieldReader("f.toml", defaults, {})
+            try:
+                want: float | str = slow._evaluated(value, kind, "part 'p'", "x")
+                problem = magnitude_problem(want, kind, value)
+                if problem:
+                    want = str(slow.error("part 'p'", "x", problem))
+            except ModelFileError as exc:
+                want = str(exc)
+            try:
+                got: float | str = fast.quantity(value, kind, "part 'p'", "x")
+            except ModelFileError as exc:
+                got = str(exc)
+            assert type(got) is type(want) and (got == want if isinstance(want, str)
+                                                 else np.float64(got).tobytes() == np.float64(want).tobytes()), \
+                (kind, value, got, want)

@@ -310,6 +310,55 @@ def test_leaving_out_back_faces_keeps_the_picture(scene):
         assert len(np.unique(a.reshape(-1, 3), axis=0)) > 50
 
 
+def test_nearest_parts_are_drawn_first(scene):
+    # the drawing order is a reordering of the facing faces, part by part, parts by the nearest corner of their box
+    # (the 8 corners projected on the direction toward the camera, written out here), each part's faces in order
+    from itertools import product
+
+    from massmodel.pictures.viewer import facing_parts, nearest_first, view_camera
+
+    for name in ("side", "top", "iso"):
+        cam = view_camera(scene, name, 800, 600)
+        faces, _ = facing_parts(scene, cam, np.array([3], np.int64))
+        drawn = nearest_first(scene, cam, faces)
+        assert np.array_equal(np.sort(drawn), faces)
+        boxes = scene.boxes()
+        corners = np.array([[boxes[:, i, 0], boxes[:, j, 1], boxes[:, k, 2]] for i, j, k in product((0, 1), repeat=3)])
+        near = np.einsum("cdn,d->nc", corners, cam.toward).max(axis=1)  # (N,)
+        owners = scene.owner[drawn]
+        runs = owners[np.r_[True, owners[1:] != owners[:-1]]]
+        assert len(runs) == len(np.unique(owners))  # each part's faces together
+        assert np.all(np.diff(near[runs]) <= 1e-12)  # nearest first (to rounding)
+        for part in runs[:20]:
+            own = drawn[owners == part]
+            assert np.all(np.diff(own) > 0)
+    assert nearest_first(scene, None, faces) is faces  # the interactive view keeps the order
+
+
+def test_drawing_the_nearest_parts_first_keeps_the_picture(scene):
+    # the depth test decides what is seen whatever the order: the same pixels (no two parts here share a plane)
+    import os
+
+    os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
+    from massmodel.pictures import viewer
+    from massmodel.pictures.viewer import render_views, renderer_problem, view_camera
+
+    problem = renderer_problem()
+    if problem is not None:
+        pytest.skip(problem)
+    cams = [view_camera(scene, name, 700, 450) for name in ("side", "top", "iso")]
+    ordered = [v.image for v in render_views(scene, cams)]
+    original = viewer.nearest_first
+    try:
+        viewer.nearest_first = lambda s, cam, faces: faces  # type: ignore[assignment]
+        plain = [v.image for v in render_views(scene, cams)]
+    finally:
+        viewer.nearest_first = original
+    for a, b in zip(ordered, plain, strict=True):
+        assert np.array_equal(a, b)
+        assert len(np.unique(a.reshape(-1, 3), axis=0)) > 50
+
+
 def test_cross_normals_are_numpys_cross_products():
     # Oracle: np.cross on the gathered corners; the column-wise form must give the very same numbers
     from massmodel.pictures.meshes import cross_normals

@@ -745,6 +745,49 @@ def test_surface_points_include_corners_rims_and_poles() -> None:
     assert np.isclose(r, 0.095).sum() > 0.2 * len(r) and np.isclose(r, 0.12).sum() > 0.2 * len(r)
 
 
+def _rings_one_by_one(profile: Any, n: int) -> np.ndarray:
+    """The surface samples of a solid of revolution made ring after ring (the per-ring loop the vectorised
+    :func:`massmodel.core.geometry.revolve_samples` replaced), duplicates dropped by ``np.unique``."""
+    from massmodel.core import geometry as geo
+
+    spacing = math.sqrt(geo.profile_area(profile) / n)
+    edges = [seg for seg in profile if not seg.on_axis()]
+    perimeter = sum(seg.length() for seg in edges)
+    surface = sum(2.0 * math.pi * float(np.mean(seg.points(8)[:, 0])) * seg.length() for seg in edges)
+    spacing = max(spacing, perimeter / (64 * n), math.sqrt(surface / geo.MAX_REVOLVE_SAMPLES))
+    rings = []
+    for r, z in np.concatenate([seg.points(max(1, math.ceil(seg.length() / spacing))) for seg in edges]):
+        m = max(3, round(2.0 * math.pi * r / spacing)) if r > 0.0 else 1
+        theta = 2.0 * math.pi * np.arange(m) / m
+        rings.append(np.column_stack((r * np.cos(theta), r * np.sin(theta), np.full(m, z))))
+    pts = np.concatenate(rings)
+    _, first = np.unique(pts, axis=0, return_index=True)
+    return pts[np.sort(first)]
+
+
+@pytest.mark.parametrize("name", [k for k in NAMES if hasattr(SAMPLES[k], "meridian_profile")])
+def test_revolve_samples_equal_the_ring_by_ring_samples(name: str) -> None:
+    # all rings at once give the very same floats, in the same order, as one ring at a time
+    from massmodel.core import geometry as geo
+
+    profile = SAMPLES[name].meridian_profile()
+    for n in (1, 5, 60, 400, 3000):
+        assert geo.revolve_samples(profile, n).tobytes() == _rings_one_by_one(profile, n).tobytes()
+
+
+def test_unique_rows_keeps_what_np_unique_keeps() -> None:
+    # the first of each set of equal rows, in input order, as np.unique(axis=0, return_index=True) finds them
+    from massmodel.core.geometry import _unique_rows
+
+    rng = np.random.default_rng(7)
+    for k in range(300):
+        pts = rng.integers(-2, 3, size=(int(rng.integers(0, 50)), 3)) * 0.25
+        if k % 3 == 0 and len(pts):
+            pts[int(rng.integers(len(pts)))] = [-0.0, 0.0, -0.0]  # equal to a row of zeros
+        _, first = np.unique(pts, axis=0, return_index=True)
+        assert _unique_rows(pts).tobytes() == pts[np.sort(first)].tobytes()
+
+
 # ----------------------------------------------------------------------------------------------------------
 # Validation, round trip, registry, point mass, light import
 # ----------------------------------------------------------------------------------------------------------

@@ -286,18 +286,27 @@ def revolve_samples(profile: Sequence[ProfileSegment], n: int) -> np.ndarray:
             continue
         meridian.append(seg.points(max(1, math.ceil(seg.length() / spacing))))
     pts_2d = np.concatenate(meridian, axis=0)
-    out = []
-    for r, z in pts_2d:
-        m = max(3, round(2.0 * math.pi * r / spacing)) if r > 0.0 else 1
-        theta = 2.0 * math.pi * np.arange(m) / m
-        out.append(np.column_stack((r * np.cos(theta), r * np.sin(theta), np.full(m, z))))
-    return _unique_rows(np.concatenate(out, axis=0))
+    # each meridian point (r, z) sweeps a ring of m points at θ_j = 2π j / m (one point on the axis), all rings at
+    # once: the same numbers, in the same order, as ring after ring
+    counts = np.array([max(3, round(2.0 * math.pi * r / spacing)) if r > 0.0 else 1
+                       for r in pts_2d[:, 0].tolist()], dtype=np.int64)
+    ring = np.repeat(np.arange(len(counts)), counts)
+    step = np.arange(len(ring)) - np.repeat(np.cumsum(counts) - counts, counts)  # j within each ring
+    theta = 2.0 * math.pi * step / counts[ring]
+    r, z = pts_2d[ring, 0], pts_2d[ring, 1]
+    return _unique_rows(np.column_stack((r * np.cos(theta), r * np.sin(theta), z)))
 
 
 def _unique_rows(points: np.ndarray) -> np.ndarray:
-    """Drop exact duplicate rows, keeping the first occurrence in order (deterministic)."""
-    _, index = np.unique(points, axis=0, return_index=True)
-    return points[np.sort(index)]
+    """Drop exact duplicate rows, keeping the first occurrence in order (deterministic; the rows that
+    ``np.unique(points, axis=0, return_index=True)`` keeps, with one stable sort of the columns)."""
+    if len(points) < 2:
+        return points
+    order = np.lexsort(points.T[::-1])  # stable: the first of equal rows comes first
+    ranked = points[order]
+    first = np.ones(len(points), bool)
+    first[1:] = np.any(ranked[1:] != ranked[:-1], axis=1)
+    return points[np.sort(order[first])]
 
 
 # --------------------------------------------------------------------------------------------------

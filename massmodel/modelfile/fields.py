@@ -7,6 +7,7 @@ Used by :mod:`massmodel.modelfile.loader`, :mod:`massmodel.modelfile.parts`, :mo
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -131,6 +132,21 @@ class FieldReader(TableReader):
         known = self.si.get((value, kind))
         if known is not None:
             return known
+        plain = _plain_number(value) if kind in self.defaults else None
+        if plain is not None:  # a finite number in the file's unit of this kind: what the expression path gives
+            result = 0.0 if plain == 0.0 else plain * self.defaults[kind]
+        else:
+            result = self._evaluated(value, kind, item, field)
+        problem = magnitude_problem(result, kind, value)
+        if problem:
+            raise self.error(item, field, problem)
+        result = float(result)
+        self.si[(value, kind)] = result
+        return result
+
+    def _evaluated(self, value: int | float | str, kind: str, item: str, field: str) -> float:
+        """The SI value of a scalar of ``kind`` through the expression evaluator (units, parameters, checks of
+        the dimension)."""
         try:
             q = self.evaluate(value)
         except (expr.ExpressionError, units.UnitError) as exc:
@@ -156,11 +172,6 @@ class FieldReader(TableReader):
             else:
                 article = "an" if kind[0] in "aeiou" else "a"
                 raise self.error(item, field, f"expected {article} {kind} ({want}), got {value!r} in {q.dim}")
-        problem = magnitude_problem(result, kind, value)
-        if problem:
-            raise self.error(item, field, problem)
-        result = float(result)
-        self.si[(value, kind)] = result
         return result
 
     def vector(self, value: Any, kind: str, item: str, field: str, n: int = 3) -> np.ndarray:
@@ -189,33 +200,32 @@ class FieldReader(TableReader):
         """``at`` and ``rotate`` of a table (field names in errors start with ``prefix``, e.g. ``cut[0].``)."""
         # the position is finite (checked value by value) and the matrix a product of rotations: a valid pose
         at = self.vector(table["at"], "length", item, prefix + "at") if "at" in table else np.zeros(3)
-        linear = np.eye(3)
-        if "rotate" in table:
-            rot = table["rotate"]
-            if not isinstance(rot, dict):
-                raise self.error(item, prefix + "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
-            kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
-            extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
-            if len(kinds) != 1 or extra or "angles" not in rot:
-                raise self.error(
-                    item, "rotate",
-                    "give exactly one of 'extrinsic' or 'intrinsic' (an axis sequence such as \"xyz\") and 'angles'",
-                )
-            axes = rot[kinds[0]]
-            if not isinstance(axes, str) or not AXES_RE.fullmatch(axes):
-                raise self.error(item, f"{prefix}rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
-            angles = rot["angles"]
-            if not isinstance(angles, list) or len(angles) != len(axes):
-                raise self.error(item, prefix + "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
-            values = tuple(self.scalar(a, "angle", item, prefix + "rotate.angles", i) for i, a in enumerate(angles))
-            key = (kinds[0], axes, values)
-            known = self.rotations.get(key)
-            if known is None:  # the same rotation recurs often (read-only, so poses may share it)
-                known = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
-                known.setflags(write=False)
-                self.rotations[key] = known
-            linear = known
-        return Pose._trusted(linear, at)
+        if "rotate" not in table:
+            return Pose._trusted(np.eye(3), at)
+        rot = table["rotate"]
+        if not isinstance(rot, dict):
+            raise self.error(item, prefix + "rotate", "expected a table like { extrinsic = \"xyz\", angles = [...] }")
+        kinds = [k for k in ("extrinsic", "intrinsic") if k in rot]
+        extra = set(rot) - {"extrinsic", "intrinsic", "angles"}
+        if len(kinds) != 1 or extra or "angles" not in rot:
+            raise self.error(
+                item, "rotate",
+                "give exactly one of 'extrinsic' or 'intrinsic' (an axis sequence such as \"xyz\") and 'angles'",
+            )
+        axes = rot[kinds[0]]
+        if not isinstance(axes, str) or not AXES_RE.fullmatch(axes):
+            raise self.error(item, f"{prefix}rotate.{kinds[0]}", f"expected 1-3 letters from 'xyz', got {axes!r}")
+        angles = rot["angles"]
+        if not isinstance(angles, list) or len(angles) != len(axes):
+            raise self.error(item, prefix + "rotate.angles", f"expected {len(axes)} angles for sequence '{axes}'")
+        values = tuple(self.scalar(a, "angle", item, prefix + "rotate.angles", i) for i, a in enumerate(angles))
+        key = (kinds[0], axes, values)
+        known = self.rotations.get(key)
+        if known is None:  # the same rotation recurs often (read-only, so poses may share it)
+            known = rotation_from_sequence(RotationKind(kinds[0]), axes, values)
+            known.setflags(write=False)
+            self.rotations[key] = known
+        return Pose._trusted(known, at)
 
     def shape_kind(self, table: Mapping[str, Any], item: str, prefix: str = "") -> str:
         kind = table.get("shape")
@@ -264,6 +274,18 @@ class FieldReader(TableReader):
             return shape_from_fields(kind, table, self.base_dir)
         except ShapeError as exc:
             raise self.error(item, prefix + (getattr(exc, "field", None) or "file"), str(exc)) from None
+
+
+def _plain_number(value: Any) -> float | None:
+    """A TOML integer or float as a finite float (as :func:`massmodel.core.expr.evaluate` reads it), or None for
+    anything else (texts, bools, numbers too large to be finite: the evaluator judges those)."""
+    if type(value) is not float and type(value) is not int:
+        return None
+    try:
+        number = float(value)
+    except OverflowError:
+        return None
+    return number if math.isfinite(number) else None
 
 
 def shape_keys(kind: Any) -> set[str]:

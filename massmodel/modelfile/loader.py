@@ -337,6 +337,7 @@ def _build(
     optional: set[str] = set()
     seen: dict[str, str] = {}
     frames: dict[str, Pose] = {}
+    optional_groups = any(g.optional for g in groups.values())  # else no part is left out by its groups
 
     def add(made: list[Component], reader: FieldReader, item: str) -> None:
         for c in made:
@@ -349,7 +350,8 @@ def _build(
         prd = rd.for_table(table)
         made = part_components(prd, table, i, groups, materials, mirror, frames)
         add(made, prd, f"part '{table['path']}'")
-        if _optional(prd, table, f"part '{table.get('path')}'", enclosing_groups(str(table.get("path")), groups)):
+        enclosing = enclosing_groups(str(table.get("path")), groups) if optional_groups else ()
+        if _optional(prd, table, f"part '{table.get('path')}'", enclosing):
             optional.update(c.path for c in made)
     for i, table in enumerate(rd.table_list(data, "driver")):
         drd = rd.for_table(table)

@@ -52,7 +52,7 @@ def part_components(
     path = path_of(rd, table, "part", index)
     item = f"part '{path}'"
     rd.shape_kind(table, item)
-    rd.check_fields(table, PART_FIELDS | shape_keys(table.get("shape")), item)
+    rd.check_fields(table, _part_fields(table.get("shape")), item)
     shape = rd.shape(table, item)
     local_pose = rd.pose(table, item)
     cutouts = _cutouts(rd, table, item, shape)
@@ -174,6 +174,19 @@ def part_components(
         except ValueError as exc:
             raise rd.error(item, source.value, str(exc).split(": ", 2)[-1]) from None
     return out
+
+
+def _part_fields(kind: Any) -> set[str]:
+    """The fields a [[part]] of shape ``kind`` may have (one set a shape kind, made once)."""
+    if not isinstance(kind, str):
+        return PART_FIELDS
+    fields = _PART_FIELDS_OF.get(kind)
+    if fields is None:
+        fields = _PART_FIELDS_OF[kind] = PART_FIELDS | shape_keys(kind)
+    return fields
+
+
+_PART_FIELDS_OF: dict[str, set[str]] = {}  # read only by TableReader.check_fields
 
 
 def _cutouts(rd: FieldReader, table: Mapping[str, Any], item: str, parent: Any) -> tuple[Cutout, ...]:

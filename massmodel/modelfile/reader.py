@@ -306,15 +306,12 @@ def split_vector(value: Any, n: int | None = 3, what: str = "point") -> list[Any
     >>> split_vector(["1 m", 0, "x"])
     ['1 m', 0, 'x']
     """
-    example = ", ".join(f"{10 * (k + 1)}" for k in range(n or 2)) + " mm"
-    count = "values" if n is None else f"{n} values"
-    usage = f"expected a {what}: a list of {count} or a text such as '{example}', got {value!r}"
     if isinstance(value, (list, tuple)):
         if (n is not None and len(value) != n) or not value:
-            raise ValueError(usage)
+            raise ValueError(_vector_usage(value, n, what))
         return list(value)
     if not isinstance(value, str):
-        raise ValueError(usage)
+        raise ValueError(_vector_usage(value, n, what))
     parts = _split_top(_unbracket(value.strip()))
     if len(parts) == 1 and n is not None and n > 1:  # "10 20 -265" (numbers separated by spaces, as some CAD tools write them)
         words = value.split()
@@ -323,12 +320,19 @@ def split_vector(value: Any, n: int | None = 3, what: str = "point") -> list[Any
             if len(words) == n + 1:
                 parts[-1] += " " + words[n]
     if (n is not None and len(parts) != n) or not all(parts):
-        raise ValueError(usage)
+        raise ValueError(_vector_usage(value, n, what))
     last = _NUMBER_UNIT.fullmatch(parts[-1])
     if last and all(_PLAIN.fullmatch(p) for p in parts[:-1]):
         unit = last.group(2).strip()
         parts = [f"{p} {unit}" for p in parts[:-1]] + [parts[-1]]
     return parts
+
+
+def _vector_usage(value: Any, n: int | None, what: str) -> str:
+    """The message of :func:`split_vector` for a value in none of the accepted forms (made only then)."""
+    example = ", ".join(f"{10 * (k + 1)}" for k in range(n or 2)) + " mm"
+    count = "values" if n is None else f"{n} values"
+    return f"expected a {what}: a list of {count} or a text such as '{example}', got {value!r}"
 
 
 class TableReader:

@@ -105,8 +105,11 @@ def _revolve_signature(shape: RevolvedShape, tol: float) -> tuple[tuple[Any, ...
     profile_tol = 0.5 * tol if curved else tol
     around_tol = tol - profile_tol if curved else tol
     # a straight edge is one chord: its only loop point is its start (ProfileLine.points(1)[:-1])
-    loop = np.concatenate([[seg.start] if isinstance(seg, geo.ProfileLine) else seg.points(seg.chords(profile_tol))[:-1]
-                           for seg in profile], axis=0)
+    if curved:
+        loop = np.concatenate([[seg.start] if isinstance(seg, geo.ProfileLine)
+                               else seg.points(seg.chords(profile_tol))[:-1] for seg in profile], axis=0)
+    else:
+        loop = np.array([seg.start for seg in profile], dtype=float)
     n = geo.segments_for_arc(float(loop[:, 0].max()), 2.0 * math.pi, around_tol)
     return (n, tuple((loop[:, 0] == 0.0).tolist())), loop
 

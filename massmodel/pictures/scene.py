@@ -154,6 +154,9 @@ class Scene:
 
     Attributes
     ----------
+    report : dict
+        :func:`massmodel.report.summary.build_report` of the model, streamed (``components`` is a
+        ``ComponentEntries``: its length, and each part's entry made only when iterated).
     vertices : (V, 3) float
         Vertices of all parts, m.
     faces : (F, 3) int
@@ -448,7 +451,7 @@ def build_scene(model: Model, options: SceneOptions | None = None) -> Scene:
     if not model.components:
         raise UsageError(f"model '{model.name}' has no components to draw")
     t0 = time.perf_counter()
-    report = build_report(model)
+    report = build_report(model, stream=True)  # the sheet reads totals, rules and the number of components
     total = model.mass_properties()
     colours, legend, legend_title, group_colour = _legend_and_colours(model, opts, total.mass)
     part_rgb = np.array([hex_to_rgb(c) for c in colours], dtype=np.uint8)

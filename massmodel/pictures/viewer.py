@@ -323,6 +323,29 @@ def facing_parts(scene: Scene, cam: ViewCamera | None,
     return np.flatnonzero(face_on), np.flatnonzero(edge_on)
 
 
+def nearest_first(scene: Scene, cam: ViewCamera | None, faces: npt.NDArray[np.int64]) -> npt.NDArray[np.int64]:
+    """``faces`` (indices into ``scene.faces``, ascending) in drawing order: part by part, the part whose box reaches
+    nearest the camera first, each part's faces in their own order.
+
+    Drawn in this order, most of what lies behind is rejected by the depth test before it is shaded (the renderer
+    tests depth early), so a view of many overlapping parts draws faster. The picture is the same, except where two
+    parts' faces lie exactly in one plane and overlap: there the depth test keeps whichever comes first. Faces are
+    left as they are for the interactive view (``cam`` None) and for a scene that does not know its parts' face
+    ranges.
+    """
+    if cam is None or scene.face_start is None or len(faces) == 0:
+        return faces
+    from .merge import gather_ranges
+
+    boxes = scene.boxes()
+    toward = np.asarray(cam.toward, float)
+    near = np.maximum(boxes[:, 0] * toward, boxes[:, 1] * toward).sum(axis=1)  # the box's nearest corner, m
+    order = np.argsort(-near, kind="stable")
+    counts = np.bincount(scene.owner[faces], minlength=len(boxes))  # faces of each part among ``faces``
+    starts = np.cumsum(counts) - counts
+    return faces[gather_ranges(starts[order], counts[order])]
+
+
 def _fixed_marks(scene: Scene) -> list[Prop]:
     """Layer-1 actors that do not change with the view: slot envelopes and ballast outlines."""
     from . import vtkbits as vb
@@ -344,7 +367,7 @@ def _view_props(scene: Scene, points: Any, cam: ViewCamera | None, clear: npt.ND
     from . import vtkbits as vb
 
     faces, edges = facing_parts(scene, cam, clear)
-    out = _faces_prop(scene, points, faces, 1.0)
+    out = _faces_prop(scene, points, nearest_first(scene, cam, faces), 1.0)
     out += _faces_prop(scene, points, scene.part_faces(clear), TRANSLUCENT_OPACITY)
     out += _edges_prop(scene, points, edges, False)
     out += _edges_prop(scene, points, np.flatnonzero(np.isin(scene.edge_owner, clear)), True)
