@@ -14,7 +14,7 @@ from massmodel.cli import EXIT_USAGE, main
 from massmodel.compare.estimate import EstimateError, loads_estimate
 from massmodel.core import expr
 from massmodel.core.errors import InputError
-from massmodel.core.geometry import MAX_POLYGON_CORNERS, polygon_problem
+from massmodel.core.polygons import MAX_POLYGON_CORNERS, polygon_problem
 from massmodel.core.shapes import MIN_LENGTH_M, Extrusion, ShapeError
 from massmodel.measure.session import MeasurementFileError, loads_session
 from massmodel.modelfile.loader import load_model, loads_model

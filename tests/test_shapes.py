@@ -777,7 +777,7 @@ def test_revolve_samples_equal_the_ring_by_ring_samples(name: str) -> None:
 
 def test_unique_rows_keeps_what_np_unique_keeps() -> None:
     # the first of each set of equal rows, in input order, as np.unique(axis=0, return_index=True) finds them
-    from massmodel.core.geometry import _unique_rows
+    from massmodel.core.geometry import unique_rows
 
     rng = np.random.default_rng(7)
     for k in range(300):
@@ -785,7 +785,7 @@ def test_unique_rows_keeps_what_np_unique_keeps() -> None:
         if k % 3 == 0 and len(pts):
             pts[int(rng.integers(len(pts)))] = [-0.0, 0.0, -0.0]  # equal to a row of zeros
         _, first = np.unique(pts, axis=0, return_index=True)
-        assert _unique_rows(pts).tobytes() == pts[np.sort(first)].tobytes()
+        assert unique_rows(pts).tobytes() == pts[np.sort(first)].tobytes()
 
 
 # ----------------------------------------------------------------------------------------------------------

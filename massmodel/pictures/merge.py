@@ -87,7 +87,7 @@ def _box_family(shapes: Sequence[Box]) -> Mesh:
     """Stacked vertices (G·8, 3) and the shared faces of boxes, as ``Box.mesh_arrays`` makes them."""
     half = 0.5 * np.array([[s.size_x, s.size_y, s.size_z] for s in shapes])  # (G, 3)
     hx, hy, hz = half[:, 0], half[:, 1], half[:, 2]
-    # outline (-hx,-hy) (hx,-hy) (hx,hy) (-hx,hy), bottom ring at -hz then top ring at +hz (geometry.prism_mesh)
+    # outline (-hx,-hy) (hx,-hy) (hx,hy) (-hx,hy), bottom ring at -hz then top ring at +hz (polygons.prism_mesh)
     xs = np.stack([-hx, hx, hx, -hx], axis=1)
     ys = np.stack([-hy, -hy, hy, hy], axis=1)
     v = np.empty((len(shapes), 8, 3))

@@ -39,6 +39,7 @@ from typing import Any, ClassVar
 import numpy as np
 
 from massmodel.core import geometry as _geo
+from massmodel.core import polygons as _poly
 from massmodel.core.errors import UserError
 
 __all__ = ["MAX_LENGTH_M", "PrismShape", "RevolvedShape", "Shape", "ShapeError"]
@@ -251,11 +252,11 @@ class PrismShape(Shape):
 
     def _surface_samples(self, n: int) -> np.ndarray:
         xy, z0, z1 = self.prism_outline()
-        return _geo.prism_samples(xy, z0, z1, n)
+        return _poly.prism_samples(xy, z0, z1, n)
 
     def _mesh_arrays(self, chord_tolerance: float) -> tuple[np.ndarray, np.ndarray]:
         xy, z0, z1 = self.prism_outline()
-        return _geo.prism_mesh(xy, z0, z1)
+        return _poly.prism_mesh(xy, z0, z1)
 
 
 def profile_lines(corners: list[tuple[float, float]]) -> list[_geo.ProfileSegment]:

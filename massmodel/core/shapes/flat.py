@@ -12,7 +12,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from massmodel.core import geometry as _geo
+from massmodel.core import polygons as _poly
 from massmodel.core.shapes.base import PrismShape, ShapeError, _as_length, _diag
 
 __all__ = ["Box", "Extrusion", "Wedge"]
@@ -165,17 +165,17 @@ class Extrusion(PrismShape):
     def outline_ccw(self) -> np.ndarray:
         """The polygon corners counter-clockwise, (N, 2) float, m."""
         xy = np.array(self.vertices, dtype=float)
-        return xy if _geo.signed_area(xy) > 0.0 else xy[::-1].copy()
+        return xy if _poly.signed_area(xy) > 0.0 else xy[::-1].copy()
 
     def volume(self) -> float:
-        return _geo.polygon_moments(self.outline_ccw())[0] * self.thickness
+        return _poly.polygon_moments(self.outline_ccw())[0] * self.thickness
 
     def centroid(self) -> np.ndarray:
-        _, c, _ = _geo.polygon_moments(self.outline_ccw())
+        _, c, _ = _poly.polygon_moments(self.outline_ccw())
         return np.array([c[0], c[1], 0.5 * self.thickness])
 
     def inertia_per_density(self) -> np.ndarray:
-        area, _, s = _geo.polygon_moments(self.outline_ccw())
+        area, _, s = _poly.polygon_moments(self.outline_ccw())
         t = self.thickness
         slab = area * t**3 / 12.0
         tensor = _diag(t * s[1, 1] + slab, t * s[0, 0] + slab, t * (s[0, 0] + s[1, 1]))
@@ -185,7 +185,7 @@ class Extrusion(PrismShape):
     def prism_outline(self) -> tuple[np.ndarray, float, float]:
         xy = self.outline_ccw()
         scale = float(np.ptp(xy, axis=0).max())
-        return _geo.drop_collinear(xy, 1e-13 * scale * scale), 0.0, self.thickness
+        return _poly.drop_collinear(xy, 1e-13 * scale * scale), 0.0, self.thickness
 
     def bounds(self) -> np.ndarray:
         xy = np.array(self.vertices)
@@ -197,7 +197,7 @@ class Extrusion(PrismShape):
         result = (p[:, 2] >= -tol) & (p[:, 2] <= self.thickness + tol)
         if np.any(result):
             q = p[result, :2]
-            result[result] = _geo.point_in_polygon(q, xy) | (_geo.distance_to_polygon_boundary(q, xy) <= tol)
+            result[result] = _poly.point_in_polygon(q, xy) | (_poly.distance_to_polygon_boundary(q, xy) <= tol)
         return np.asarray(result)
 
 
@@ -226,7 +226,7 @@ def _validate_polygon(kind: str, vertices: object) -> tuple[tuple[float, float],
         pairs.append((x, y))
     if len(pairs) < 3:
         raise ShapeError(f"{field} needs at least 3 corners, got {len(pairs)}", field, kind)
-    problem = _geo.polygon_problem(np.array(pairs))
+    problem = _poly.polygon_problem(np.array(pairs))
     if problem is not None:
         raise ShapeError(f"{field}: {problem}", field, kind)
     return tuple(pairs)
