@@ -285,25 +285,26 @@ def test_each_view_draws_the_faces_and_edges_that_can_be_seen(scene):
     assert len(everything) == len(scene.faces) and len(all_edges) == len(scene.edges)  # the interactive view
 
 
-def test_leaving_out_back_faces_keeps_the_picture(scene):
-    # a render with every face and one with the facing faces only differ in no more than a few edge pixels
-    import os
-
-    os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
+def _renders_with_and_without(scene, monkeypatch, views, name, replacement):
+    """The images of ``views`` as drawn, and again with ``massmodel.pictures.viewer.<name>`` replaced by
+    ``replacement(original)`` (skipped where no off-screen OpenGL context can be made)."""
+    monkeypatch.setenv("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
     from massmodel.pictures import viewer
     from massmodel.pictures.viewer import render_views, renderer_problem, view_camera
 
     problem = renderer_problem()
     if problem is not None:
         pytest.skip(problem)
-    cams = [view_camera(scene, name, 700, 450) for name in ("side", "front", "iso")]
-    culled = [v.image for v in render_views(scene, cams)]
-    original = viewer.facing_parts
-    try:
-        viewer.facing_parts = lambda s, cam, clear: original(s, None, clear)  # type: ignore[assignment]
-        full = [v.image for v in render_views(scene, cams)]
-    finally:
-        viewer.facing_parts = original
+    cams = [view_camera(scene, view, 700, 450) for view in views]
+    drawn = [v.image for v in render_views(scene, cams)]
+    monkeypatch.setattr(viewer, name, replacement(getattr(viewer, name)))
+    return drawn, [v.image for v in render_views(scene, cams)]
+
+
+def test_leaving_out_back_faces_keeps_the_picture(scene, monkeypatch):
+    # a render with every face and one with the facing faces only differ in no more than a few edge pixels
+    culled, full = _renders_with_and_without(scene, monkeypatch, ("side", "front", "iso"), "facing_parts",
+                                             lambda original: lambda s, cam, clear: original(s, None, clear))
     for a, b in zip(culled, full, strict=True):
         changed = np.abs(a.astype(int) - b.astype(int)).max(axis=2) > 0
         assert changed.mean() < 0.005
@@ -335,25 +336,10 @@ def test_nearest_parts_are_drawn_first(scene):
     assert nearest_first(scene, None, faces) is faces  # the interactive view keeps the order
 
 
-def test_drawing_the_nearest_parts_first_keeps_the_picture(scene):
+def test_drawing_the_nearest_parts_first_keeps_the_picture(scene, monkeypatch):
     # the depth test decides what is seen whatever the order: the same pixels (no two parts here share a plane)
-    import os
-
-    os.environ.setdefault("VTK_DEFAULT_OPENGL_WINDOW", "vtkEGLRenderWindow")
-    from massmodel.pictures import viewer
-    from massmodel.pictures.viewer import render_views, renderer_problem, view_camera
-
-    problem = renderer_problem()
-    if problem is not None:
-        pytest.skip(problem)
-    cams = [view_camera(scene, name, 700, 450) for name in ("side", "top", "iso")]
-    ordered = [v.image for v in render_views(scene, cams)]
-    original = viewer.nearest_first
-    try:
-        viewer.nearest_first = lambda s, cam, faces: faces  # type: ignore[assignment]
-        plain = [v.image for v in render_views(scene, cams)]
-    finally:
-        viewer.nearest_first = original
+    ordered, plain = _renders_with_and_without(scene, monkeypatch, ("side", "top", "iso"), "nearest_first",
+                                               lambda original: lambda s, cam, faces: faces)
     for a, b in zip(ordered, plain, strict=True):
         assert np.array_equal(a, b)
         assert len(np.unique(a.reshape(-1, 3), axis=0)) > 50
