@@ -21,7 +21,6 @@ Run: ``.venv/bin/python benchmarks/bench_cad_imports.py``.
 
 from __future__ import annotations
 
-import json
 import os
 import subprocess
 import sys
@@ -31,30 +30,12 @@ from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from targets import Targets  # noqa: E402
+from targets import CliRun, Targets, run_cli  # noqa: E402
 
 RATIO = 0.5  # size-block / import cadquery, cold wall
 REPEATS = 3
 CAR = "parts_demo/brindlecombe_bl3.toml"
 PLAN = "parts_demo/bl3_ballast_plan.toml"
-
-# Runs ``python -m massmodel ARGS`` in this interpreter and writes, to stderr, its peak resident memory (VmHWM of
-# /proc/self/status, KiB) and which CAD libraries it loaded.
-CHILD = """
-import json, runpy, sys
-sys.argv = ["massmodel", *sys.argv[1:]]
-code = 0
-try:
-    runpy.run_module("massmodel", run_name="__main__")
-except SystemExit as done:
-    code = done.code if isinstance(done.code, int) else (0 if done.code is None else 2)
-with open("/proc/self/status") as status:
-    kib = next(int(line.split()[1]) for line in status if line.startswith("VmHWM:"))
-tops = {m.split(".")[0] for m in sys.modules}
-sys.stderr.write(json.dumps({"code": code, "kib": kib, "cadquery": "cadquery" in tops, "OCP": "OCP" in tops})
-                 + "\\n")
-"""
-
 
 def _env() -> dict[str, str]:
     env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
@@ -70,17 +51,10 @@ def wall(argv: list[str]) -> tuple[float, str]:
     return time.perf_counter() - t0, done.stderr
 
 
-def command(args: list[str]) -> tuple[float, dict]:
-    """Wall time (s) and the child's report (exit code, peak KiB, cadquery, OCP) of ``python -m massmodel ARGS``.
-
-    A command that stops on bad input (exit 2) did not do the work being timed: that ends the benchmark (0 and 1,
-    a failed check, are normal ends).
-    """
-    seconds, err = wall(["-c", CHILD, *args])
-    report = json.loads(err.strip().splitlines()[-1])
-    if report["code"] not in (0, 1):
-        raise RuntimeError(f"massmodel {' '.join(args)} exited {report['code']}: {err.strip()[-2000:]}")
-    return seconds, report
+def command(args: list[str]) -> CliRun:
+    """Wall time, peak memory and loaded modules of ``python -m massmodel ARGS`` (:func:`targets.run_cli`; exit 1,
+    a failed check, is a normal end)."""
+    return run_cli(args, REPO, _env(), ok_codes=(0, 1))
 
 
 def main() -> int:
@@ -105,18 +79,18 @@ def main() -> int:
         t_cq = t_size = float("inf")
         for _ in range(REPEATS):  # interleaved: the machine is shared
             t_cq = min(t_cq, wall(["-c", "import cadquery"])[0])
-            t_size = min(t_size, command(size_block)[0])
+            t_size = min(t_size, command(size_block).seconds)
         out.info('python -c "import cadquery", wall', t_cq, " s")
         out.info("size-block (no STEP/STL), wall", t_size, " s")
         out.at_most("size-block (no STEP/STL) / import cadquery, cold wall", t_size / t_cq, RATIO)
         importing = []
         for name, args in commands.items():
-            seconds, report = command(args)
-            libs = "cadquery" if report["cadquery"] else ("OCP" if report["OCP"] else "neither")
-            out.info(f"{name}: wall", seconds, " s")
-            out.info(f"{name}: peak memory (VmHWM)", report["kib"] / 1024.0, " MiB")
+            run = command(args)
+            libs = "cadquery" if "cadquery" in run.modules else ("OCP" if "OCP" in run.modules else "neither")
+            out.info(f"{name}: wall", run.seconds, " s")
+            out.info(f"{name}: peak memory (VmHWM)", run.kib / 1024.0, " MiB")
             out.info(f"{name}: loads cadquery / OCP / neither", libs)
-            if report["cadquery"]:
+            if "cadquery" in run.modules:
                 importing.append(name)
         out.at_most("CAD commands importing cadquery", float(len(importing)), 0.0, "")
         if importing:

@@ -33,7 +33,7 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from targets import Targets, best_cpu  # noqa: E402
+from targets import Targets, best_cpu, run_cli  # noqa: E402
 
 REPORT_RATIO = 3.0  # report / tomllib parse
 PEAK_MIB = 250.0  # peak resident memory of the report command
@@ -130,28 +130,6 @@ def cli_wall(args: list[str], repeats: int = 3) -> float:
     return best
 
 
-# Runs the report command in a fresh interpreter and reports its peak resident memory and whether it imported numba.
-# The peak is VmHWM of /proc/self/status (the high-water mark of this process image, reset by exec); ru_maxrss of
-# getrusage is the fallback where /proc is missing (on Linux it keeps the parent's peak across fork and exec).
-PEAK_SCRIPT = """
-import resource, runpy, sys
-sys.argv = ["massmodel", *sys.argv[1:]]
-code = 0
-try:
-    runpy.run_module("massmodel", run_name="__main__")
-except SystemExit as done:
-    code = done.code if isinstance(done.code, int) else (0 if done.code is None else 2)
-try:
-    with open("/proc/self/status") as status:
-        kib = next(int(line.split()[1]) for line in status if line.startswith("VmHWM:"))
-except OSError:
-    kib = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-sys.stderr.write(f"{kib} {'numba' in sys.modules} {code}\\n")
-"""
-
-
-# The steps of the report command in a fresh interpreter, with the resident set (VmRSS) and its peak so far (VmHWM)
-# after each: where the memory goes (Linux only; nothing is printed where /proc is missing).
 STAGES_SCRIPT = """
 import json, os, sys
 def rss():
@@ -191,14 +169,10 @@ def child_stages(path: Path, out: Path) -> list[tuple[str, list[float]]]:
 
 
 def child_peak(args: list[str]) -> tuple[float, bool]:
-    """(peak resident memory in MiB, numba imported) of ``python -m massmodel ARGS`` in a subprocess."""
-    env = {**os.environ, "PYTHONPATH": str(REPO)}
-    done = subprocess.run([sys.executable, "-c", PEAK_SCRIPT, *args], cwd=REPO, env=env, check=True,
-                          stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
-    kib, numba, code = done.stderr.strip().splitlines()[-1].split()
-    if code != "0":  # a report that stopped early would show a small peak: not the peak of the work measured
-        raise RuntimeError(f"massmodel {' '.join(args)} exited {code}: {done.stderr.strip()[-2000:]}")
-    return int(kib) / 1024.0, numba == "True"
+    """(peak resident memory in MiB, numba imported) of ``python -m massmodel ARGS`` in a subprocess
+    (:func:`targets.run_cli`)."""
+    run = run_cli(args, REPO, {**os.environ, "PYTHONPATH": str(REPO)})
+    return run.kib / 1024.0, "numba" in run.modules
 
 
 def main(argv: list[str]) -> int:
