@@ -76,8 +76,9 @@ def test_step_and_stl_of_the_blocks_round_trip(placed):
 
 
 def test_the_blocks_step_header_names_the_file_and_massmodel(placed):
-    # ISO 10303-21 §8.2: FILE_NAME carries the file's name and the originating system; the bytes were written to a
-    # temporary file first, whose name must not be what the header records (nor OpenCascade's default header)
+    # ISO 10303-21 §8.2 (docs/references.md §13): FILE_NAME carries the file's name and the originating system; the
+    # bytes were written to a temporary file first, whose name must not be what the header records (nor OpenCascade's
+    # default header)
     out, _ = placed
     header = (out / "blocks.step").read_text(encoding="ascii").split("ENDSEC;")[0]
     assert "FILE_NAME('blocks.step'" in header

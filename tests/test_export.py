@@ -173,7 +173,7 @@ def _trsf_matrix(loc: TopLoc_Location) -> np.ndarray:
 def test_step_round_trip_names_nesting_colours_placements_volumes(exported):
     model, out, result = exported
     text = (out / "round-trip-1.step").read_text()
-    assert "FILE_SCHEMA(('AUTOMOTIVE_DESIGN" in text  # ISO 10303-214 (AP214) schema name
+    assert "FILE_SCHEMA(('AUTOMOTIVE_DESIGN" in text  # ISO 10303-214 (AP214) schema name, docs/references.md §13
     assert "SI_UNIT(.MILLI.,.METRE.)" in text  # the length unit is stated: mm
     leaves = read_step_leaves(out / "round-trip-1.step")
     assert sorted(leaves) == sorted(c.path for c in model.components)
@@ -504,8 +504,9 @@ def test_leftovers_of_a_running_export_are_kept(tmp_path):
                                          (Format.GLB, "more than a GLB file can hold")])
 def test_an_export_too_large_for_its_format_stops_with_one_line(exported, tmp_path, monkeypatch, fmt, words):
     # A binary STL states its triangle count and a GLB its length in uint32 fields (3D Systems' STL specification;
-    # Khronos glTF 2.0 §4.4): past 2^32 - 1 the export stops with an ExportError (one line, exit 2) instead of a
-    # struct.error traceback at the end. The limit is lowered here so that a small model reaches it.
+    # Khronos glTF 2.0 §4.4, docs/references.md §13): past 2^32 - 1 the export stops with an ExportError (one line,
+    # exit 2) instead of a struct.error traceback at the end. The limit is lowered here so that a small model reaches
+    # it.
     import massmodel.cad.mesh_writers as mw
 
     model, _, _ = exported

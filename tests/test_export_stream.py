@@ -161,8 +161,8 @@ pattern = { count = 3, step = [0, 0, 5] }
 
 
 def test_step_reals_and_strings():
-    # ISO 10303-21 §6.3.2: a real has a decimal point (and an optional exponent E); §6.4.3: a quote in a string is
-    # doubled, a backslash doubled, characters beyond ASCII written as \X2\ (UCS-2 hex) ... \X0\.
+    # ISO 10303-21 (docs/references.md §13) §6.3.2: a real has a decimal point (and an optional exponent E); §6.4.3: a
+    # quote in a string is doubled, a backslash doubled, characters beyond ASCII written as \X2\ (UCS-2 hex) ... \X0\.
     from massmodel.cad.step_writer import _real, _string
 
     assert [_real(x) for x in (1.0, -0.0, 250.5, 1e-7, -3.25e22)] == ["1.0", "0.0", "250.5", "1.E-07", "-3.25E+22"]
@@ -173,8 +173,9 @@ def test_step_reals_and_strings():
 
 
 def test_the_step_file_is_ascii_with_names_beyond_it_encoded(tmp_path):
-    # ISO 10303-21 §6.4.3.3: characters beyond ASCII in any string, the header's included (the file name, the
-    # description naming the model), are written as \X2\ hex; a quote is doubled. The file's bytes are all ASCII.
+    # ISO 10303-21 (docs/references.md §13) §6.4.3.3: characters beyond ASCII in any string, the header's included
+    # (the file name, the description naming the model), are written as \X2\ hex; a quote is doubled. The file's bytes
+    # are all ASCII.
     model = loads_model('[model]\nname = "Crew\'s Zürich car"\n[[part]]\npath = "a/b"\nshape = "box"\n'
                         'size = ["1 cm", "2 cm", "3 cm"]\nmaterial = "lead"\nmaturity = "measured"\n', label="z.toml")
     export_model(model, tmp_path, ExportOptions(formats=frozenset({Format.STEP})), stem="zürich")
@@ -202,7 +203,8 @@ def test_export_does_not_import_cadquery(tmp_path):
 
 
 def test_glb_stream_shares_identical_buffers_and_keeps_a_node_without_triangles(tmp_path):
-    # glTF 2.0 (Khronos) §5.25: a node's mesh is optional; §3.6.2: accessors may share a buffer view
+    # glTF 2.0 (Khronos; docs/references.md §13) §5.25: a node's mesh is optional; §3.6.2: accessors may share a
+    # buffer view
     import trimesh
 
     from massmodel.cad.mesh_writers import GlbStream
